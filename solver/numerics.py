@@ -1,0 +1,73 @@
+"""Numerical options and the strong-stability-preserving Runge-Kutta tableaux.
+
+A time integrator is data: each stage k forms U_k = a_k * U_0 + b_k * (U_{k-1} + dt * L(U_{k-1}))
+(the Shu-Osher form). One generic stage loop in `simulation.py` runs any tableau.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+#: Slope limiters by scenario name -> kernel id. id 0 is first order (no slope).
+LIMITERS: dict[str, int] = {"minmod": 1, "van_leer": 2, "mc": 3}
+#: Approximate Riemann solvers (numerical fluxes) by name -> kernel id.
+FLUXES: dict[str, int] = {"hllc": 0, "hll": 1, "rusanov": 2}
+
+CFL_MIN, CFL_MAX = 0.01, 0.9
+
+
+@dataclass(frozen=True)
+class SSPTableau:
+    """Shu-Osher coefficients (a_k, b_k) of an SSP Runge-Kutta method."""
+
+    name: str
+    stages: tuple[tuple[float, float], ...]
+
+
+#: Shu and Osher, J. Comput. Phys. 77 (1988); Gottlieb and Shu, Math. Comp. 67 (1998).
+SSP_RK2 = SSPTableau("ssp_rk2", ((0.0, 1.0), (0.5, 0.5)))
+SSP_RK3 = SSPTableau("ssp_rk3", ((0.0, 1.0), (0.75, 0.25), (1.0 / 3.0, 2.0 / 3.0)))
+INTEGRATORS: dict[str, SSPTableau] = {t.name: t for t in (SSP_RK2, SSP_RK3)}
+
+
+def _choice(field: str, value: str, allowed: dict) -> None:
+    if value not in allowed:
+        raise ValueError(f"{field} = {value!r} is not one of: {', '.join(allowed)}")
+
+
+@dataclass(frozen=True)
+class Numerics:
+    """How the equations are discretised.
+
+    order: 1 (piecewise constant) or 2 (MUSCL reconstruction of primitive variables).
+    limiter: slope limiter for order 2 (minmod, van_leer, mc).
+    flux: numerical flux (hllc, hll, rusanov).
+    cfl: Courant number used to pick the time step every step.
+    integrator: ssp_rk2 or ssp_rk3.
+    """
+
+    order: int = 2
+    limiter: str = "van_leer"
+    flux: str = "hllc"
+    cfl: float = 0.4
+    integrator: str = "ssp_rk2"
+
+    def __post_init__(self) -> None:
+        if self.order not in (1, 2):
+            raise ValueError(f"order = {self.order!r} is not one of: 1, 2")
+        _choice("limiter", self.limiter, LIMITERS)
+        _choice("flux", self.flux, FLUXES)
+        _choice("integrator", self.integrator, INTEGRATORS)
+        if not (CFL_MIN <= self.cfl <= CFL_MAX):
+            raise ValueError(f"cfl = {self.cfl!r} is outside the allowed range {CFL_MIN} to {CFL_MAX}")
+
+    @property
+    def limiter_id(self) -> int:
+        return 0 if self.order == 1 else LIMITERS[self.limiter]
+
+    @property
+    def flux_id(self) -> int:
+        return FLUXES[self.flux]
+
+    @property
+    def tableau(self) -> SSPTableau:
+        return INTEGRATORS[self.integrator]

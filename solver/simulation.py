@@ -1,0 +1,400 @@
+"""A running flow: the padded state arrays, the time step and the stage loop.
+
+`Setup` says what is simulated (domain, gas, mode, edges, conditions, numerics); the mask says
+which cell is what. `Simulation` owns the arrays and advances them; everything that can change
+while it runs (conditions, gas, numerics, sketch, resolution) has a method that keeps the flow.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from . import kernels
+from .conditions import Conditions, held_table
+from .domain import Domain
+from .errors import SolverDiverged
+from .gas import AIR, Gas
+from .kinds import EDGE_GHOST_KIND, HELD_KINDS, CellKind
+from .numerics import Numerics
+
+MODES = ("planar", "axisymmetric")
+GHOST = 2
+_VARIABLES = ("density", "x-momentum", "y-momentum", "total energy")
+#: Floors, relative to the largest held or initial density / pressure.
+FLOOR_FRACTION = 1.0e-10
+
+
+@dataclass(frozen=True)
+class Edges:
+    """Condition on each domain edge: wall, open, ambient, stream or axis (axisymmetric bottom only)."""
+
+    left: str = "wall"
+    right: str = "open"
+    bottom: str = "wall"
+    top: str = "wall"
+
+    def __post_init__(self) -> None:
+        for side in ("left", "right", "bottom", "top"):
+            value = getattr(self, side)
+            if value not in EDGE_GHOST_KIND:
+                raise ValueError(f"edges.{side} = {value!r} is not one of: {', '.join(EDGE_GHOST_KIND)}")
+
+
+@dataclass(frozen=True)
+class Setup:
+    """Everything about a simulation except the sketch mask and the flow state."""
+
+    domain: Domain
+    gas: Gas = AIR
+    mode: str = "planar"
+    edges: Edges = field(default_factory=Edges)
+    conditions: Conditions = field(default_factory=Conditions)
+    numerics: Numerics = field(default_factory=Numerics)
+
+    def __post_init__(self) -> None:
+        if self.mode not in MODES:
+            raise ValueError(f"mode = {self.mode!r} is not one of: {', '.join(MODES)}")
+        for side in ("left", "right", "top"):
+            if getattr(self.edges, side) == "axis":
+                raise ValueError(f"edges.{side} = 'axis' is not allowed: only the bottom edge can be the axis")
+        if self.mode == "axisymmetric":
+            if self.edges.bottom != "axis":
+                raise ValueError(f"edges.bottom = {self.edges.bottom!r}: an axisymmetric domain needs 'axis' there")
+            if self.domain.y_min_m != 0.0:
+                raise ValueError(f"domain.y_min_m = {self.domain.y_min_m!r}: an axisymmetric domain starts at radius 0")
+        elif self.edges.bottom == "axis":
+            raise ValueError("edges.bottom = 'axis' needs mode = 'axisymmetric'; use 'wall' for a planar symmetry line")
+
+
+class Simulation:
+    """Owns the flow arrays and advances them with the configured scheme."""
+
+    def __init__(self, setup: Setup, mask: np.ndarray | None = None):
+        self.setup = setup
+        self.time_s = 0.0
+        self.steps = 0
+        self.floors_total = 0
+        self.floors_last_step = 0
+        self._allocate(setup.domain)
+        self._set_kind(np.zeros(setup.domain.shape, np.uint8) if mask is None else mask)
+        self._refresh_held()
+        self.reset_flow()
+
+    # ----------------------------------------------------------------- layout
+    @property
+    def domain(self) -> Domain:
+        return self.setup.domain
+
+    @property
+    def mask(self) -> np.ndarray:
+        """The interior cell kinds (ny, nx), a view."""
+        return self.kind[GHOST:-GHOST, GHOST:-GHOST]
+
+    def _allocate(self, domain: Domain) -> None:
+        ny, nx = domain.shape
+        padded = (4, ny + 2 * GHOST, nx + 2 * GHOST)
+        self.U = np.zeros(padded)
+        self.U0 = np.zeros(padded)
+        self.W = np.zeros(padded)
+        self.Fx = np.zeros((4, ny, nx + 1))
+        self.Gy = np.zeros((4, ny + 1, nx))
+        self.kind = np.zeros(padded[1:], np.uint8)
+        self._row_rate = np.zeros(ny)
+        self._row_floors = np.zeros(ny, np.int64)
+        self._row_bad = np.zeros(ny, np.int64)
+        j = np.arange(ny, dtype=float)
+        if self.setup.mode == "axisymmetric":
+            r_c = (j + 0.5) * domain.dx_m
+            self._w_plus = (j + 1.0) / (j + 0.5)
+            self._w_minus = j / (j + 0.5)
+            self._source = 1.0 / r_c
+        else:
+            self._w_plus = np.ones(ny)
+            self._w_minus = np.ones(ny)
+            self._source = np.zeros(ny)
+
+    def _set_kind(self, mask: np.ndarray) -> None:
+        mask = np.asarray(mask)
+        if mask.shape != self.domain.shape:
+            raise ValueError(f"mask shape {mask.shape} does not match the domain's (ny, nx) = {self.domain.shape}")
+        if mask.size and (mask.min() < 0 or mask.max() > int(CellKind.AMBIENT)):
+            raise ValueError(f"mask values must be paintable cell kinds 0 to {int(CellKind.AMBIENT)}")
+        k = self.kind
+        e = self.setup.edges
+        k[:, :] = CellKind.WALL  # corners are never read; walls are harmless
+        k[:GHOST, :] = EDGE_GHOST_KIND[e.bottom]
+        k[-GHOST:, :] = EDGE_GHOST_KIND[e.top]
+        k[:, :GHOST] = EDGE_GHOST_KIND[e.left]
+        k[:, -GHOST:] = EDGE_GHOST_KIND[e.right]
+        k[:GHOST, :GHOST] = k[:GHOST, -GHOST:] = k[-GHOST:, :GHOST] = k[-GHOST:, -GHOST:] = CellKind.WALL
+        k[GHOST:-GHOST, GHOST:-GHOST] = mask.astype(np.uint8)
+
+    # ------------------------------------------------------------ conditions
+    def _refresh_held(self) -> None:
+        """Write held states into held cells and derive floors and the held wave rate."""
+        cons, prim = held_table(self.setup.gas, self.setup.conditions)
+        self._held_cons, self._held_prim = cons, prim
+        for kind in HELD_KINDS:
+            where = self.kind == kind
+            if where.any():
+                self.U[:, where] = cons[kind][:, None]
+                self.W[:, where] = prim[kind][:, None]
+        present = [kd for kd in HELD_KINDS if (self.kind == kd).any()]
+        gamma = self.setup.gas.gamma
+        rates = [(abs(prim[kd][1]) + abs(prim[kd][2]) + 2.0 * math.sqrt(gamma * prim[kd][3] / prim[kd][0]))
+                 for kd in present]
+        self._held_rate = max(rates, default=0.0) / self.domain.dx_m
+        scale_rho = float(np.max(prim[:, 0]))
+        scale_p = float(np.max(prim[:, 3]))
+        self._rho_floor = FLOOR_FRACTION * scale_rho
+        self._p_floor = FLOOR_FRACTION * scale_p
+
+    def set_conditions(self, conditions: Conditions) -> None:
+        """New reservoir, stream or ambient conditions; the flow goes on from where it is."""
+        self.setup = replace(self.setup, conditions=conditions)
+        self._refresh_held()
+        self._update_rate()
+
+    def set_gas(self, gas: Gas) -> None:
+        """New gamma or molar mass; keeps rho, u, v, p of every cell."""
+        rho, u, v, p = (self.W[c].copy() for c in range(4))
+        self.setup = replace(self.setup, gas=gas)
+        self._write_primitive_padded(rho, u, v, p)
+        self._refresh_held()
+        self._update_rate()
+
+    def set_numerics(self, numerics: Numerics) -> None:
+        self.setup = replace(self.setup, numerics=numerics)
+        self._update_rate()
+
+    def set_mask(self, mask: np.ndarray) -> None:
+        """A new sketch at the same resolution. Cells that become fluid take the mean of their
+        fluid neighbours (or the ambient state where there are none); the rest of the flow stays."""
+        old = self.mask.copy()
+        self._set_kind(mask)
+        new = self.mask
+        born = (new == CellKind.FLUID) & (old != CellKind.FLUID)
+        if born.any():
+            self._fill_born_cells(born, old == CellKind.FLUID)
+        self._refresh_held()
+        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._update_rate()
+
+    def set_edges(self, edges: Edges) -> None:
+        self.setup = replace(self.setup, edges=edges)
+        mask = self.mask.copy()
+        self._set_kind(mask)
+        self._refresh_held()
+        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._update_rate()
+
+    def remesh(self, domain: Domain, mask: np.ndarray) -> None:
+        """Change resolution (or extent): the flow is carried over by bilinear interpolation."""
+        old_prim = self.primitive()
+        old_fluid = self.mask == CellKind.FLUID
+        old_domain = self.domain
+        self.setup = replace(self.setup, domain=domain)
+        self._allocate(domain)
+        self._set_kind(mask)
+        self._refresh_held()
+        self._fill_uniform_ambient()
+        new_prim = [_bilinear(old_domain, q, old_fluid, domain) for q in old_prim]
+        fluid = self.mask == CellKind.FLUID
+        interior = (slice(None), slice(GHOST, -GHOST), slice(GHOST, -GHOST))
+        rho, u, v, p = (np.where(fluid & np.isfinite(q), q, self.W[c][interior[1:]]) for c, q in enumerate(new_prim))
+        self.set_primitive(rho, u, v, p)
+
+    # ------------------------------------------------------------------ state
+    def reset_flow(self) -> None:
+        """Still gas at the ambient state everywhere but held cells; time back to zero."""
+        self.time_s = 0.0
+        self.steps = 0
+        self.floors_total = 0
+        self.floors_last_step = 0
+        self._fill_uniform_ambient()
+        self._refresh_held()
+        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._update_rate()
+
+    def _fill_uniform_ambient(self) -> None:
+        amb_c = self._held_cons[CellKind.AMBIENT]
+        amb_p = self._held_prim[CellKind.AMBIENT]
+        self.U[:] = amb_c[:, None, None]
+        self.W[:] = amb_p[:, None, None]
+
+    def set_primitive(self, rho, u, v, p) -> None:
+        """Set the fluid cells' state from (ny, nx) arrays or scalars; held cells keep their state."""
+        shape = self.domain.shape
+        fields = [np.broadcast_to(np.asarray(q, dtype=float), shape) for q in (rho, u, v, p)]
+        names = ("rho", "u", "v", "p")
+        for name, q in zip(names, fields):
+            if not np.all(np.isfinite(q)):
+                raise ValueError(f"initial {name} holds non-finite values")
+        if np.any(fields[0] <= 0) or np.any(fields[3] <= 0):
+            raise ValueError("initial density and pressure must be greater than 0")
+        fluid = self.mask == CellKind.FLUID
+        s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
+        gm1 = self.setup.gas.gamma - 1.0
+        r, vx, vy, pr = fields
+        for c, q in enumerate(fields):
+            self.W[c][s][fluid] = q[fluid]
+        self.U[0][s][fluid] = r[fluid]
+        self.U[1][s][fluid] = (r * vx)[fluid]
+        self.U[2][s][fluid] = (r * vy)[fluid]
+        self.U[3][s][fluid] = (pr / gm1 + 0.5 * r * (vx * vx + vy * vy))[fluid]
+        self._refresh_held()
+        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._update_rate()
+
+    def _write_primitive_padded(self, rho, u, v, p) -> None:
+        gm1 = self.setup.gas.gamma - 1.0
+        self.W[0], self.W[1], self.W[2], self.W[3] = rho, u, v, p
+        self.U[0] = rho
+        self.U[1] = rho * u
+        self.U[2] = rho * v
+        self.U[3] = p / gm1 + 0.5 * rho * (u * u + v * v)
+
+    def _fill_born_cells(self, born: np.ndarray, donors: np.ndarray) -> None:
+        s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
+        prim = [self.W[c][s] for c in range(4)]
+        weight = np.zeros(born.shape)
+        sums = [np.zeros(born.shape) for _ in range(4)]
+        d = donors.astype(float)
+        for dj in (-1, 0, 1):
+            for di in (-1, 0, 1):
+                if dj == 0 and di == 0:
+                    continue
+                wd = _shift(d, dj, di)
+                weight += wd
+                for c in range(4):
+                    sums[c] += _shift(prim[c] * d, dj, di)
+        amb = self._held_prim[CellKind.AMBIENT]
+        has = weight > 0
+        vals = [np.where(has, sums[c] / np.maximum(weight, 1.0), amb[c]) for c in range(4)]
+        gm1 = self.setup.gas.gamma - 1.0
+        r, u, v, p = vals
+        for c, q in enumerate(vals):
+            self.W[c][s][born] = q[born]
+        self.U[0][s][born] = r[born]
+        self.U[1][s][born] = (r * u)[born]
+        self.U[2][s][born] = (r * v)[born]
+        self.U[3][s][born] = (p / gm1 + 0.5 * r * (u * u + v * v))[born]
+
+    def primitive(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Copies of (rho, u, v, p) on the interior cells, each (ny, nx). Walls hold filler values."""
+        s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
+        return tuple(self.W[c][s].copy() for c in range(4))  # type: ignore[return-value]
+
+    # -------------------------------------------------------------- stepping
+    def _update_rate(self) -> None:
+        s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
+        fluid = self.mask == CellKind.FLUID
+        rate = 0.0
+        if fluid.any():
+            r, u, v, p = (self.W[c][s][fluid] for c in range(4))
+            c_s = np.sqrt(self.setup.gas.gamma * p / r)
+            rate = float(np.max((np.abs(u) + np.abs(v) + 2.0 * c_s) / self.domain.dx_m))
+        self._rate = max(rate, self._held_rate)
+
+    @property
+    def dt_s(self) -> float:
+        """The time step the next step will take."""
+        if self._rate <= 0.0 or not math.isfinite(self._rate):
+            return 0.0
+        return self.setup.numerics.cfl / self._rate
+
+    @property
+    def cells(self) -> int:
+        ny, nx = self.domain.shape
+        return ny * nx
+
+    def step(self, max_dt_s: float = math.inf) -> float:
+        """Advance one time step of at most max_dt_s; returns its dt in seconds.
+
+        Raises SolverDiverged when a non-finite value appears; the state of the last good step
+        is restored first.
+        """
+        dt = min(self.dt_s, max_dt_s)
+        if dt <= 0.0:
+            return 0.0
+        num = self.setup.numerics
+        gamma = self.setup.gas.gamma
+        lim, flux = num.limiter_id, num.flux_id
+        inv_dx = 1.0 / self.domain.dx_m
+        kernels.copy_state(self.U, self.U0)
+        floors = 0
+        for a, b in num.tableau.stages:
+            kernels.x_face_fluxes(self.W, self.kind, self.Fx, gamma, lim, flux)
+            kernels.y_face_fluxes(self.W, self.kind, self.Gy, gamma, lim, flux)
+            kernels.update_stage(self.U, self.U0, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
+                                 self._w_plus, self._w_minus, self._source, gamma,
+                                 self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
+            kernels.fill_open_edges(self.U, self.W, self.kind)
+            floors += int(self._row_floors.sum())
+        if self._row_bad.any():
+            self._diverged()
+        self.floors_last_step = floors
+        self.floors_total += floors
+        self._rate = max(float(self._row_rate.max()), self._held_rate)
+        self.time_s += dt
+        self.steps += 1
+        return dt
+
+    def _diverged(self) -> None:
+        s = (slice(None), slice(GHOST, -GHOST), slice(GHOST, -GHOST))
+        interior = self.U[s]
+        fluid = self.mask == CellKind.FLUID
+        bad = ~np.isfinite(interior) & fluid[None]
+        c, j, i = (int(x[0]) for x in np.nonzero(bad))
+        value = float(interior[c, j, i])
+        x_m = float(self.domain.x_centres_m()[i])
+        y_m = float(self.domain.y_centres_m()[j])
+        kernels.copy_state(self.U0, self.U)
+        kernels.primitive_from_conserved(self.U, self.W, self.setup.gas.gamma)
+        self._refresh_held()
+        self._update_rate()
+        raise SolverDiverged(self.steps + 1, self.time_s, x_m, y_m, _VARIABLES[c], value)
+
+    def advance(self, n_steps: int) -> None:
+        for _ in range(int(n_steps)):
+            if self.step() <= 0.0:
+                return
+
+    def run_until(self, t_end_s: float, max_steps: int = 10_000_000) -> None:
+        """Step until time t_end_s exactly (the last step is shortened)."""
+        while self.time_s < t_end_s and self.steps < max_steps:
+            if self.step(max_dt_s=t_end_s - self.time_s) <= 0.0:
+                break
+
+
+def _shift(a: np.ndarray, dj: int, di: int) -> np.ndarray:
+    """a moved by (dj, di) with zeros shifted in."""
+    out = np.zeros_like(a)
+    ny, nx = a.shape
+    ys, yd = (slice(0, ny - dj), slice(dj, ny)) if dj >= 0 else (slice(-dj, ny), slice(0, ny + dj))
+    xs, xd = (slice(0, nx - di), slice(di, nx)) if di >= 0 else (slice(-di, nx), slice(0, nx + di))
+    out[yd, xd] = a[ys, xs]
+    return out
+
+
+def _bilinear(src: Domain, q: np.ndarray, valid: np.ndarray, dst: Domain) -> np.ndarray:
+    """Interpolate a cell-centred field to another grid, using valid cells only (NaN where none)."""
+    xs = (dst.x_centres_m() - src.x_min_m) / src.dx_m - 0.5
+    ys = (dst.y_centres_m() - src.y_min_m) / src.dx_m - 0.5
+    ny, nx = q.shape
+    x0 = np.clip(np.floor(xs).astype(int), 0, nx - 1)
+    y0 = np.clip(np.floor(ys).astype(int), 0, ny - 1)
+    x1 = np.clip(x0 + 1, 0, nx - 1)
+    y1 = np.clip(y0 + 1, 0, ny - 1)
+    fx = np.clip(xs - x0, 0.0, 1.0)[None, :]
+    fy = np.clip(ys - y0, 0.0, 1.0)[:, None]
+    w = valid.astype(float)
+    qw = np.where(valid, q, 0.0)
+    num = ((1 - fy) * (1 - fx) * qw[np.ix_(y0, x0)] + (1 - fy) * fx * qw[np.ix_(y0, x1)]
+           + fy * (1 - fx) * qw[np.ix_(y1, x0)] + fy * fx * qw[np.ix_(y1, x1)])
+    den = ((1 - fy) * (1 - fx) * w[np.ix_(y0, x0)] + (1 - fy) * fx * w[np.ix_(y0, x1)]
+           + fy * (1 - fx) * w[np.ix_(y1, x0)] + fy * fx * w[np.ix_(y1, x1)])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(den > 1e-12, num / den, np.nan)
