@@ -3,6 +3,7 @@
 Arrays are component-major and padded by two ghost cells on every side:
   U, U0, W : (4, ny + 4, nx + 4) conserved (rho, rho u, rho v, E) / primitive (rho, u, v, p)
   kind     : (ny + 4, nx + 4) uint8 cell kinds (solver.kinds.CellKind)
+  wall_nx, wall_ny : (ny + 4, nx + 4) unit normal of each wall cell, (0, 0) elsewhere
   Fx       : (4, ny, nx + 1) x-face fluxes; face f lies left of interior cell f
   Gy       : (4, ny + 1, nx) y-face fluxes; face f lies below interior cell row f
 Inner loops run along the contiguous x axis in both sweeps, on 1-D row views, so LLVM can
@@ -20,6 +21,7 @@ from numba import njit, prange
 
 FLUID = 0
 WALL = 1
+RESERVOIR = 2
 OPEN = 5
 
 LIM_FIRST_ORDER, LIM_MINMOD, LIM_VAN_LEER, LIM_MC = 0, 1, 2, 3
@@ -105,34 +107,49 @@ def _riemann_flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, flux):
     return f0, f1, f2, f3
 
 
+@njit(**_SERIAL)
+def _reflect(n, t, mn, mt):
+    """Velocity (n, t) reflected about a wall whose unit normal is (mn, mt)."""
+    d = 2.0 * (n * mn + t * mt)
+    return n - d * mn, t - d * mt
+
+
 @njit(**_INLINE)
 def _face(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
-          ka, kb, kc, kd, gamma, limiter, flux):
+          mna, mta, mnb, mtb, mnc, mtc, mnd, mtd, gamma, limiter, flux):
     """Flux through the face between cells b and c of the stencil a | b || c | d.
 
-    n is the velocity normal to the face, t the tangential one.
+    n is the velocity normal to the face, t the tangential one; (mn, mt) is the unit normal of a
+    wall cell in the same frame and (0, 0) for any other cell. A wall cell stands for the mirror image of the gas beside it,
+    reflected about the wall's own orientation (so a staircase of cells behaves like the inclined
+    wall it approximates). Where the wall normal is the face normal, the face carries pressure
+    only, and mass and energy are conserved to round-off.
     """
-    wa = ka == WALL
-    wb = kb == WALL
-    wc = kc == WALL
-    wd = kd == WALL
-    # stencil of cell b, its wall neighbours replaced by b's mirror state
+    wa = mna * mna + mta * mta > 0.5
+    wb = mnb * mnb + mtb * mtb > 0.5
+    wc = mnc * mnc + mtc * mtc > 0.5
+    wd = mnd * mnd + mtd * mtd > 0.5
+    # stencil of cell b, its wall neighbours replaced by b's mirror image
+    rna, rta = _reflect(nb, tb, mna, mta)
+    rnc, rtc = _reflect(nb, tb, mnc, mtc)
     ra_b = rb if wa else ra
-    na_b = -nb if wa else na
-    ta_b = tb if wa else ta
+    na_b = rna if wa else na
+    ta_b = rta if wa else ta
     pa_b = pb if wa else pa
     rc_b = rb if wc else rc
-    nc_b = -nb if wc else nc
-    tc_b = tb if wc else tc
+    nc_b = rnc if wc else nc
+    tc_b = rtc if wc else tc
     pc_b = pb if wc else pc
     # stencil of cell c
+    rnb, rtb = _reflect(nc, tc, mnb, mtb)
+    rnd, rtd = _reflect(nc, tc, mnd, mtd)
     rb_c = rc if wb else rb
-    nb_c = -nc if wb else nb
-    tb_c = tc if wb else tb
+    nb_c = rnb if wb else nb
+    tb_c = rtb if wb else tb
     pb_c = pc if wb else pb
     rd_c = rc if wd else rd
-    nd_c = -nc if wd else nd
-    td_c = tc if wd else td
+    nd_c = rnd if wd else nd
+    td_c = rtd if wd else td
     pd_c = pc if wd else pd
 
     rl = rb + 0.5 * _slope(rb - ra_b, rc_b - rb, limiter)
@@ -155,28 +172,30 @@ def _face(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
     tr = tc if bad else tr
     pr = pc if bad else pr
 
-    # a wall on one side sees the mirror of the other side
+    # a wall on one side shows the mirror image of the other side
+    mnl, mtl = _reflect(nr, tr, mnb, mtb)
+    mnr, mtr = _reflect(nl, tl, mnc, mtc)
     rl2 = rr if wb else rl
-    nl2 = -nr if wb else nl
-    tl2 = tr if wb else tl
+    nl2 = mnl if wb else nl
+    tl2 = mtl if wb else tl
     pl2 = pr if wb else pl
     rr2 = rl if wc else rr
-    nr2 = -nl if wc else nr
-    tr2 = tl if wc else tr
+    nr2 = mnr if wc else nr
+    tr2 = mtr if wc else tr
     pr2 = pl if wc else pr
 
     f0, f1, f2, f3 = _riemann_flux(rl2, nl2, tl2, pl2, rr2, nr2, tr2, pr2, gamma, flux)
-    wall_face = wb or wc
+    aligned = (wb and abs(mnb) == 1.0) or (wc and abs(mnc) == 1.0)
     both = wb and wc
-    f0 = 0.0 if wall_face else f0
+    f0 = 0.0 if (aligned or both) else f0
     f1 = 0.0 if both else f1
-    f2 = 0.0 if wall_face else f2
-    f3 = 0.0 if wall_face else f3
+    f2 = 0.0 if (aligned or both) else f2
+    f3 = 0.0 if (aligned or both) else f3
     return f0, f1, f2, f3
 
 
 @njit(**_PARALLEL)
-def x_face_fluxes(W, kind, Fx, gamma, limiter, flux):
+def x_face_fluxes(W, wall_nx, wall_ny, Fx, gamma, limiter, flux):
     """Fluxes through every x-face of the interior rows."""
     ny = Fx.shape[1]
     nfaces = Fx.shape[2]
@@ -186,7 +205,8 @@ def x_face_fluxes(W, kind, Fx, gamma, limiter, flux):
         u = W[1, jj]
         v = W[2, jj]
         p = W[3, jj]
-        k = kind[jj]
+        mx = wall_nx[jj]
+        my = wall_ny[jj]
         f0 = Fx[0, j]
         f1 = Fx[1, j]
         f2 = Fx[2, j]
@@ -198,7 +218,8 @@ def x_face_fluxes(W, kind, Fx, gamma, limiter, flux):
             d = f + 3
             m0, m1, m2, m3 = _face(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
                                    v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
-                                   k[a], k[b], k[c], k[d], gamma, limiter, flux)
+                                   mx[a], my[a], mx[b], my[b], mx[c], my[c],
+                                   mx[d], my[d], gamma, limiter, flux)
             f0[f] = m0
             f1[f] = m1
             f2[f] = m2
@@ -206,7 +227,7 @@ def x_face_fluxes(W, kind, Fx, gamma, limiter, flux):
 
 
 @njit(**_PARALLEL)
-def y_face_fluxes(W, kind, Gy, gamma, limiter, flux):
+def y_face_fluxes(W, wall_nx, wall_ny, Gy, gamma, limiter, flux):
     """Fluxes through every y-face of the interior columns; the inner loop stays along x."""
     nfaces = Gy.shape[1]
     nx = Gy.shape[2]
@@ -227,10 +248,14 @@ def y_face_fluxes(W, kind, Gy, gamma, limiter, flux):
         pb = W[3, f + 1]
         pc = W[3, f + 2]
         pd = W[3, f + 3]
-        ka = kind[f]
-        kb = kind[f + 1]
-        kc = kind[f + 2]
-        kd = kind[f + 3]
+        xa = wall_nx[f]
+        xb = wall_nx[f + 1]
+        xc = wall_nx[f + 2]
+        xd = wall_nx[f + 3]
+        ya = wall_ny[f]
+        yb = wall_ny[f + 1]
+        yc = wall_ny[f + 2]
+        yd = wall_ny[f + 3]
         g0 = Gy[0, f]
         g1 = Gy[1, f]
         g2 = Gy[2, f]
@@ -239,7 +264,8 @@ def y_face_fluxes(W, kind, Gy, gamma, limiter, flux):
             ii = i + 2
             m0, mn, mt, m3 = _face(ra[ii], rb[ii], rc[ii], rd[ii], va[ii], vb[ii], vc[ii], vd[ii],
                                    ua[ii], ub[ii], uc[ii], ud[ii], pa[ii], pb[ii], pc[ii], pd[ii],
-                                   ka[ii], kb[ii], kc[ii], kd[ii], gamma, limiter, flux)
+                                   ya[ii], xa[ii], yb[ii], xb[ii],
+                                   yc[ii], xc[ii], yd[ii], xd[ii], gamma, limiter, flux)
             g0[i] = m0
             g1[i] = mt
             g2[i] = mn
@@ -385,3 +411,56 @@ def primitive_from_conserved(U, W, gamma):
             W[1, j, i] = vx
             W[2, j, i] = vy
             W[3, j, i] = gm1 * (U[3, j, i] - 0.5 * r * (vx * vx + vy * vy))
+
+
+
+@njit(**_SERIAL)
+def feed_reservoir_edge(U, W, kind, cells_j, cells_i, rho0, p0, gamma):
+    """Reservoir cells that touch fluid take the stagnation state expanded isentropically to the
+    mean velocity of their fluid neighbours (speed capped at sonic).
+
+    A reservoir held at rest would feed the flow through an unsteady expansion, which loses
+    total pressure; this keeps p0 and T0 the stagnation state of the gas that leaves it
+    (the usual total-pressure, total-temperature inflow treatment).
+    """
+    gm1 = gamma - 1.0
+    a0sq = gamma * p0 / rho0
+    qsq_max = 2.0 * a0sq / (gamma + 1.0)
+    nyp = W.shape[1]
+    nxp = W.shape[2]
+    for n in range(cells_j.shape[0]):
+        jj = cells_j[n]
+        ii = cells_i[n]
+        su = 0.0
+        sv = 0.0
+        cnt = 0
+        for d in range(4):
+            dj = 0 if d < 2 else (1 if d == 2 else -1)
+            di = (1 if d == 0 else -1) if d < 2 else 0
+            j2 = jj + dj
+            i2 = ii + di
+            if 0 <= j2 < nyp and 0 <= i2 < nxp and kind[j2, i2] == FLUID:
+                su += W[1, j2, i2]
+                sv += W[2, j2, i2]
+                cnt += 1
+        if cnt == 0:
+            continue
+        u = su / cnt
+        v = sv / cnt
+        qsq = u * u + v * v
+        if qsq > qsq_max:
+            scale = math.sqrt(qsq_max / qsq)
+            u *= scale
+            v *= scale
+            qsq = qsq_max
+        t_ratio = 1.0 - 0.5 * gm1 * qsq / a0sq
+        rho = rho0 * t_ratio ** (1.0 / gm1)
+        p = p0 * t_ratio ** (gamma / gm1)
+        W[0, jj, ii] = rho
+        W[1, jj, ii] = u
+        W[2, jj, ii] = v
+        W[3, jj, ii] = p
+        U[0, jj, ii] = rho
+        U[1, jj, ii] = rho * u
+        U[2, jj, ii] = rho * v
+        U[3, jj, ii] = p / gm1 + 0.5 * rho * qsq

@@ -12,7 +12,8 @@ LIMITERS: dict[str, int] = {"minmod": 1, "van_leer": 2, "mc": 3}
 #: Approximate Riemann solvers (numerical fluxes) by name -> kernel id.
 FLUXES: dict[str, int] = {"hllc": 0, "hll": 1, "rusanov": 2}
 
-CFL_MIN, CFL_MAX = 0.01, 0.9
+#: Above about 1 the scheme is unstable; values up to 2 are accepted so that a user can see it diverge.
+CFL_MIN, CFL_MAX = 0.01, 2.0
 
 
 @dataclass(frozen=True)

@@ -18,6 +18,7 @@ from .errors import SolverDiverged
 from .gas import AIR, Gas
 from .kinds import EDGE_GHOST_KIND, HELD_KINDS, CellKind
 from .numerics import Numerics
+from .wall_normals import wall_normals
 
 MODES = ("planar", "axisymmetric")
 GHOST = 2
@@ -130,6 +131,15 @@ class Simulation:
         k[:, -GHOST:] = EDGE_GHOST_KIND[e.right]
         k[:GHOST, :GHOST] = k[:GHOST, -GHOST:] = k[-GHOST:, :GHOST] = k[-GHOST:, -GHOST:] = CellKind.WALL
         k[GHOST:-GHOST, GHOST:-GHOST] = mask.astype(np.uint8)
+        res = k == CellKind.RESERVOIR
+        fluid = k == CellKind.FLUID
+        touches = np.zeros_like(fluid)
+        touches[:, :-1] |= fluid[:, 1:]
+        touches[:, 1:] |= fluid[:, :-1]
+        touches[:-1, :] |= fluid[1:, :]
+        touches[1:, :] |= fluid[:-1, :]
+        self._feed_j, self._feed_i = (a.astype(np.int64) for a in np.nonzero(res & touches))
+        self._wall_nx, self._wall_ny = wall_normals(k, GHOST)
 
     # ------------------------------------------------------------ conditions
     def _refresh_held(self) -> None:
@@ -325,9 +335,11 @@ class Simulation:
         inv_dx = 1.0 / self.domain.dx_m
         kernels.copy_state(self.U, self.U0)
         floors = 0
+        res = self._held_prim[CellKind.RESERVOIR]
         for a, b in num.tableau.stages:
-            kernels.x_face_fluxes(self.W, self.kind, self.Fx, gamma, lim, flux)
-            kernels.y_face_fluxes(self.W, self.kind, self.Gy, gamma, lim, flux)
+            kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
+            kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux)
+            kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux)
             kernels.update_stage(self.U, self.U0, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
                                  self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
