@@ -1,0 +1,55 @@
+// The colour bar under the picture: the map, round-number ticks in the display unit, and a caption
+// naming quantity, unit and whether the range follows the flow (auto) or is held (fixed).
+
+import { cssAt } from "./colourmaps.js";
+import { num } from "./units.js";
+
+/** Round tick values covering [lo, hi], about `count` of them (1, 2, 5 times a power of ten). */
+export function niceTicks(lo, hi, count = 6) {
+  if (!(hi > lo) || !Number.isFinite(lo) || !Number.isFinite(hi)) return [lo];
+  const raw = (hi - lo) / count;
+  const power = Math.pow(10, Math.floor(Math.log10(raw)));
+  const step = [1, 2, 2.5, 5, 10].map((m) => m * power).find((s) => s >= raw) || 10 * power;
+  const ticks = [];
+  for (let t = Math.ceil(lo / step) * step; t <= hi + step * 1e-9; t += step) ticks.push(Math.abs(t) < step * 1e-9 ? 0 : t);
+  return ticks;
+}
+
+/**
+ * Draw the bar on `canvas` (CSS size read from the element) for a range [minShown, maxShown]
+ * in display units.
+ */
+export function drawColourBar(canvas, mapName, minShown, maxShown) {
+  const dpr = window.devicePixelRatio || 1;
+  const w = canvas.clientWidth, h = canvas.clientHeight;
+  if (canvas.width !== Math.round(w * dpr) || canvas.height !== Math.round(h * dpr)) {
+    canvas.width = Math.round(w * dpr);
+    canvas.height = Math.round(h * dpr);
+  }
+  const ctx = canvas.getContext("2d");
+  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
+  ctx.clearRect(0, 0, w, h);
+  const pad = 12, barH = 14;
+  const barW = w - 2 * pad;
+  for (let k = 0; k < barW; k++) {
+    ctx.fillStyle = cssAt(mapName, k / Math.max(1, barW - 1));
+    ctx.fillRect(pad + k, 2, 1.5, barH);
+  }
+  ctx.strokeStyle = "rgba(255,255,255,0.35)";
+  ctx.strokeRect(pad - 0.5, 1.5, barW + 1, barH + 1);
+  if (!(Number.isFinite(minShown) && Number.isFinite(maxShown))) return;
+  ctx.fillStyle = "#d8dde3";
+  ctx.strokeStyle = "#d8dde3";
+  ctx.font = "11px system-ui, sans-serif";
+  ctx.textAlign = "center";
+  const span = maxShown - minShown;
+  const ticks = span > 0 ? niceTicks(minShown, maxShown, Math.max(2, Math.floor(barW / 70))) : [minShown];
+  for (const t of ticks) {
+    const x = pad + (span > 0 ? ((t - minShown) / span) * barW : barW / 2);
+    ctx.beginPath();
+    ctx.moveTo(x, barH + 2);
+    ctx.lineTo(x, barH + 6);
+    ctx.stroke();
+    ctx.fillText(num(t, 4), x, barH + 18);
+  }
+}

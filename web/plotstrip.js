@@ -1,0 +1,91 @@
+// A small line plot for the strip under the picture: probe histories against sim time, or a
+// distribution along a station or the axis with the isentropic 1D curve beside it.
+
+import { niceTicks } from "./colourbar.js";
+import { num } from "./units.js";
+
+export const SERIES_COLOURS = ["#ffd447", "#52d0f0", "#ff6b8b", "#8fe07e", "#c9b6ff", "#ff9f43"];
+
+/**
+ * series: [{name, xs, ys, dashed?, colour?}], axes: {xLabel, yLabel}. Draws onto `canvas` at its
+ * CSS size; an empty plot says `emptyText`.
+ */
+export function drawPlot(canvas, series, axes, emptyText = "nothing to plot yet") {
+  const dpr = window.devicePixelRatio || 1;
+  const w = canvas.clientWidth, h = canvas.clientHeight;
+  if (canvas.width !== Math.round(w * dpr) || canvas.height !== Math.round(h * dpr)) {
+    canvas.width = Math.round(w * dpr);
+    canvas.height = Math.round(h * dpr);
+  }
+  const ctx = canvas.getContext("2d");
+  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
+  ctx.clearRect(0, 0, w, h);
+  ctx.font = "11px system-ui, sans-serif";
+  const left = 58, right = 10, top = 10, bottom = 30;
+  const pw = w - left - right, ph = h - top - bottom;
+  let xmin = Infinity, xmax = -Infinity, ymin = Infinity, ymax = -Infinity;
+  for (const s of series) {
+    for (let k = 0; k < s.xs.length; k++) {
+      const x = s.xs[k], y = s.ys[k];
+      if (!Number.isFinite(x) || !Number.isFinite(y)) continue;
+      xmin = Math.min(xmin, x); xmax = Math.max(xmax, x);
+      ymin = Math.min(ymin, y); ymax = Math.max(ymax, y);
+    }
+  }
+  ctx.fillStyle = "#9aa6b2";
+  if (!(xmax >= xmin) || pw < 20 || ph < 20) {
+    ctx.fillText(emptyText, 12, h / 2);
+    return;
+  }
+  if (xmax === xmin) { xmin -= 0.5; xmax += 0.5; }
+  if (ymax === ymin) { const d = Math.abs(ymin) * 0.05 || 0.5; ymin -= d; ymax += d; }
+  const padY = 0.05 * (ymax - ymin);
+  ymin -= padY; ymax += padY;
+  const X = (x) => left + ((x - xmin) / (xmax - xmin)) * pw;
+  const Y = (y) => top + (1 - (y - ymin) / (ymax - ymin)) * ph;
+  // frame and ticks
+  ctx.strokeStyle = "rgba(255,255,255,0.18)";
+  ctx.strokeRect(left, top, pw, ph);
+  ctx.textAlign = "right";
+  for (const t of niceTicks(ymin, ymax, 4)) {
+    ctx.beginPath(); ctx.moveTo(left, Y(t)); ctx.lineTo(left + pw, Y(t)); ctx.stroke();
+    ctx.fillText(num(t, 3), left - 4, Y(t) + 4);
+  }
+  ctx.textAlign = "center";
+  for (const t of niceTicks(xmin, xmax, Math.max(2, Math.floor(pw / 80)))) {
+    ctx.fillText(num(t, 3), X(t), top + ph + 13);
+  }
+  ctx.fillText(axes.xLabel || "", left + pw / 2, h - 3);
+  ctx.save();
+  ctx.translate(11, top + ph / 2);
+  ctx.rotate(-Math.PI / 2);
+  ctx.fillText(axes.yLabel || "", 0, 0);
+  ctx.restore();
+  // lines
+  series.forEach((s, n) => {
+    ctx.save();
+    ctx.strokeStyle = s.colour || SERIES_COLOURS[n % SERIES_COLOURS.length];
+    ctx.lineWidth = 1.6;
+    if (s.dashed) ctx.setLineDash([5, 4]);
+    ctx.beginPath();
+    let open = false;
+    for (let k = 0; k < s.xs.length; k++) {
+      const x = s.xs[k], y = s.ys[k];
+      if (!Number.isFinite(x) || !Number.isFinite(y)) { open = false; continue; }
+      if (!open) { ctx.moveTo(X(x), Y(y)); open = true; } else ctx.lineTo(X(x), Y(y));
+    }
+    ctx.stroke();
+    ctx.restore();
+  });
+  // legend
+  ctx.textAlign = "left";
+  let lx = left + 8;
+  series.forEach((s, n) => {
+    const c = s.colour || SERIES_COLOURS[n % SERIES_COLOURS.length];
+    ctx.fillStyle = c;
+    ctx.fillRect(lx, top + 6, 12, s.dashed ? 2 : 3);
+    ctx.fillStyle = "#d8dde3";
+    ctx.fillText(s.name, lx + 16, top + 11);
+    lx += 24 + ctx.measureText(s.name).width;
+  });
+}
