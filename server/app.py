@@ -1,0 +1,265 @@
+"""The web application: the page (web/), GET /health, the websocket /ws and GET /exports/<file>.
+
+`create_app(config)` builds everything for one server: the scenario store, the session (restored
+from the last run, or the scenario asked for, or the built-in default), the runner and the client
+hub. The access rules (security.py) are applied here, before a websocket is accepted.
+"""
+from __future__ import annotations
+
+import asyncio
+import contextlib
+import logging
+import re
+import time
+import webbrowser
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from fastapi import FastAPI, HTTPException, Request, WebSocket
+from fastapi.responses import FileResponse, JSONResponse
+from starlette.staticfiles import StaticFiles
+from starlette.types import ASGIApp, Receive, Scope, Send
+
+from solver import scenario as scn
+
+from . import protocol as p
+from .dispatch import Dispatcher, hello_message
+from .errors import RequestError
+from .exports import Exports
+from .hub import Hub
+from .persistence import ScenarioStore
+from .runner import Runner
+from .security import Access, RateLimiter
+from .session import RUNNING, Session, warm_kernels
+
+log = logging.getLogger("shockslate")
+
+WEB_DIR = Path(__file__).resolve().parent.parent / "web"
+#: Close code for a refused connection (RFC 6455 'policy violation').
+POLICY_VIOLATION = 1008
+
+
+@dataclass
+class ServerConfig:
+    """How one server starts."""
+
+    access: Access = field(default_factory=Access)
+    data_dir: Path | None = None
+    #: Start on this scenario; None restores the last one, or falls back to the built-in default.
+    scenario: scn.Scenario | None = None
+    start_running: bool = True
+    warm: bool = True
+    open_browser: bool = False
+    web_dir: Path = WEB_DIR
+    runner_options: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass
+class ServerParts:
+    """What the lifespan built; kept on app.state.parts for the endpoints (and tests)."""
+
+    config: ServerConfig
+    store: ScenarioStore
+    session: Session
+    hub: Hub
+    runner: Runner
+    dispatcher: Dispatcher
+    exports: Exports
+    warnings: list[str]
+
+
+class HostGuard:
+    """Refuse HTTP requests whose Host header is not this server's (DNS-rebinding guard on loopback)."""
+
+    def __init__(self, app: ASGIApp, access: Access):
+        self.app = app
+        self.access = access
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if scope["type"] == "http" and not self.access.host_ok(_header(scope, b"host")):
+            response = JSONResponse({"error": "host not allowed"}, status_code=400)
+            await response(scope, receive, send)
+            return
+        await self.app(scope, receive, send)
+
+
+def _header(scope: Scope, name: bytes) -> str | None:
+    for key, value in scope.get("headers", []):
+        if key == name:
+            return value.decode("latin-1")
+    return None
+
+
+def starting_scenario(config: ServerConfig, store: ScenarioStore) -> tuple[scn.Scenario, list[str]]:
+    """The scenario asked for, else the one of the last session, else the built-in default."""
+    if config.scenario is not None:
+        return config.scenario, []
+    restored = store.restore_current()
+    warnings = [restored.warning] if restored.warning else []
+    if restored.scenario is not None:
+        return restored.scenario, warnings
+    return scn.load_builtin(scn.DEFAULT_SCENARIO), warnings
+
+
+def create_app(config: ServerConfig | None = None) -> FastAPI:
+    config = config or ServerConfig()
+    access = config.access
+
+    @contextlib.asynccontextmanager
+    async def lifespan(app: FastAPI):
+        store = ScenarioStore(config.data_dir)
+        scenario, warnings = await asyncio.to_thread(starting_scenario, config, store)
+        session = await asyncio.to_thread(Session, scenario, store.save_current)
+        await asyncio.to_thread(store.save_current, scenario)
+        hub = Hub()
+        runner = Runner(session, hub, **config.runner_options)
+        exports = Exports(store.exports_dir)
+        parts = ServerParts(config, store, session, hub, runner, Dispatcher(runner, hub, store, exports, access),
+                            exports, warnings)
+        app.state.parts = parts
+        runner.start()
+        starter = asyncio.create_task(_warm_then_run(parts))
+        try:
+            yield
+        finally:
+            starter.cancel()
+            with contextlib.suppress(asyncio.CancelledError):
+                await starter
+            await runner.stop()
+            for client in list(hub.clients.values()):
+                hub.remove(client)
+
+    async def _warm_then_run(parts: ServerParts) -> None:
+        if config.warm:
+            seconds = await asyncio.to_thread(warm_kernels)
+            log.info("numba kernels ready in %.1f s", seconds)
+        if config.start_running:
+            await parts.runner.call(parts.session.run)
+        if config.open_browser:
+            await asyncio.to_thread(webbrowser.open, access.url())
+
+    app = FastAPI(title="shockslate", lifespan=lifespan, docs_url=None, redoc_url=None, openapi_url=None)
+    app.add_middleware(HostGuard, access=access)
+
+    @app.get("/health")
+    async def health(request: Request) -> dict:
+        parts: ServerParts = request.app.state.parts
+        s, r = parts.session, parts.runner
+        return {"status": "ok", "protocol": p.PROTOCOL_VERSION, "state": s.state.value, "time_s": s.sim.time_s,
+                "steps": s.sim.steps, "cells": s.sim.cells, "steps_per_s": r.steps_per_s,
+                "cell_updates_per_s": r.cell_updates_per_s, "clients": len(parts.hub.clients),
+                "revision": s.revision, "warnings": parts.warnings}
+
+    @app.get("/exports/{name}")
+    async def download(name: str, request: Request) -> FileResponse:
+        parts: ServerParts = request.app.state.parts
+        if not access.token_ok(request.query_params.get("token")):
+            raise HTTPException(status_code=403, detail="token required")
+        path = parts.exports.find(name)
+        if path is None:
+            raise HTTPException(status_code=404, detail=f"no export named {name!r}")
+        return FileResponse(path, filename=name)
+
+    @app.websocket("/ws")
+    async def live(websocket: WebSocket) -> None:
+        parts: ServerParts = websocket.app.state.parts
+        await serve_client(websocket, parts, access)
+
+    app.mount("/", StaticFiles(directory=config.web_dir, html=True, check_dir=False), name="web")
+    return app
+
+
+async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access) -> None:
+    """Check the handshake, then read this tab's messages until it leaves (its sender runs beside)."""
+    headers = websocket.headers
+    if not access.host_ok(headers.get("host")):
+        await websocket.close(code=POLICY_VIOLATION, reason="host not allowed")
+        return
+    if not access.origin_ok(headers.get("origin"), headers.get("host")):
+        log.warning("refused a websocket from origin %r", headers.get("origin"))
+        await websocket.close(code=POLICY_VIOLATION, reason="origin not allowed")
+        return
+    if not access.token_ok(websocket.query_params.get("token")):
+        await websocket.close(code=POLICY_VIOLATION, reason="token required")
+        return
+    await websocket.accept()
+    hub, runner = parts.hub, parts.runner
+    client = hub.new_client(websocket)
+    sender = asyncio.create_task(_run_sender(hub, client), name=f"sender-{client.id}")
+    hub.send(client, hello_message(client, runner))
+    limiter = RateLimiter(access.max_messages_per_s)
+    last_rate_error = 0.0
+    try:
+        await runner.call(lambda: None)  # a fresh snapshot and status for the newcomer
+        while not client.closed:
+            message = await websocket.receive()
+            if message["type"] == "websocket.disconnect":
+                break
+            text = message.get("text")
+            if not limiter.allow():
+                now = time.monotonic()
+                if now - last_rate_error >= 1.0:
+                    last_rate_error = now
+                    err = RequestError("message", None, f"at most {access.max_messages_per_s:g} messages per second",
+                                       "too many messages: this one and others are dropped until the rate falls")
+                    hub.send(client, p.error_message(_peek_type(text), err))
+                continue
+            if text is None:
+                err = RequestError("message", "binary", "text messages holding JSON objects",
+                                   "binary messages are not accepted")
+                hub.send(client, p.error_message("unknown", err))
+                continue
+            if len(text) > access.max_message_bytes or len(text.encode("utf-8")) > access.max_message_bytes:
+                err = RequestError("message", f"{len(text.encode('utf-8'))} bytes",
+                                   f"at most {access.max_message_bytes} bytes",
+                                   f"message of {len(text.encode('utf-8'))} bytes is larger than the "
+                                   f"{access.max_message_bytes}-byte limit")
+                hub.send(client, p.error_message(_peek_type(text), err))
+                continue
+            await _handle_text(parts, client, text)
+    except Exception:
+        if not client.closed:
+            log.exception("client %s dropped after an error", client.id)
+    finally:
+        hub.remove(client)
+        sender.cancel()
+        with contextlib.suppress(asyncio.CancelledError, Exception):
+            await sender
+
+
+async def _handle_text(parts: ServerParts, client, text: str) -> None:
+    raw: Any = None
+    try:
+        raw, message = p.parse_text(text)
+        await parts.dispatcher.handle(client, message)
+    except RequestError as err:
+        parts.hub.send(client, p.error_message(p.request_type(raw), err, p.request_id(raw)))
+    except Exception as err:  # a bug: keep the connection, log it, and say so
+        log.exception("request failed: %.200s", text)
+        bug = RequestError("server", None, "a request the server can carry out",
+                           f"internal error while handling {p.request_type(raw)}: {type(err).__name__}: {err}")
+        parts.hub.send(client, p.error_message(p.request_type(raw), bug, p.request_id(raw)))
+
+
+_TYPE_FIELD = re.compile(r'"type"\s*:\s*"(\w+)"')
+
+
+def _peek_type(text: str | None) -> str:
+    """The request type of an oversized or dropped message, without parsing all of it."""
+    if not text:
+        return "unknown"
+    match = _TYPE_FIELD.search(text[:400])
+    if match and match.group(1) in p.MESSAGE_TYPES:
+        return match.group(1)
+    return "unknown"
+
+
+async def _run_sender(hub: Hub, client) -> None:
+    try:
+        await hub.sender(client)
+    except asyncio.CancelledError:
+        raise
+    except Exception as err:  # the socket went away mid-send: the reader will see the disconnect
+        log.debug("sender of %s stopped: %s", client.id, err)
+        client.closed = True

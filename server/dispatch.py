@@ -1,0 +1,164 @@
+"""One handler per client message type: call the session through the runner, then reply or broadcast.
+
+Accepted scenario changes are broadcast as a `scenario` message to every tab (the sender's copy
+echoes its id); run control answers with a fresh `status`; questions (inspect, profile, lists)
+are answered to the asking tab only. A refused request raises RequestError, which the caller turns
+into an `error` reply; nothing changes then.
+"""
+from __future__ import annotations
+
+import asyncio
+from typing import Any, Awaitable, Callable
+
+from solver import scenario as scn
+from solver.fields import VIEWS
+
+from . import protocol as p
+from .errors import RequestError
+from .exports import Exports
+from .hub import Client, Hub, ViewChoice
+from .persistence import ScenarioStore
+from .runner import Runner
+from .security import Access
+from .session import request_error_from_scenario
+
+
+def hello_message(client: Client, runner: Runner) -> dict:
+    s = runner.session
+    return {"type": "hello", "protocol": p.PROTOCOL_VERSION, "client_id": client.id,
+            "views": [{"name": n, "label": label, "unit": unit} for n, (label, unit) in VIEWS.items()],
+            "scenario": scn.scenario_to_dict(s.scenario), "state": s.state.value, "revision": s.revision,
+            "limits": {"max_message_bytes": p.MAX_MESSAGE_BYTES, "max_messages_per_s": p.MAX_MESSAGES_PER_S,
+                       "max_frames_per_s": 1.0 / runner.hub.frame_interval_s},
+            "view": {"view": client.view.view, "width": client.view.width, "height": client.view.height,
+                     "range": "auto" if client.view.fixed_range is None else list(client.view.fixed_range)}}
+
+
+class Dispatcher:
+    def __init__(self, runner: Runner, hub: Hub, store: ScenarioStore, exports: Exports, access: Access):
+        self.runner = runner
+        self.hub = hub
+        self.store = store
+        self.exports = exports
+        self.access = access
+        self.session = runner.session
+        self._handlers: dict[str, Callable[[Client, Any], Awaitable[None]]] = {
+            "add_shape": lambda c, m: self._change(c, m, self.session.add_shape, m.shape),
+            "remove_shape": lambda c, m: self._change(c, m, self.session.remove_shape, m.index),
+            "undo": lambda c, m: self._change(c, m, self.session.undo),
+            "redo": lambda c, m: self._change(c, m, self.session.redo),
+            "clear_sketch": lambda c, m: self._change(c, m, self.session.clear_sketch),
+            "set_mirror": lambda c, m: self._change(c, m, self.session.set_mirror, m.mirror),
+            "set_gas": lambda c, m: self._change(c, m, self.session.set_gas, m.preset, m.gamma, m.molar_mass_kg_kmol),
+            "set_conditions": self._set_conditions,
+            "set_numerics": lambda c, m: self._change(c, m, self.session.set_numerics, **_fields(m)),
+            "set_resolution": lambda c, m: self._change(c, m, self.session.set_resolution, m.nx),
+            "set_domain": lambda c, m: self._change(c, m, self.session.set_domain, **_fields(m)),
+            "set_edges": lambda c, m: self._change(c, m, self.session.set_edges, **_fields(m)),
+            "set_mode": lambda c, m: self._change(c, m, self.session.set_mode, m.mode),
+            "run": lambda c, m: self._control(c, m, self.session.run),
+            "pause": lambda c, m: self._control(c, m, self.session.pause),
+            "reset_flow": lambda c, m: self._control(c, m, self.session.reset_flow),
+            "step": self._step,
+            "add_station": lambda c, m: self._change(c, m, self.session.add_station, m.name, m.start_m, m.end_m,
+                                                     m.role),
+            "remove_station": lambda c, m: self._change(c, m, self.session.remove_station, m.name),
+            "add_probe": lambda c, m: self._change(c, m, self.session.add_probe, m.name, m.x_m, m.y_m),
+            "remove_probe": lambda c, m: self._change(c, m, self.session.remove_probe, m.name),
+            "set_view": self._set_view,
+            "inspect": self._inspect,
+            "profile": self._profile,
+            "save_scenario": self._save,
+            "load_scenario": self._load,
+            "list_scenarios": self._list,
+            "export": self._export,
+        }
+        missing = set(p.MESSAGE_TYPES) - set(self._handlers)
+        assert not missing, f"message types without a handler: {missing}"
+
+    async def handle(self, client: Client, message: Any) -> None:
+        await self._handlers[message.type](client, message)
+
+    # ------------------------------------------------------------ replies
+    def _reply(self, client: Client, message: Any, reply: dict) -> None:
+        if message.id is not None:
+            reply = {**reply, "id": message.id}
+        self.hub.send(client, reply)
+
+    def _broadcast_scenario(self, client: Client, message: Any) -> None:
+        s = self.session
+        self.hub.broadcast({"type": "scenario", "scenario": scn.scenario_to_dict(s.scenario), "revision": s.revision},
+                           reply_to=client, request_id=message.id)
+
+    # ------------------------------------------------------------ handlers
+    async def _change(self, client: Client, message: Any, fn: Callable, *args: Any, **kwargs: Any) -> None:
+        await self.runner.call(fn, *args, **kwargs)
+        self._broadcast_scenario(client, message)
+
+    async def _set_conditions(self, client: Client, message: p.SetConditions) -> None:
+        parts = {name: (getattr(message, name).model_dump() if getattr(message, name) is not None else None)
+                 for name in ("reservoir", "stream", "ambient")}
+        await self._change(client, message, self.session.set_conditions, **parts)
+
+    async def _control(self, client: Client, message: Any, fn: Callable) -> None:
+        await self.runner.call(fn)
+        if self.runner.last_status is not None:
+            self._reply(client, message, self.runner.last_status)
+
+    async def _step(self, client: Client, message: p.Step) -> None:
+        advanced = await self.runner.call(self.session.step, message.count)
+        if advanced.divergence is not None:
+            self.hub.broadcast(advanced.divergence.to_message())
+        if self.runner.last_status is not None:
+            self._reply(client, message, self.runner.last_status)
+
+    async def _set_view(self, client: Client, message: p.SetView) -> None:
+        client.view = ViewChoice(message.view, message.width, message.height, message.fixed_range,
+                                 tuple(dict.fromkeys(message.overlays)))
+        client.wake.set()
+
+    async def _inspect(self, client: Client, message: p.Inspect) -> None:
+        self._reply(client, message, await self.runner.read(self.session.inspect, message.x_m, message.y_m))
+
+    async def _profile(self, client: Client, message: p.Profile) -> None:
+        reply = await self.runner.read(self.session.profile, message.station, bool(message.axis))
+        self._reply(client, message, reply)
+
+    async def _save(self, client: Client, message: p.SaveScenario) -> None:
+        path = await asyncio.to_thread(self.store.save_named, message.name, self.session.scenario)
+        self._reply(client, message, {"type": "saved", "name": message.name, "path": str(path)})
+
+    async def _load(self, client: Client, message: p.LoadScenario) -> None:
+        if message.name is not None:
+            scenario = await asyncio.to_thread(self.store.load_named, message.name)
+        else:
+            try:
+                scenario = scn.parse_scenario(message.scenario)
+            except scn.ScenarioError as err:
+                raise request_error_from_scenario(err, message.scenario, {"": "scenario."}) from None
+        await self._change(client, message, self.session.load, scenario)
+
+    async def _list(self, client: Client, message: p.ListScenarios) -> None:
+        listing = await asyncio.to_thread(self.store.listing)
+        self._reply(client, message, {"type": "scenario_list", **listing})
+
+    async def _export(self, client: Client, message: p.Export) -> None:
+        s = self.session
+        if message.what == "npz":
+            snap, scenario = await self.runner.read(lambda: (s.snapshot(), s.scenario))
+            path = await asyncio.to_thread(self.exports.write_npz, snap, scenario)
+        elif message.what == "csv":
+            if not s.scenario.stations:
+                raise RequestError("what", "csv", "npz or scenario (csv holds station distributions: add a station "
+                                   "first)")
+            path = await self.runner.read(lambda: self.exports.write_csv(s.sim, s.scenario))
+        else:
+            path = await asyncio.to_thread(self.exports.write_scenario, s.scenario)
+        query = f"?token={self.access.token}" if self.access.token else ""
+        self._reply(client, message, {"type": "export_ready", "what": message.what,
+                                      "url": f"/exports/{path.name}{query}", "filename": path.name})
+
+
+def _fields(message: Any) -> dict:
+    """The message's own fields (not type or id)."""
+    return {k: v for k, v in message.model_dump().items() if k not in ("type", "id")}

@@ -1,0 +1,217 @@
+"""Fan-out to the open tabs: one sender task per client that always sends only the newest frame.
+
+The solver never waits for a client. It publishes a flow snapshot and a status; each client's own
+sender task wakes, sends its queued replies, the newest status, and a frame of the newest snapshot
+when one is due (at most 30 per second). A slow tab therefore only skips frames; it never slows the
+solver or the other tabs. Frames and overlays are made once per snapshot and view and shared.
+"""
+from __future__ import annotations
+
+import asyncio
+import collections
+import itertools
+import logging
+import time
+from dataclasses import dataclass, field
+from typing import Any
+
+from starlette.websockets import WebSocket
+
+from solver.kinds import CellKind
+
+from . import frames
+from .protocol import OVERLAYS, dumps
+from .session import FlowSnapshot
+
+log = logging.getLogger("shockslate.hub")
+
+MAX_FRAMES_PER_S = 30.0
+OVERLAYS_PER_S = 4.0
+#: A client whose replies pile up beyond this is not reading; it is disconnected.
+MAX_QUEUED_MESSAGES = 2000
+DEFAULT_VIEW = "mach"
+
+
+@dataclass(frozen=True)
+class ViewChoice:
+    """What a client draws: the view, its canvas in pixels, the colour range and the overlays."""
+
+    view: str = DEFAULT_VIEW
+    width: int = 1024
+    height: int = 512
+    fixed_range: tuple[float, float] | None = None
+    overlays: tuple[str, ...] = OVERLAYS
+
+
+@dataclass
+class Client:
+    id: str
+    websocket: WebSocket
+    view: ViewChoice = field(default_factory=ViewChoice)
+    outbox: collections.deque = field(default_factory=collections.deque)
+    status: dict | None = None
+    wake: asyncio.Event = field(default_factory=asyncio.Event)
+    last_frame_key: tuple | None = None
+    last_frame_t: float = 0.0
+    last_overlay_key: tuple | None = None
+    last_overlay_t: float = 0.0
+    frame_times: collections.deque = field(default_factory=lambda: collections.deque(maxlen=64))
+    frames_sent: int = 0
+    closed: bool = False
+
+    def frames_per_s(self, now: float) -> float:
+        recent = [t for t in self.frame_times if now - t <= 2.0]
+        if len(recent) < 2:
+            return 0.0
+        return (len(recent) - 1) / max(recent[-1] - recent[0], 1e-6)
+
+    def queue(self, text: str) -> None:
+        if len(self.outbox) >= MAX_QUEUED_MESSAGES:
+            self.closed = True
+        else:
+            self.outbox.append(text)
+        self.wake.set()
+
+
+class Hub:
+    """The set of connected clients and the newest snapshot, with a shared cache of frames."""
+
+    def __init__(self, max_frames_per_s: float = MAX_FRAMES_PER_S):
+        self.clients: dict[str, Client] = {}
+        self.snapshot: FlowSnapshot | None = None
+        self.frame_interval_s = 1.0 / max_frames_per_s
+        self._ids = itertools.count(1)
+        self._cache: dict[tuple, asyncio.Future] = {}
+        self._cache_version = -1
+        self.frames_built = 0
+
+    # ------------------------------------------------------------ membership
+    def new_client(self, websocket: WebSocket) -> Client:
+        client = Client(f"c{next(self._ids)}", websocket)
+        self.clients[client.id] = client
+        return client
+
+    def remove(self, client: Client) -> None:
+        client.closed = True
+        client.wake.set()
+        self.clients.pop(client.id, None)
+
+    @property
+    def wants_frames(self) -> bool:
+        return bool(self.clients)
+
+    # ------------------------------------------------------------ publishing
+    def send(self, client: Client, message: dict) -> None:
+        client.queue(dumps(message))
+
+    def broadcast(self, message: dict, reply_to: Client | None = None, request_id: Any = None) -> None:
+        """The same message to every client; the one that asked gets its id echoed."""
+        text = dumps(message)
+        for client in list(self.clients.values()):
+            if client is reply_to and request_id is not None:
+                client.queue(dumps({**message, "id": request_id}))
+            else:
+                client.queue(text)
+
+    def publish_status(self, status: dict) -> None:
+        """Newest status only: a client that has not sent the last one gets this one instead."""
+        for client in self.clients.values():
+            client.status = status
+            client.wake.set()
+
+    def publish_snapshot(self, snap: FlowSnapshot) -> None:
+        self.snapshot = snap
+        for client in self.clients.values():
+            client.wake.set()
+
+    # ------------------------------------------------------------ frames
+    async def _cached(self, key: tuple, build) -> Any:
+        snap_version = key[0]
+        if snap_version != self._cache_version:
+            self._cache.clear()
+            self._cache_version = snap_version
+        fut = self._cache.get(key)
+        if fut is None:
+            fut = asyncio.ensure_future(asyncio.to_thread(build))
+            self._cache[key] = fut
+        return await asyncio.shield(fut)
+
+    async def frame(self, snap: FlowSnapshot, view: ViewChoice) -> bytes:
+        def build() -> bytes:
+            fld = frames.view_field(view.view, snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
+            self.frames_built += 1
+            return frames.encode_frame(fld, view.view, view.width, view.height, view.fixed_range,
+                                       snap.time_s, snap.steps)
+
+        return await self._cached((snap.version, "frame", view.view, view.width, view.height, view.fixed_range), build)
+
+    async def overlay(self, snap: FlowSnapshot, overlays: tuple[str, ...]) -> dict:
+        def build() -> dict:
+            out: dict[str, Any] = {"type": "overlay", "time_s": snap.time_s, "steps": snap.steps,
+                                   "sonic_line": [], "arrows": []}
+            x, y = snap.x_centres_m, snap.y_centres_m
+            if "sonic_line" in overlays:
+                m = frames.view_field("mach", snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
+                out["sonic_line"] = frames.sonic_line(m, x, y)
+            if "arrows" in overlays:
+                gas_cells = snap.mask != CellKind.WALL
+                out["arrows"] = frames.velocity_arrows(snap.u, snap.v, gas_cells, x, y)
+            return out
+
+        return await self._cached((snap.version, "overlay", overlays), build)
+
+    # ------------------------------------------------------------ the sender
+    async def sender(self, client: Client) -> None:
+        """Send this client's replies, status and newest frame until it goes away."""
+        ws = client.websocket
+        wait_s: float | None = None
+        while not client.closed:
+            try:
+                if wait_s is None:
+                    await client.wake.wait()
+                else:
+                    await asyncio.wait_for(client.wake.wait(), timeout=wait_s)
+            except asyncio.TimeoutError:
+                pass
+            client.wake.clear()
+            if client.closed:
+                break
+            while client.outbox:
+                await ws.send_text(client.outbox.popleft())
+            now = time.monotonic()
+            if client.status is not None:
+                status, client.status = client.status, None
+                await ws.send_text(dumps({**status, "frames_per_s": client.frames_per_s(now)}))
+            wait_s = await self._send_frame_if_due(client)
+
+    async def _send_frame_if_due(self, client: Client) -> float | None:
+        """Send a frame (and, less often, an overlay) of the newest snapshot; the seconds until one is due."""
+        snap = self.snapshot
+        if snap is None:
+            return None
+        view = client.view
+        key = (snap.version, view)
+        wait_s = None
+        if key != client.last_frame_key:
+            now = time.monotonic()
+            due_in = client.last_frame_t + self.frame_interval_s - now
+            if due_in > 0.001:
+                wait_s = due_in
+            else:
+                data = await self.frame(snap, view)
+                await client.websocket.send_bytes(data)
+                client.last_frame_key = key
+                client.last_frame_t = time.monotonic()
+                client.frame_times.append(client.last_frame_t)
+                client.frames_sent += 1
+        if view.overlays:
+            okey = (snap.version, view.overlays)
+            if okey != client.last_overlay_key:
+                due_in = client.last_overlay_t + 1.0 / OVERLAYS_PER_S - time.monotonic()
+                if due_in > 0.001:
+                    wait_s = due_in if wait_s is None else min(wait_s, due_in)
+                else:
+                    await client.websocket.send_text(dumps(await self.overlay(snap, view.overlays)))
+                    client.last_overlay_key = okey
+                    client.last_overlay_t = time.monotonic()
+        return wait_s

@@ -1,0 +1,160 @@
+"""Scenario files the server keeps: the current one after every change, and scenarios saved by name.
+
+Everything lives in one user data folder (default ~/.local/share/shockslate, or $SHOCKSLATE_DATA_DIR):
+  current.json      the scenario on screen, rewritten after every accepted change (atomically)
+  saved/<name>.json scenarios saved by name from the page
+  exports/          files made for download
+Built-in scenarios are read from the repository's scenarios/ folder. A name from the page is never a
+path: it must be letters, digits, '-', '_' and spaces, and the resolved file must sit in its folder.
+"""
+from __future__ import annotations
+
+import json
+import os
+import re
+import tempfile
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from solver import scenario as scn
+
+from .errors import RequestError
+
+ENV_DATA_DIR = "SHOCKSLATE_DATA_DIR"
+CURRENT_FILE = "current.json"
+SAVED_DIR = "saved"
+EXPORTS_DIR = "exports"
+NAME_PATTERN = re.compile(r"[A-Za-z0-9_\- ]{1,64}")
+NAME_RULE = "1 to 64 characters: letters, digits, '-', '_' and spaces (not only spaces, no leading or trailing space)"
+
+
+class ScenarioNameError(RequestError):
+    """A scenario name that is not allowed, or that names no scenario."""
+
+
+def default_data_dir() -> Path:
+    """$SHOCKSLATE_DATA_DIR, else $XDG_DATA_HOME/shockslate, else ~/.local/share/shockslate."""
+    env = os.environ.get(ENV_DATA_DIR)
+    if env:
+        return Path(env).expanduser()
+    xdg = os.environ.get("XDG_DATA_HOME")
+    base = Path(xdg).expanduser() if xdg else Path.home() / ".local" / "share"
+    return base / "shockslate"
+
+
+def check_name(name: object, field: str = "name") -> str:
+    """The name if it is allowed as a scenario name, else ScenarioNameError naming field, value and rule."""
+    if (not isinstance(name, str) or not NAME_PATTERN.fullmatch(name) or name.strip() != name):
+        raise ScenarioNameError(field, name, NAME_RULE, f"{field} = {name!r} is not allowed: {NAME_RULE}")
+    return name
+
+
+def _inside(path: Path, folder: Path) -> Path:
+    """path, resolved, after checking it lies directly in folder (defence in depth behind check_name)."""
+    resolved = path.resolve()
+    if resolved.parent != folder.resolve():
+        raise ScenarioNameError("name", path.name, NAME_RULE, f"name = {path.stem!r} does not stay inside {folder}")
+    return resolved
+
+
+def write_atomically(path: Path, text: str) -> None:
+    """Write through a temporary file and a rename, so a crash never leaves half a file."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as f:
+            f.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+@dataclass(frozen=True)
+class Restored:
+    """What start-up found: the scenario (or None) and a warning to show when the file was bad."""
+
+    scenario: scn.Scenario | None
+    warning: str | None = None
+
+
+class ScenarioStore:
+    """The user data folder: current scenario, named saves, built-in listing."""
+
+    def __init__(self, data_dir: Path | str | None = None):
+        self.data_dir = Path(data_dir).expanduser() if data_dir is not None else default_data_dir()
+        self.saved_dir = self.data_dir / SAVED_DIR
+        self.exports_dir = self.data_dir / EXPORTS_DIR
+        self.current_path = self.data_dir / CURRENT_FILE
+
+    # -------------------------------------------------------------- current
+    def save_current(self, scenario: scn.Scenario) -> None:
+        write_atomically(self.current_path, scn.scenario_to_json(scenario))
+
+    def restore_current(self) -> Restored:
+        """The scenario of the last session; a file that no longer validates is set aside, not lost."""
+        if not self.current_path.is_file():
+            return Restored(None)
+        try:
+            return Restored(scn.load_scenario(self.current_path))
+        except scn.ScenarioError as err:
+            aside = self.current_path.with_name(f"current.rejected-{time.strftime('%Y%m%d-%H%M%S')}.json")
+            os.replace(self.current_path, aside)
+            return Restored(None, f"the last scenario could not be restored and was kept as {aside.name}: {err}")
+
+    # ---------------------------------------------------------------- named
+    def saved_path(self, name: str) -> Path:
+        check_name(name)
+        return _inside(self.saved_dir / f"{name}.json", self.saved_dir)
+
+    def save_named(self, name: str, scenario: scn.Scenario) -> Path:
+        """Save under `name` in saved/; the document's own name becomes `name` too."""
+        check_name(name)
+        if name in scn.builtin_names():
+            raise ScenarioNameError("name", name, "a name that is not a built-in scenario's",
+                             f"name = {name!r} is not allowed: it is the name of a built-in scenario")
+        path = self.saved_path(name)
+        data = scn.scenario_to_dict(scenario)
+        data["name"] = name
+        write_atomically(path, json.dumps(data, indent=2) + "\n")
+        return path
+
+    def load_named(self, name: str) -> scn.Scenario:
+        """A saved scenario by name, else a built-in one; never any other file."""
+        check_name(name)
+        path = self.saved_path(name)
+        if path.is_file():
+            return scn.load_scenario(path)
+        if name in scn.builtin_names():
+            return scn.load_builtin(name)
+        raise ScenarioNameError("name", name, "the name of a built-in or saved scenario (see list_scenarios)",
+                         f"name = {name!r} is not a built-in or saved scenario")
+
+    def saved_names(self) -> list[str]:
+        if not self.saved_dir.is_dir():
+            return []
+        return sorted(p.stem for p in self.saved_dir.glob("*.json") if NAME_PATTERN.fullmatch(p.stem))
+
+    def listing(self) -> dict:
+        """{builtin: [{name, description}], saved: [{name}]} for the scenario_list message."""
+        builtin = []
+        for name in scn.builtin_names():
+            try:
+                description = scn.load_builtin(name).description
+            except scn.ScenarioError as err:
+                description = f"(cannot be loaded: {err})"
+            builtin.append({"name": name, "description": description})
+        return {"builtin": builtin, "saved": [{"name": n} for n in self.saved_names()]}
+
+
+def scenario_from_argument(value: str, store: ScenarioStore) -> scn.Scenario:
+    """--scenario on the command line: a built-in or saved name, or a path to a scenario file.
+
+    A path is accepted here because the person starting the server typed it; names from the page
+    go through load_named only.
+    """
+    path = Path(value).expanduser()
+    if path.suffix == ".json" or os.sep in value:
+        return scn.load_scenario(path)
+    return store.load_named(value)

@@ -1,0 +1,463 @@
+"""Client messages of the live protocol (PROTOCOL.md) as pydantic models, and the error replies.
+
+The models check shape and type (known fields only, finite numbers, named choices); ranges that
+belong to the scenario (pressures, gamma, CFL, domain size ...) are checked once more when the
+changed scenario document is validated by solver.scenario, so there is a single source of truth.
+Every refusal becomes an `error` message naming the field, the value and what is allowed.
+"""
+from __future__ import annotations
+
+import json
+import math
+from typing import Annotated, Any, Literal, Optional, Union
+
+from pydantic import BaseModel, ConfigDict, Field, TypeAdapter, ValidationError, model_validator
+
+from solver.fields import VIEWS
+
+from .errors import RequestError
+
+PROTOCOL_VERSION = 1
+#: Largest accepted text message, bytes.
+MAX_MESSAGE_BYTES = 256 * 1024
+#: Messages per second a client may send (token bucket; bursts up to the same number).
+MAX_MESSAGES_PER_S = 200
+MAX_STEP_COUNT = 1000
+MAX_CANVAS_PX = 4096
+OVERLAYS = ("sonic_line", "arrows")
+
+Finite = Annotated[float, Field(strict=True, allow_inf_nan=False)]
+PointM = Annotated[list[Finite], Field(min_length=2, max_length=2, description="an [x, y] pair of finite numbers in metres")]
+Label = Annotated[str, Field(min_length=1, max_length=80, description="1 to 80 characters")]
+RequestId = Union[Annotated[int, Field(strict=True)], Annotated[str, Field(max_length=64)], None]
+
+
+class _Message(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+    id: RequestId = None
+
+
+class _Part(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+
+
+# ----------------------------------------------------------------------------- sketch
+
+class AddShape(_Message):
+    """Append a shape (dict as in solver/shapes.py, checked there) to the sketch."""
+
+    type: Literal["add_shape"]
+    shape: dict[str, Any] = Field(description="a shape object with 'kind' (stroke, segment, rectangle, polygon, circle) and 'paints'")
+
+
+class RemoveShape(_Message):
+    type: Literal["remove_shape"]
+    index: int = Field(ge=0, description="an integer index into the sketch's shapes, from 0")
+
+
+class Undo(_Message):
+    type: Literal["undo"]
+
+
+class Redo(_Message):
+    type: Literal["redo"]
+
+
+class ClearSketch(_Message):
+    type: Literal["clear_sketch"]
+
+
+class SetMirror(_Message):
+    type: Literal["set_mirror"]
+    mirror: Literal["none", "axis", "midline"]
+
+
+# ----------------------------------------------------------------------------- gas, conditions, numerics
+
+class SetGas(_Message):
+    """A preset, or gamma and/or molar mass for a custom gas (the other value is kept)."""
+
+    type: Literal["set_gas"]
+    preset: Optional[Literal["air", "hot products"]] = None
+    gamma: Optional[Finite] = None
+    molar_mass_kg_kmol: Optional[Finite] = None
+
+    @model_validator(mode="after")
+    def _one_way(self) -> "SetGas":
+        custom = self.gamma is not None or self.molar_mass_kg_kmol is not None
+        if self.preset is not None and custom:
+            raise RequestError("preset", self.preset, "either preset, or gamma and/or molar_mass_kg_kmol, not both")
+        if self.preset is None and not custom:
+            raise RequestError("preset", None, "a preset (air, hot products) or gamma and/or molar_mass_kg_kmol")
+        return self
+
+
+class ReservoirPart(_Part):
+    p0_pa: Optional[Finite] = None
+    t0_k: Optional[Finite] = None
+
+
+class StreamPart(_Part):
+    mach: Optional[Finite] = None
+    angle_deg: Optional[Finite] = None
+    p_pa: Optional[Finite] = None
+    t_k: Optional[Finite] = None
+
+
+class AmbientPart(_Part):
+    p_pa: Optional[Finite] = None
+    t_k: Optional[Finite] = None
+
+
+class SetConditions(_Message):
+    """Any of reservoir, stream, ambient, each partial; the rest is kept."""
+
+    type: Literal["set_conditions"]
+    reservoir: Optional[ReservoirPart] = None
+    stream: Optional[StreamPart] = None
+    ambient: Optional[AmbientPart] = None
+
+
+class SetNumerics(_Message):
+    type: Literal["set_numerics"]
+    order: Optional[Literal[1, 2]] = None
+    limiter: Optional[Literal["minmod", "van_leer", "mc"]] = None
+    flux: Optional[Literal["hllc", "hll", "rusanov"]] = None
+    cfl: Optional[Finite] = None
+    integrator: Optional[Literal["ssp_rk2", "ssp_rk3"]] = None
+
+
+# ----------------------------------------------------------------------------- domain
+
+class SetResolution(_Message):
+    type: Literal["set_resolution"]
+    nx: int = Field(ge=4, le=4096, description="an integer number of cells across x, 4 to 4096")
+
+
+class SetDomain(_Message):
+    type: Literal["set_domain"]
+    x_min_m: Finite
+    x_max_m: Finite
+    y_min_m: Finite
+    y_max_m: Finite
+
+
+EdgeKind = Literal["wall", "open", "ambient", "stream", "axis"]
+
+
+class SetEdges(_Message):
+    type: Literal["set_edges"]
+    left: Optional[EdgeKind] = None
+    right: Optional[EdgeKind] = None
+    bottom: Optional[EdgeKind] = None
+    top: Optional[EdgeKind] = None
+
+
+class SetMode(_Message):
+    type: Literal["set_mode"]
+    mode: Literal["planar", "axisymmetric"]
+
+
+# ----------------------------------------------------------------------------- run control
+
+class Run(_Message):
+    type: Literal["run"]
+
+
+class Pause(_Message):
+    type: Literal["pause"]
+
+
+class ResetFlow(_Message):
+    type: Literal["reset_flow"]
+
+
+class Step(_Message):
+    type: Literal["step"]
+    count: int = Field(1, ge=1, le=MAX_STEP_COUNT, description=f"an integer from 1 to {MAX_STEP_COUNT}")
+
+
+# ----------------------------------------------------------------------------- measuring
+
+class AddStation(_Message):
+    type: Literal["add_station"]
+    name: Label
+    start_m: PointM
+    end_m: PointM
+    role: Optional[Literal["throat", "exit"]] = None
+
+
+class RemoveStation(_Message):
+    type: Literal["remove_station"]
+    name: Label
+
+
+class AddProbe(_Message):
+    type: Literal["add_probe"]
+    name: Label
+    x_m: Finite
+    y_m: Finite
+
+
+class RemoveProbe(_Message):
+    type: Literal["remove_probe"]
+    name: Label
+
+
+# ----------------------------------------------------------------------------- viewing
+
+class SetView(_Message):
+    type: Literal["set_view"]
+    view: Literal[tuple(VIEWS)]  # type: ignore[valid-type]
+    width: int = Field(ge=16, le=MAX_CANVAS_PX, description=f"an integer canvas width in pixels, 16 to {MAX_CANVAS_PX}")
+    height: int = Field(ge=16, le=MAX_CANVAS_PX, description=f"an integer canvas height in pixels, 16 to {MAX_CANVAS_PX}")
+    range: Any = Field("auto", description='"auto" or [min, max] in the SI unit of the view, max greater than min')
+    overlays: list[Literal["sonic_line", "arrows"]] = Field(default_factory=lambda: list(OVERLAYS), max_length=2)
+
+    @model_validator(mode="after")
+    def _ordered(self) -> "SetView":
+        r = self.range
+        ok = r == "auto" or (
+            isinstance(r, list) and len(r) == 2
+            and all(isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) for v in r)
+            and r[1] > r[0])
+        if not ok:
+            raise RequestError("range", _short(r), '"auto" or [min, max] (finite numbers, SI unit of the view) '
+                               "with max greater than min")
+        return self
+
+    @property
+    def fixed_range(self) -> tuple[float, float] | None:
+        return None if self.range == "auto" else (float(self.range[0]), float(self.range[1]))
+
+
+class Inspect(_Message):
+    type: Literal["inspect"]
+    x_m: Finite
+    y_m: Finite
+
+
+class Profile(_Message):
+    """Values along a station (by name) or along the axis."""
+
+    type: Literal["profile"]
+    station: Optional[Label] = None
+    axis: Optional[bool] = None
+
+    @model_validator(mode="after")
+    def _one_of(self) -> "Profile":
+        if (self.station is None) == (not self.axis):
+            raise RequestError("station", self.station, "either a station name or axis: true, not both")
+        return self
+
+
+# ----------------------------------------------------------------------------- scenarios and files
+
+class SaveScenario(_Message):
+    type: Literal["save_scenario"]
+    name: Annotated[str, Field(min_length=1, max_length=64)]
+
+
+class LoadScenario(_Message):
+    type: Literal["load_scenario"]
+    name: Optional[Annotated[str, Field(min_length=1, max_length=64)]] = None
+    scenario: Optional[dict[str, Any]] = None
+
+    @model_validator(mode="after")
+    def _one_of(self) -> "LoadScenario":
+        if (self.name is None) == (self.scenario is None):
+            raise RequestError("name", self.name, "either name (built-in or saved) or scenario (a document), not both")
+        return self
+
+
+class ListScenarios(_Message):
+    type: Literal["list_scenarios"]
+
+
+class Export(_Message):
+    type: Literal["export"]
+    what: Literal["npz", "csv", "scenario"]
+
+
+ClientMessage = Annotated[
+    Union[AddShape, RemoveShape, Undo, Redo, ClearSketch, SetMirror, SetGas, SetConditions, SetNumerics,
+          SetResolution, SetDomain, SetEdges, SetMode, Run, Pause, ResetFlow, Step, AddStation, RemoveStation,
+          AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios, Export],
+    Field(discriminator="type"),
+]
+_ADAPTER: TypeAdapter = TypeAdapter(ClientMessage)
+MESSAGE_TYPES: dict[str, type[_Message]] = {
+    m.model_fields["type"].annotation.__args__[0]: m  # type: ignore[union-attr]
+    for m in ClientMessage.__origin__.__args__  # type: ignore[attr-defined]
+}
+
+
+# ----------------------------------------------------------------------------- parsing and errors
+
+def request_type(data: Any) -> str:
+    """The `type` of a raw message, or "unknown" (for the `request` field of an error)."""
+    if isinstance(data, dict) and isinstance(data.get("type"), str) and data["type"] in MESSAGE_TYPES:
+        return data["type"]
+    return "unknown"
+
+
+def request_id(data: Any) -> Any:
+    if isinstance(data, dict):
+        rid = data.get("id")
+        if isinstance(rid, (int, str)) and not isinstance(rid, bool) and len(str(rid)) <= 64:
+            return rid
+    return None
+
+
+def parse_text(text: str) -> tuple[dict, _Message]:
+    """The raw object and the validated message of one text frame; RequestError otherwise."""
+    try:
+        data = json.loads(text)
+    except (json.JSONDecodeError, RecursionError) as err:
+        raise RequestError("message", _short(text), "a JSON object with a 'type' field",
+                           f"message is not valid JSON: {err}") from None
+    return data, parse_message(data)
+
+
+def parse_message(data: Any) -> _Message:
+    if not isinstance(data, dict):
+        raise RequestError("message", _short(data), "a JSON object with a 'type' field")
+    if "type" not in data:
+        raise RequestError("type", None, "one of: " + ", ".join(MESSAGE_TYPES), "type is missing")
+    kind = data["type"]
+    if not isinstance(kind, str) or kind not in MESSAGE_TYPES:
+        raise RequestError("type", _short(kind), "one of: " + ", ".join(MESSAGE_TYPES))
+    try:
+        return _ADAPTER.validate_python(data)
+    except ValidationError as err:
+        raise error_from_validation(MESSAGE_TYPES[kind], err) from None
+
+
+def error_from_validation(model: type[BaseModel], err: ValidationError) -> RequestError:
+    """The first problem of a ValidationError as a RequestError (field path, value, what is allowed)."""
+    first = err.errors(include_url=False)[0]
+    loc = [p for p in first["loc"] if p != model.model_fields["type"].annotation.__args__[0]]
+    field = _path(loc) or "message"
+    ctx = first.get("ctx") or {}
+    inner = ctx.get("error")
+    if isinstance(inner, RequestError):
+        return inner
+    value = _short(first.get("input"))
+    kind = first["type"]
+    described = _description(model, loc)
+    if kind == "missing":
+        allowed = "required" + (f": {described}" if described else "")
+        return RequestError(field, None, allowed, f"{field} is missing ({allowed})")
+    if kind == "extra_forbidden":
+        fields = ", ".join(_fields_at(model, loc[:-1]))
+        return RequestError(field, value, f"no such field; the fields here are: {fields}")
+    if kind == "literal_error":
+        allowed = "one of: " + ", ".join(_unquote(ctx.get("expected", "")))
+    elif described:
+        allowed = described
+    elif kind in ("greater_than_equal", "less_than_equal", "greater_than", "less_than"):
+        allowed = first["msg"].lower()
+    elif "finite" in kind:
+        allowed = "a finite number"
+    else:
+        allowed = first["msg"][0].lower() + first["msg"][1:]
+    return RequestError(field, value, allowed)
+
+
+def error_message(request: str, err: RequestError, rid: Any = None) -> dict:
+    """The `error` reply (PROTOCOL.md)."""
+    out = {"type": "error", "request": request, "field": err.field, "value": _jsonable(err.value),
+           "allowed": err.allowed, "message": err.message}
+    if rid is not None:
+        out["id"] = rid
+    return out
+
+
+def finite_or_none(obj: Any) -> Any:
+    """obj with every NaN or infinity replaced by None (JSON has no NaN; the page reads null as 'no value')."""
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: finite_or_none(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [finite_or_none(v) for v in obj]
+    return obj
+
+
+def dumps(obj: Any) -> str:
+    """Compact JSON text of a server message, NaN and infinities as null."""
+    return json.dumps(finite_or_none(obj), separators=(",", ":"), allow_nan=False)
+
+
+def _path(loc: list) -> str:
+    parts: list[str] = []
+    for item in loc:
+        parts.append(f"[{item}]" if isinstance(item, int) else ("." if parts else "") + str(item))
+    return "".join(parts)
+
+
+def _unquote(expected: str) -> list[str]:
+    """pydantic's "'a', 'b' or 'c'" as ['a', 'b', 'c']."""
+    text = expected.replace(" or ", ", ")
+    return [t.strip().strip("'") for t in text.split(",") if t.strip()]
+
+
+def _fields_at(model: type[BaseModel], loc: list) -> list[str]:
+    current: Any = model
+    for name in loc:
+        if isinstance(name, int):
+            continue
+        sub = _submodel(current, name)
+        if sub is None:
+            return []
+        current = sub
+    return list(current.model_fields) if isinstance(current, type) and issubclass(current, BaseModel) else []
+
+
+def _submodel(model: Any, name: str) -> Any:
+    if not (isinstance(model, type) and issubclass(model, BaseModel)) or name not in model.model_fields:
+        return None
+    ann = model.model_fields[name].annotation
+    for arg in (ann, *getattr(ann, "__args__", ())):
+        if isinstance(arg, type) and issubclass(arg, BaseModel):
+            return arg
+    return None
+
+
+def _description(model: type[BaseModel], loc: list) -> str | None:
+    names = [n for n in loc if isinstance(n, str)]
+    if not names:
+        return None
+    current: Any = model
+    for name in names[:-1]:
+        current = _submodel(current, name)
+        if current is None:
+            return None
+    if not (isinstance(current, type) and issubclass(current, BaseModel)) or names[-1] not in current.model_fields:
+        return None
+    return current.model_fields[names[-1]].description
+
+
+def _short(value: Any, limit: int = 200) -> Any:
+    """The value itself when small and JSON-able, else a shortened text of it."""
+    if value is None or isinstance(value, (bool, int)):
+        return value
+    if isinstance(value, float):
+        return value if math.isfinite(value) else repr(value)
+    if isinstance(value, str):
+        return value if len(value) <= limit else value[: limit - 3] + "..."
+    try:
+        text = json.dumps(value, allow_nan=False)
+    except (TypeError, ValueError):
+        text = repr(value)
+    if len(text) <= limit:
+        return value if isinstance(value, (list, dict)) else text
+    return text[: limit - 3] + "..."
+
+
+def _jsonable(value: Any) -> Any:
+    try:
+        json.dumps(value, allow_nan=False)
+        return value
+    except (TypeError, ValueError):
+        return _short(repr(value))

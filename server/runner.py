@@ -1,0 +1,159 @@
+"""Drives the session from the event loop: solver bursts in a worker thread, every change behind one lock.
+
+The solver steps in bursts of about 20 ms in a worker thread (the numba kernels release the GIL),
+so the event loop stays free to read messages and feed the tabs. Requests take the same asyncio
+lock, which is fair: a request waits at most one burst. After each burst or request the runner
+publishes a flow snapshot (when tabs are connected, at most ~32 per second) and, a few times per
+second, a status.
+"""
+from __future__ import annotations
+
+import asyncio
+import logging
+import time
+from typing import Any, Callable
+
+from . import readings
+from .hub import Hub
+from .session import Advanced, Session
+
+log = logging.getLogger("shockslate.runner")
+
+BURST_S = 0.02
+STATUS_INTERVAL_S = 0.25
+SNAPSHOT_INTERVAL_S = 1.0 / 32.0
+
+
+class Runner:
+    def __init__(self, session: Session, hub: Hub, *, burst_s: float = BURST_S,
+                 status_interval_s: float = STATUS_INTERVAL_S, snapshot_interval_s: float = SNAPSHOT_INTERVAL_S):
+        self.session = session
+        self.hub = hub
+        self.burst_s = burst_s
+        self.status_interval_s = status_interval_s
+        self.snapshot_interval_s = snapshot_interval_s
+        self.lock = asyncio.Lock()
+        self._kick = asyncio.Event()
+        self._task: asyncio.Task | None = None
+        self._ticker: asyncio.Task | None = None
+        self._last_snapshot_t = 0.0
+        self._last_status_t = 0.0
+        self._rate_t = time.monotonic()
+        self._rate_steps = session.sim.steps
+        self._rate_floors = session.sim.floors_total
+        self.steps_per_s = 0.0
+        self.cell_updates_per_s = 0.0
+        self.last_status: dict | None = None
+
+    # ------------------------------------------------------------ life cycle
+    def start(self) -> None:
+        self._task = asyncio.create_task(self._run_forever(), name="shockslate-runner")
+        self._ticker = asyncio.create_task(self._status_ticker(), name="shockslate-status")
+
+    async def stop(self) -> None:
+        for task in (self._task, self._ticker):
+            if task is not None:
+                task.cancel()
+        for task in (self._task, self._ticker):
+            if task is not None:
+                try:
+                    await task
+                except asyncio.CancelledError:
+                    pass
+
+    # ------------------------------------------------------------ requests
+    async def call(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
+        """Run a session method in the worker thread under the lock, then publish what changed."""
+        async with self.lock:
+            result, snap, status = await asyncio.to_thread(self._call_and_observe, fn, args, kwargs)
+        if snap is not None:
+            self.hub.publish_snapshot(snap)
+        if status is not None:
+            self.hub.publish_status(status)
+        self._kick.set()
+        return result
+
+    async def read(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
+        """Run a read-only session method in the worker thread under the lock; publishes nothing."""
+        async with self.lock:
+            return await asyncio.to_thread(fn, *args, **kwargs)
+
+    def _call_and_observe(self, fn, args, kwargs):
+        result = fn(*args, **kwargs)
+        snap = self.session.snapshot() if self.hub.wants_frames else None
+        if snap is not None:
+            self._last_snapshot_t = time.monotonic()
+        return result, snap, self._status_now(time.monotonic())
+
+    # ------------------------------------------------------------ the run loop
+    async def _run_forever(self) -> None:
+        while True:
+            if not self.session.running:
+                self._kick.clear()
+                await self._kick.wait()
+                continue
+            async with self.lock:
+                advanced, snap, status = await asyncio.to_thread(self._burst)
+            if snap is not None:
+                self.hub.publish_snapshot(snap)
+            if advanced.divergence is not None:
+                self.hub.broadcast(advanced.divergence.to_message())
+            if status is not None:
+                self.hub.publish_status(status)
+            await asyncio.sleep(0)
+
+    def _burst(self) -> tuple[Advanced, Any, dict | None]:
+        now = time.monotonic()
+        budget = self.burst_s
+        if self.hub.wants_frames:
+            budget = min(budget, max(self._last_snapshot_t + self.snapshot_interval_s - now, 0.0))
+        advanced = self.session.advance(budget)
+        now = time.monotonic()
+        snap = None
+        if self.hub.wants_frames and (now - self._last_snapshot_t >= self.snapshot_interval_s
+                                      or advanced.divergence is not None):
+            snap = self.session.snapshot()
+            self._last_snapshot_t = now
+        status = None
+        if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
+            status = self._status_now(now)
+        return advanced, snap, status
+
+    async def _status_ticker(self) -> None:
+        """A status a few times per second even while paused, so every tab sees the run state."""
+        while True:
+            await asyncio.sleep(self.status_interval_s)
+            if self.session.running or not self.hub.clients:
+                continue
+            if time.monotonic() - self._last_status_t < self.status_interval_s:
+                continue
+            async with self.lock:
+                status = await asyncio.to_thread(self._status_now, time.monotonic())
+            self.hub.publish_status(status)
+
+    # ------------------------------------------------------------ status
+    def _status_now(self, now: float) -> dict:
+        """The status message (without frames_per_s, which each client's sender adds). Worker thread, locked."""
+        s = self.session
+        sim = s.sim
+        elapsed = now - self._rate_t
+        if elapsed >= 0.2 or not s.running:
+            steps = sim.steps - self._rate_steps
+            if s.running and steps >= 0 and elapsed > 0:
+                self.steps_per_s = steps / elapsed
+                self.cell_updates_per_s = self.steps_per_s * sim.cells
+            elif not s.running:
+                self.steps_per_s = self.cell_updates_per_s = 0.0
+            self._rate_t, self._rate_steps = now, sim.steps
+        floors = max(sim.floors_total - self._rate_floors, 0)
+        self._rate_floors = sim.floors_total
+        nozzle = readings.nozzle_geometry(sim.mask, sim.domain, s.scenario)
+        status = {"type": "status", "state": s.state.value, "revision": s.revision,
+                  "steps_per_s": self.steps_per_s, "cell_updates_per_s": self.cell_updates_per_s,
+                  "nx": sim.domain.nx, "ny": sim.domain.ny, "undo_depth": s.undo_depth, "redo_depth": s.redo_depth}
+        status.update(readings.status_figures(sim, s.scenario, nozzle, floors))
+        if s.divergence is not None:
+            status["warnings"].insert(0, "the run diverged and was paused: " + s.divergence.message)
+        self._last_status_t = now
+        self.last_status = status
+        return status

@@ -1,0 +1,123 @@
+"""Frames (binary header + levels) and the overlay (sonic line, arrows) of server/frames.py.
+
+The header layout is our own (server/PROTOCOL.md); the contour checks use fields whose exact Mach = 1
+line is known in closed form, so the marching-squares output can be checked point by point.
+"""
+from __future__ import annotations
+
+import math
+import struct
+
+import numpy as np
+import pytest
+
+from server import frames
+from solver.fields import VIEWS
+
+
+def test_header_is_48_bytes_little_endian_and_round_trips():
+    field = np.arange(12.0).reshape(3, 4)
+    data = frames.encode_frame(field, "pressure", 100, 100, None, 1.25e-3, 77)
+    assert len(data) == 48 + 4 * 3
+    assert data[:4] == b"SSF1"
+    assert struct.unpack_from("<I", data, 4)[0] == 48
+    assert struct.unpack_from("<HH", data, 8) == (4, 3)
+    assert data[12] == list(VIEWS).index("pressure")
+    assert data[13] == 0 and struct.unpack_from("<H", data, 14)[0] == 0
+    assert struct.unpack_from("<dddQ", data, 16) == (0.0, 11.0, 1.25e-3, 77)
+    header, pixels = frames.decode_frame(data)
+    assert (header.width, header.height, header.step) == (4, 3, 77)
+    assert pixels.shape == (3, 4)
+
+
+def test_row_zero_is_the_top_of_the_picture():
+    ny, nx = 8, 16
+    y_index = np.repeat(np.arange(ny, dtype=float)[:, None], nx, axis=1)  # grows with y
+    _, pixels = frames.decode_frame(frames.encode_frame(y_index, "density", nx, ny, None, 0.0, 0))
+    assert pixels[0].min() == frames.TOP_LEVEL  # top row holds the largest y
+    assert pixels[-1].max() == 0
+    assert np.all(np.diff(pixels[:, 0].astype(int)) < 0)
+
+
+def test_frame_never_larger_than_canvas_and_keeps_aspect():
+    assert frames.frame_size(256, 512, 1024, 1024) == (512, 256)  # never enlarged
+    assert frames.frame_size(256, 512, 256, 1024) == (256, 128)   # width-limited
+    assert frames.frame_size(256, 512, 1024, 64) == (128, 64)     # height-limited
+    field = np.random.default_rng(1).random((256, 512))
+    header, pixels = frames.decode_frame(frames.encode_frame(field, "mach", 200, 200, None, 0.0, 0))
+    assert (header.width, header.height) == (200, 100)
+    assert pixels.shape == (100, 200)
+
+
+def test_levels_map_range_linearly_clamp_and_mark_walls():
+    values = np.array([[0.0, 5.0, 10.0, -3.0, 99.0, np.nan]])
+    levels = frames.quantise(values, 0.0, 10.0)
+    assert levels.tolist() == [[0, 127, 254, 0, 254, 255]]  # 5 -> 127 (254 / 2, rounded half up)
+
+
+def test_auto_and_fixed_colour_range():
+    field = np.array([[1.0, np.nan], [3.0, 2.0]])
+    assert frames.colour_range(field, None) == (1.0, 3.0)
+    assert frames.colour_range(field, (0.0, 10.0)) == (0.0, 10.0)
+    lo, hi = frames.colour_range(np.full((2, 2), 7.0), None)
+    assert lo < 7.0 < hi  # a flat field still gets a usable range
+    assert frames.colour_range(np.full((2, 2), np.nan), None) == (0.0, 1.0)
+    header, _ = frames.decode_frame(frames.encode_frame(field, "mach", 16, 16, (0.5, 4.0), 0.0, 0))
+    assert (header.min_value, header.max_value) == (0.5, 4.0)
+
+
+def test_decode_refuses_a_truncated_or_foreign_frame():
+    data = frames.encode_frame(np.ones((2, 2)), "mach", 16, 16, None, 0.0, 0)
+    with pytest.raises(ValueError, match="does not hold"):
+        frames.decode_frame(data[:-1])
+    with pytest.raises(ValueError, match="not a frame"):
+        frames.decode_frame(b"XXXX" + data[4:])
+
+
+def test_sonic_line_of_a_linear_field_lies_on_the_exact_line():
+    # Mach = x / 0.5 on cell centres: the exact M = 1 line is x = 0.5 m (linear interpolation is exact).
+    nx, ny = 40, 10
+    x = (np.arange(nx) + 0.5) * 0.025
+    y = (np.arange(ny) + 0.5) * 0.025
+    mach = np.repeat((x / 0.5)[None, :], ny, axis=0)
+    segs = np.array(frames.sonic_line(mach, x, y))
+    assert len(segs) == ny - 1  # one segment per square row that the line crosses
+    assert np.allclose(segs[:, [0, 2]], 0.5, atol=1e-9)
+    assert segs[:, [1, 3]].min() == pytest.approx(y[0]) and segs[:, [1, 3]].max() == pytest.approx(y[-1])
+
+
+def test_sonic_line_of_a_radial_field_follows_the_circle():
+    # Mach = r / 0.3: the M = 1 contour is the circle r = 0.3 m; linear interpolation errs by O(dx^2).
+    n = 80
+    c = (np.arange(n) + 0.5) / n * 2.0 - 1.0
+    xx, yy = np.meshgrid(c, c)
+    mach = np.hypot(xx, yy) / 0.3
+    segs = np.array(frames.sonic_line(mach, c, c))
+    pts = segs.reshape(-1, 2)
+    r = np.hypot(pts[:, 0], pts[:, 1])
+    dx = c[1] - c[0]
+    assert np.abs(r - 0.3).max() < dx * dx / 0.3  # curvature error of linear interpolation, < dx^2 / r
+    total = np.hypot(segs[:, 2] - segs[:, 0], segs[:, 3] - segs[:, 1]).sum()
+    assert total == pytest.approx(2.0 * math.pi * 0.3, rel=0.02)
+
+
+def test_sonic_line_skips_wall_squares_and_handles_saddles():
+    mach = np.array([[2.0, 0.5], [0.5, 2.0]])  # a saddle: two segments
+    segs = frames.sonic_line(mach, np.array([0.0, 1.0]), np.array([0.0, 1.0]))
+    assert len(segs) == 2
+    mach[0, 0] = np.nan
+    assert frames.sonic_line(mach, np.array([0.0, 1.0]), np.array([0.0, 1.0])) == []
+
+
+def test_velocity_arrows_sample_gas_cells_only():
+    ny, nx = 16, 64
+    u = np.full((ny, nx), 100.0)
+    v = np.zeros((ny, nx))
+    gas = np.ones((ny, nx), bool)
+    gas[:, : nx // 2] = False
+    x = (np.arange(nx) + 0.5) * 0.01
+    y = (np.arange(ny) + 0.5) * 0.01
+    arrows = np.array(frames.velocity_arrows(u, v, gas, x, y, columns=16))
+    assert len(arrows) > 0
+    assert arrows[:, 0].min() > 0.32  # none in the wall half (x < 0.32 m)
+    assert np.all(arrows[:, 2] == 100.0) and np.all(arrows[:, 3] == 0.0)

@@ -1,0 +1,368 @@
+"""The session state machine and live scenario changes (server/session.py), without a server.
+
+Grids are tiny (64 x 16) and step counts small: these check wiring and state, not physics.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from server import readings
+from server.errors import RequestError
+from server.session import DIVERGED, PAUSED, RUNNING, TRANSITIONS, Session, TransitionError, SessionState
+from solver import relations
+from solver import scenario as scn
+from solver.kinds import CellKind
+from solver.numerics import CFL_MAX
+
+
+def duct_doc(nx: int = 64) -> dict:
+    """A planar duct 0.4 m x 0.1 m fed by a reservoir at the left, open at the right."""
+    return {
+        "name": "test duct", "description": "tiny duct for server tests",
+        "gas": {"preset": "air", "gamma": 1.4, "molar_mass_kg_kmol": 28.965},
+        "mode": "planar",
+        "domain": {"x_min_m": 0.0, "x_max_m": 0.4, "y_min_m": 0.0, "y_max_m": 0.1, "nx": nx},
+        "edges": {"left": "wall", "right": "open", "bottom": "wall", "top": "wall"},
+        "sketch": {"mirror": "none", "shapes": [
+            {"kind": "rectangle", "corner_a_m": [0.0, 0.0], "corner_b_m": [0.05, 0.1], "paints": "reservoir"}]},
+        "conditions": {"reservoir": {"p0_pa": 300000.0, "t0_k": 300.0},
+                       "stream": {"mach": 2.0, "angle_deg": 0.0, "p_pa": 101325.0, "t_k": 288.15},
+                       "ambient": {"p_pa": 100000.0, "t_k": 300.0}},
+        "stations": [{"name": "mid", "start_m": [0.2, 0.0], "end_m": [0.2, 0.1], "role": None}],
+        "probes": [{"name": "p1", "x_m": 0.3, "y_m": 0.05}],
+        "end_time_s": 0.001,
+    }
+
+
+@pytest.fixture
+def saved() -> list:
+    return []
+
+
+@pytest.fixture
+def session(saved) -> Session:
+    return Session(scn.parse_scenario(duct_doc()), on_change=saved.append)
+
+
+WALL_DISC = {"kind": "circle", "centre_m": [0.3, 0.05], "radius_m": 0.02, "paints": "wall"}
+
+
+# ----------------------------------------------------------------------------- state machine
+
+def test_starts_paused_and_run_pause_toggle(session):
+    assert session.state is PAUSED
+    session.run()
+    assert session.state is RUNNING
+    session.run()  # a second tab pressing run is harmless
+    assert session.state is RUNNING
+    session.pause()
+    assert session.state is PAUSED
+
+
+def test_step_while_running_is_refused_with_the_allowed_states(session):
+    session.run()
+    with pytest.raises(TransitionError) as info:
+        session.step(1)
+    err = info.value
+    assert err.field == "state" and err.value == "running"
+    assert "paused" in err.allowed and "pause first" in err.message
+    assert session.state is RUNNING
+
+
+def test_every_event_has_a_rule_from_every_state_or_none_on_purpose():
+    events = {e for e, _ in TRANSITIONS}
+    assert events == {"run", "pause", "step", "diverge", "reset_flow", "new_flow"}
+    for event in ("run", "pause", "reset_flow", "new_flow"):
+        assert all((event, s) in TRANSITIONS for s in SessionState)
+    assert ("step", RUNNING) not in TRANSITIONS
+    assert all(TRANSITIONS[("diverge", s)] is DIVERGED for s in SessionState)
+
+
+def test_step_advances_time_and_count(session):
+    out = session.step(3)
+    assert out.steps == 3 and session.sim.steps == 3 and session.sim.time_s > 0.0
+    assert session.state is PAUSED
+
+
+def test_advance_does_nothing_unless_running(session):
+    assert session.advance(0.01).steps == 0
+    session.run()
+    assert session.advance(0.0).steps >= 1  # at least one step per burst
+
+
+def test_step_count_out_of_range(session):
+    with pytest.raises(RequestError) as info:
+        session.step(0)
+    assert info.value.field == "count"
+
+
+# ----------------------------------------------------------------------------- divergence
+
+def test_divergence_pauses_keeps_sketch_and_last_good_state(session):
+    # No setting the protocol accepts makes this small duct blow up within a test's few steps (the solver
+    # floors density and pressure), so an absurd but finite velocity is written into one fluid cell
+    # through the solver's own set_primitive: the next step overflows.
+    sketch_before = scn.scenario_to_dict(session.scenario)["sketch"]
+    rho, u, v, p = session.sim.primitive()
+    u[8, 40] = 1e150
+    session.sim.set_primitive(rho, u, v, p)
+    kept = session.sim.U.copy()  # conserved state, ghosts included
+    session.run()
+    out = session.advance(1.0)
+    assert out.divergence is not None
+    assert session.state is DIVERGED
+    d = out.divergence.to_message()
+    assert d["type"] == "diverged" and d["step"] == 1 and d["variable"] in ("density", "x-momentum",
+                                                                           "y-momentum", "total energy")
+    assert any("CFL" in a for a in d["advice"]) and any("first order" in a for a in d["advice"])
+    assert scn.scenario_to_dict(session.scenario)["sketch"] == sketch_before
+    np.testing.assert_array_equal(session.sim.U, kept)  # the state before the failed step
+    assert session.advance(0.1).steps == 0  # no longer running
+    session.set_numerics(cfl=0.2, order=1)  # settings may change while diverged
+    session.pause()
+    assert session.state is PAUSED and session.divergence is None
+
+
+def test_divergence_advice_follows_the_numerics(session):
+    session.set_numerics(order=1, cfl=0.2, flux="rusanov")
+    rho, u, v, p = session.sim.primitive()
+    u[8, 40] = 1e150
+    session.sim.set_primitive(rho, u, v, p)
+    out = session.step(2)
+    assert session.state is DIVERGED and out.steps == 0
+    advice = " ".join(out.divergence.advice)
+    assert "CFL" not in advice and "first order" not in advice and "pressure ratio" in advice
+
+
+# ----------------------------------------------------------------------------- sketch
+
+def test_add_shape_paints_the_mask_and_keeps_the_flow(session, saved):
+    session.step(2)
+    t, steps = session.sim.time_s, session.sim.steps
+    j, i = session.sim.domain.cell_index(0.3, 0.05)
+    assert session.sim.mask[j, i] == CellKind.FLUID
+    session.add_shape(WALL_DISC)
+    assert session.sim.mask[j, i] == CellKind.WALL
+    assert (session.sim.time_s, session.sim.steps) == (t, steps)
+    assert session.revision == 1 and saved[-1] is session.scenario
+    assert len(session.scenario.sketch.shapes) == 2
+
+
+def test_bad_shape_names_the_field_and_changes_nothing(session):
+    with pytest.raises(RequestError) as info:
+        session.add_shape({**WALL_DISC, "radius_m": -1.0})
+    assert info.value.field == "shape.radius_m" and info.value.value == -1.0
+    assert "greater than 0" in info.value.allowed
+    with pytest.raises(RequestError) as info:
+        session.add_shape({**WALL_DISC, "paints": "lava"})
+    assert info.value.field == "shape.paints" and "wall" in info.value.allowed
+    assert session.revision == 0 and len(session.scenario.sketch.shapes) == 1
+
+
+def test_undo_redo_and_a_new_change_clears_redo(session):
+    j, i = session.sim.domain.cell_index(0.3, 0.05)
+    session.add_shape(WALL_DISC)
+    session.undo()
+    assert session.sim.mask[j, i] == CellKind.FLUID and len(session.scenario.sketch.shapes) == 1
+    session.redo()
+    assert session.sim.mask[j, i] == CellKind.WALL
+    session.undo()
+    session.set_mirror("midline")
+    with pytest.raises(RequestError) as info:
+        session.redo()
+    assert info.value.field == "redo"
+    session.undo()  # the mirror change
+    assert session.scenario.sketch.mirror == "none" and len(session.scenario.sketch.shapes) == 1
+    with pytest.raises(RequestError):
+        session.undo()  # nothing before the first change of this session
+
+
+def test_undo_with_nothing_to_undo(session):
+    with pytest.raises(RequestError) as info:
+        session.undo()
+    assert info.value.field == "undo"
+
+
+def test_remove_shape_and_clear(session):
+    with pytest.raises(RequestError) as info:
+        session.remove_shape(5)
+    assert info.value.field == "index" and "0 to 0" in info.value.allowed
+    session.add_shape(WALL_DISC)
+    session.remove_shape(0)
+    assert session.scenario.sketch.shapes[0].kind == "circle"
+    session.clear_sketch()
+    assert session.scenario.sketch.shapes == [] and not (session.sim.mask != CellKind.FLUID).any()
+    with pytest.raises(RequestError):
+        session.clear_sketch()
+    session.undo()
+    assert len(session.scenario.sketch.shapes) == 1
+
+
+# ----------------------------------------------------------------------------- live settings
+
+def test_conditions_change_the_held_cells_while_the_flow_goes_on(session):
+    session.step(2)
+    steps = session.sim.steps
+    session.set_conditions(reservoir={"p0_pa": 500000.0})
+    assert session.scenario.conditions.reservoir.p0_pa == 500000.0
+    assert session.scenario.conditions.reservoir.t0_k == 300.0  # partial change keeps the rest
+    _, _, _, p = session.sim.primitive()
+    assert p[8, 1] == 500000.0 and session.sim.steps == steps
+
+
+def test_bad_condition_names_the_message_field(session):
+    with pytest.raises(RequestError) as info:
+        session.set_conditions(reservoir={"p0_pa": -5.0})
+    err = info.value
+    assert err.field == "reservoir.p0_pa" and err.value == -5.0 and "greater than 0" in err.allowed
+    assert session.scenario.conditions.reservoir.p0_pa == 300000.0
+
+
+def test_gas_preset_and_custom(session):
+    session.set_gas(preset="hot products")
+    assert session.sim.setup.gas.gamma == 1.2 and session.scenario.gas.preset == "hot products"
+    session.set_gas(gamma=1.3)
+    assert session.scenario.gas.preset is None and session.scenario.gas.molar_mass_kg_kmol == 22.0
+    with pytest.raises(RequestError) as info:
+        session.set_gas(gamma=3.0)
+    assert info.value.field == "gamma" and info.value.value == 3.0 and "1.8" in info.value.allowed
+
+
+def test_numerics_change_and_refusal(session):
+    session.set_numerics(flux="hll", cfl=0.3)
+    assert session.sim.setup.numerics.flux == "hll" and session.sim.setup.numerics.cfl == 0.3
+    with pytest.raises(RequestError) as info:
+        session.set_numerics(cfl=CFL_MAX + 0.5)
+    assert info.value.field == "cfl" and f"{CFL_MAX:g}" in info.value.allowed
+    assert session.scenario.numerics.cfl == 0.3
+
+
+def test_resolution_keeps_sketch_and_carries_flow(session):
+    session.step(3)
+    t = session.sim.time_s
+    mean_p = float(session.sim.primitive()[3].mean())
+    session.set_resolution(96)
+    assert session.sim.domain.shape == (24, 96)
+    assert session.sim.time_s == t
+    assert session.scenario.domain.nx == 96 and len(session.scenario.sketch.shapes) == 1
+    assert (session.sim.mask == CellKind.RESERVOIR).any()
+    assert float(session.sim.primitive()[3].mean()) == pytest.approx(mean_p, rel=0.05)
+
+
+def test_domain_edges_and_mode(session):
+    session.set_domain(0.0, 0.5, 0.0, 0.125)
+    assert session.sim.domain.shape == (16, 64) and session.scenario.domain.x_max_m == 0.5
+    session.set_edges(top="ambient")
+    assert session.sim.setup.edges.top == "ambient"
+    with pytest.raises(RequestError) as info:
+        session.set_edges(left="axis")
+    assert info.value.field.startswith("edges.left") or info.value.field == "left"
+    session.step(1)
+    session.set_mode("axisymmetric")
+    assert session.sim.setup.mode == "axisymmetric" and session.scenario.edges.bottom == "axis"
+    assert session.sim.steps == 0  # a new geometry mode is a new flow
+    session.set_mode("planar")
+    assert session.scenario.edges.bottom == "wall"
+
+
+def test_stations_and_probes(session):
+    session.add_station("exit", [0.35, 0.0], [0.35, 0.1], "exit")
+    assert [s.name for s in session.scenario.stations] == ["mid", "exit"]
+    with pytest.raises(RequestError) as info:
+        session.add_station("exit", [0.1, 0.0], [0.1, 0.1])
+    assert info.value.field == "name" and "in use" in info.value.allowed
+    with pytest.raises(RequestError) as info:
+        session.add_station("far", [0.1, 0.0], [0.1, 5.0])
+    assert info.value.field == "end_m" and info.value.value == [0.1, 5.0]
+    session.remove_station("mid")
+    with pytest.raises(RequestError) as info:
+        session.remove_station("mid")
+    assert info.value.field == "name" and "exit" in info.value.allowed
+    session.add_probe("p2", 0.1, 0.02)
+    with pytest.raises(RequestError) as info:
+        session.add_probe("p3", 0.1, 0.9)
+    assert info.value.field == "x_m" or info.value.field == "y_m"
+    session.remove_probe("p1")
+    assert [p.name for p in session.scenario.probes] == ["p2"]
+
+
+def test_inspect_and_profiles(session):
+    r = session.inspect(0.01, 0.05)
+    assert r["kind"] == "reservoir" and r["p_pa"] == pytest.approx(300000.0)
+    assert r["t_k"] == pytest.approx(300.0)
+    with pytest.raises(RequestError) as info:
+        session.inspect(0.5, 0.05)
+    assert info.value.field == "x_m"
+    prof = session.profile(station="mid")
+    assert prof["station"] == "mid" and len(prof["p_pa"]) == len(prof["s_m"]) >= 16
+    axis = session.profile(axis=True)
+    assert axis["axis"] is True and len(axis["mach"]) >= 64
+    with pytest.raises(RequestError):
+        session.profile(station="nope")
+
+
+def test_reset_flow_and_load(session):
+    session.step(2)
+    session.add_shape(WALL_DISC)
+    session.reset_flow()
+    assert session.sim.steps == 0 and len(session.scenario.sketch.shapes) == 2
+    other = duct_doc(nx=48)
+    other["name"] = "other"
+    session.load(scn.parse_scenario(other))
+    assert session.scenario.name == "other" and session.sim.domain.nx == 48
+    with pytest.raises(RequestError):
+        session.undo()  # history belongs to the scenario that was replaced
+
+
+def test_snapshot_is_a_copy(session):
+    snap = session.snapshot()
+    session.step(2)
+    assert snap.steps == 0 and snap.rho.shape == (16, 64)
+    assert not np.shares_memory(snap.p, session.sim.W)
+
+
+# ----------------------------------------------------------------------------- ideal nozzle figures
+
+def nozzle_doc() -> dict:
+    """Axisymmetric converging-diverging nozzle: throat radius 10 mm, exit radius 20 mm (Ae/A* = 4)."""
+    doc = duct_doc(nx=128)
+    doc.update(mode="axisymmetric", name="test nozzle")
+    doc["domain"].update(x_max_m=0.16, y_max_m=0.04)
+    doc["edges"].update(bottom="axis", top="ambient")
+    doc["sketch"]["shapes"] = [
+        {"kind": "polygon", "paints": "wall",
+         "points_m": [[0.0, 0.03], [0.04, 0.03], [0.06, 0.01], [0.1, 0.02], [0.1, 0.04], [0.0, 0.04]]},
+        {"kind": "rectangle", "corner_a_m": [0.0, 0.0], "corner_b_m": [0.01, 0.03], "paints": "reservoir"},
+    ]
+    doc["stations"] = [{"name": "exit", "start_m": [0.099, 0.0], "end_m": [0.099, 0.0199], "role": "exit"},
+                       {"name": "plume", "start_m": [0.14, 0.0], "end_m": [0.14, 0.04], "role": None}]
+    doc["probes"] = []
+    return doc
+
+
+def test_geometric_throat_and_ideal_figures():
+    s = Session(scn.parse_scenario(nozzle_doc()))
+    noz = readings.nozzle_geometry(s.sim.mask, s.sim.domain, s.scenario)
+    dx = s.sim.domain.dx_m
+    assert abs(s.sim.domain.x_centres_m()[noz.throat_index] - 0.06) <= dx
+    # The mask's throat radius is within a cell of the drawn 10 mm.
+    r_throat = (noz.throat_area_m2 / np.pi) ** 0.5
+    assert abs(r_throat - 0.01) <= dx
+    status = readings.status_figures(s.sim, s.scenario, noz, 0)
+    exit_fig, plume_fig = status["stations"]
+    ideal = exit_fig["ideal"]
+    assert plume_fig["ideal"] is None  # outside the nozzle: no 1D figure
+    assert ideal["throat_area_m2"] == pytest.approx(noz.throat_area_m2)
+    gas = scn.to_gas(s.scenario)
+    # Choked mass flow and exit Mach from the solver's relations (NACA Report 1135 isentropic relations).
+    assert ideal["choked_mass_flow_kg_s"] == pytest.approx(
+        relations.choked_mass_flow_kg_s(300000.0, 300.0, noz.throat_area_m2, 1.4, gas.r_j_kg_k))
+    assert ideal["ideal_exit_mach"] == pytest.approx(
+        relations.mach_from_area_ratio(ideal["area_ratio"], 1.4, supersonic=True))
+    assert 3.0 < ideal["area_ratio"] < 5.0  # drawn Ae/A* = 4, within the cell-size error of the mask
+    axis = s.profile(axis=True)
+    ideal_mach = np.array([np.nan if m is None else m for m in axis["ideal_mach"]], float)
+    x = np.array(axis["x_m"])
+    assert np.nanmax(ideal_mach[x < 0.055]) < 1.0 < np.nanmin(ideal_mach[(x > 0.065) & (x < 0.1)])
+    assert np.isnan(ideal_mach[x > 0.12]).all()
