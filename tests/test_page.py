@@ -217,7 +217,8 @@ def drag(page, start: tuple[float, float], end: tuple[float, float], steps: int 
 
 def choose_tool(page, tool: str, paints: str = "wall") -> None:
     page.click(f"#tools [data-tool='{tool}']")
-    page.click(f"#paints [data-paint='{paints}']")
+    if tool not in ("station", "probe", "look"):
+        page.click(f"#paints [data-paint='{paints}']")
 
 
 def shape_count(page) -> int:
@@ -421,3 +422,56 @@ def test_colour_maps_are_even_steps_in_oklab(page):
             assert 0.4 < r["lightest_at"] < 0.6, (name, r)
         else:
             assert r["rising"], (name, r)
+
+
+def test_fixed_colour_range_reaches_the_frames(page):
+    """Holding the range sends it (converted from kPa to Pa) and the frames then carry exactly it."""
+    page.select_option("#view-select", "pressure")
+    page.select_option("#pressure-unit", "kPa")
+    page.check("#range-hold")
+    page.fill("#range-min", "50")
+    page.fill("#range-max", "2000")
+    page.locator("#range-max").evaluate("el => el.dispatchEvent(new Event('change'))")
+    page.wait_for_function("window.shockslate.frame.min === 50000 && window.shockslate.frame.max === 2000000",
+                           timeout=WAIT_MS)
+    assert "fixed range" in page.inner_text("#bar-caption")
+    page.uncheck("#range-hold")
+    page.wait_for_function("window.shockslate.frame.max !== 2000000", timeout=WAIT_MS)
+
+
+def test_diverged_message_is_shown_with_advice_and_its_fix_works(page, tmp_path):
+    """The solver here floors density and pressure and only stops on non-finite values, which no
+    small scenario provokes reliably; so the server's `diverged` message (PROTOCOL.md) is handed to
+    the page's own message handler, and the quick fix it offers must reach the real server."""
+    load_through_upload(page, fed_channel(), tmp_path)
+    page.evaluate("""() => window.shockslate.receive({type: 'diverged', message: 'Density became NaN.',
+        step: 1234, time_s: 0.00125, x_m: 0.07, y_m: 0.01, variable: 'density',
+        advice: ['lower the CFL number (now 0.4; try 0.3 or less)', 'reset the flow']})""")
+    box = page.locator("#diverged")
+    assert box.is_visible()
+    text = box.inner_text()
+    assert "Density became NaN." in text and "1234" in text and "1.250 ms" in text and "70.00 mm" in text
+    assert "lower the CFL number" in text
+    assert page.inner_text("#run-toggle") == "Run"
+    page.click("#fix-halve-cfl")
+    page.wait_for_function("window.shockslate.scenario.numerics.cfl === 0.2", timeout=WAIT_MS)
+    page.click("#diverged-close")
+    assert not box.is_visible()
+
+
+def test_station_and_probe_tools_add_marks(page, tmp_path):
+    load_through_upload(page, stream_duct(), tmp_path)
+    choose_tool(page, "station")
+    page.select_option("#station-role", "exit")
+    drag(page, canvas_point(page, 0.15, 0.0995), canvas_point(page, 0.15, 0.0005))
+    page.wait_for_function("window.shockslate.scenario.stations.length === 1", timeout=WAIT_MS)
+    st = page.evaluate("window.shockslate.scenario.stations[0]")
+    assert st["role"] == "exit" and st["start_m"][0] == pytest.approx(0.15, abs=0.002)
+    choose_tool(page, "probe")
+    page.mouse.click(*canvas_point(page, 0.05, 0.02))
+    page.wait_for_function("window.shockslate.scenario.probes.length === 2", timeout=WAIT_MS)
+    pr = page.evaluate("window.shockslate.scenario.probes[1]")
+    assert (pr["x_m"], pr["y_m"]) == pytest.approx((0.05, 0.02), abs=0.002)
+    # the station's distribution comes back for the plot strip
+    page.select_option("#plot-source", "station:S1")
+    page.wait_for_function("window.shockslate.profile && window.shockslate.profile.station === 'S1'", timeout=WAIT_MS)

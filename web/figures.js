@@ -45,7 +45,7 @@ export function showStations(status, mode) {
     const ideal = st.ideal || null;
     const has = (k) => ideal && ideal[k] != null;
     tr.append(
-      cell(st.role ? `${st.name} (${st.role})` : st.name),
+      cell(st.role && st.role !== st.name ? `${st.name} (${st.role})` : st.name),
       pairCell(U.massFlow(st.mass_flow_kg_s), has("choked_mass_flow_kg_s") && U.massFlow(ideal.choked_mass_flow_kg_s),
         has("choked_mass_flow_kg_s") && percentOff(st.mass_flow_kg_s, ideal.choked_mass_flow_kg_s)),
       pairCell(U.force(st.thrust_n), has("ideal_thrust_n") && U.force(ideal.ideal_thrust_n),
@@ -81,7 +81,6 @@ export function showProbes(status) {
       cell(U.pressure(pr.p_pa)),
       cell(U.temperature(pr.t_k)),
       cell(U.density(pr.rho_kg_m3)),
-      cell(U.speed(Math.hypot(pr.u_m_s, pr.v_m_s))),
       cell(U.num(pr.mach, 3)),
     );
     body.append(tr);
@@ -145,7 +144,7 @@ export function showLists(app) {
     ...shapes.map((sh, n) => listItem(describeShape(sh), () => app.send("remove_shape", { index: n }), "remove this shape")),
   );
   $("#station-list").replaceChildren(
-    ...(sc.stations || []).map((st) => listItem(st.role ? `${st.name} (${st.role})` : st.name,
+    ...(sc.stations || []).map((st) => listItem(st.role && st.role !== st.name ? `${st.name} (${st.role})` : st.name,
       () => app.send("remove_station", { name: st.name }), "remove this station")),
   );
   $("#probe-list").replaceChildren(

@@ -341,6 +341,8 @@ function setTool(tool) {
   for (const b of $$("#tools [data-tool]")) b.setAttribute("aria-checked", String(b.dataset.tool === tool));
   $("#view").dataset.tool = tool;
   $("#tool-hint").textContent = TOOL_HINTS[tool] || "";
+  $("#station-role-field").hidden = tool !== "station";
+  $("#paints-block").hidden = tool === "station" || tool === "probe" || tool === "look";
   if (app.tools) app.tools.cancel();
 }
 
@@ -367,8 +369,12 @@ function setupTools() {
   setPaint("wall");
   app.tools = new SketchTools($("#view"), () => app.place, settings, {
     onShape: (shape) => app.send("add_shape", { shape }),
-    onStation: (start_m, end_m) =>
-      app.send("add_station", { name: uniqueName("S", app.scenario && app.scenario.stations), start_m, end_m }),
+    onStation: (start_m, end_m) => {
+      const role = $("#station-role").value;
+      app.send("add_station", {
+        name: uniqueName("S", app.scenario && app.scenario.stations), start_m, end_m, ...(role ? { role } : {}),
+      });
+    },
     onProbe: ([x_m, y_m]) => app.send("add_probe", { name: uniqueName("P", app.scenario && app.scenario.probes), x_m, y_m }),
     onHover: (point) => {
       app.hover = point;
@@ -640,7 +646,8 @@ function start() {
     resizeTimer = setTimeout(() => { layoutCanvas(); updateColourBar(); drawStrip(); }, 150);
   });
   setInterval(() => { if (app.status) $("#fig-frames").textContent = `${U.num(tabFps(), 3)} (server ${U.num(app.status.frames_per_s || 0, 3)})`; }, 1000);
-  // A read-only handle for tests and the console.
+  // A handle for tests and the console; `receive` takes a server message as if it had arrived.
+  app.receive = onMessage;
   window.shockslate = app;
 }
 

@@ -143,7 +143,7 @@ export function drawStations(ctx, place, stations) {
     }
     ctx.restore();
     const top = a[1] < b[1] ? a : b;
-    label(ctx, st.role ? `${st.name} (${st.role})` : st.name, top[0] + 4, top[1] - 5, STATION_COLOUR);
+    label(ctx, st.role && st.role !== st.name ? `${st.name} (${st.role})` : st.name, top[0] + 4, top[1] - 5, STATION_COLOUR);
   }
 }
 

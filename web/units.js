@@ -23,9 +23,10 @@ export function getPressureUnit() {
 export function num(value, digits = 4) {
   if (value === null || value === undefined || Number.isNaN(value)) return "–";
   if (!Number.isFinite(value)) return value > 0 ? "∞" : "−∞";
-  if (value === 0) return "0";
   const mag = Math.abs(value);
-  if (mag >= 1e7 || mag < 1e-4) return value.toExponential(digits - 1).replace("e", "×10^").replace("-", "−");
+  // round-off residue (a speed of 1e-13 m/s in still gas) reads as zero
+  if (mag < 1e-9) return "0";
+  if (mag >= 1e7 || mag < 1e-4) return value.toExponential(digits - 1).replace("e+", "e").replace(/-/g, "−");
   const decimals = Math.max(0, digits - 1 - Math.floor(Math.log10(mag)));
   return value.toFixed(Math.min(decimals, 8)).replace("-", "−");
 }
