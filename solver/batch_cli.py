@@ -1,0 +1,115 @@
+"""The batch sub-commands of the `shockslate` console command: run, scenarios, check.
+
+The command itself lives with the server; it calls `add_batch_commands(subparsers)` and then
+`args.func(args)`, which returns the process exit code.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+import textwrap
+from pathlib import Path
+
+from .fields import VIEWS
+from .scenario import ScenarioError, builtin_names, builtin_path, load_builtin, load_scenario
+
+#: Exit codes: 0 done, 1 the run diverged or stalled, 2 bad input, 130 stopped with Ctrl+C (shell convention).
+EXIT_OK, EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
+
+
+def _positive_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not (value > 0.0 and value < float("inf")):
+        raise argparse.ArgumentTypeError(f"{text!r} must be a number greater than 0")
+    return value
+
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"{text!r} must be at least 1")
+    return value
+
+
+def add_batch_commands(subparsers) -> None:
+    """Register `run`, `scenarios` and `check` on an argparse sub-parsers object."""
+    run = subparsers.add_parser(
+        "run", help="run a scenario without the browser and write results to a folder",
+        description="Run a scenario headless. Writes summary.json, history.csv, fields (.npz, .vti), snapshot "
+                    "PNGs, station CSVs and report.html. Ctrl+C stops cleanly and keeps what was written.")
+    run.add_argument("scenario", help="a scenario JSON file, or the name of a built-in (see `scenarios`)")
+    run.add_argument("--until", type=_positive_float, metavar="SECONDS",
+                     help="simulated time to stop at (default: the scenario's end time)")
+    run.add_argument("--steps", type=_positive_int, metavar="N", help="stop after N steps at most")
+    run.add_argument("--resolution", type=_positive_int, metavar="NX", help="cells across x (default: the scenario's)")
+    run.add_argument("--out", default="results", metavar="DIR", help="output folder (default: results)")
+    run.add_argument("--every", type=_positive_float, metavar="SECONDS",
+                     help="interval of field files and snapshots (default: a tenth of the run)")
+    run.add_argument("--view", default="mach", choices=list(VIEWS), help="field drawn in the snapshots (default: mach)")
+    run.set_defaults(func=cmd_run)
+
+    lst = subparsers.add_parser("scenarios", help="list the built-in scenarios with their descriptions")
+    lst.set_defaults(func=cmd_scenarios)
+
+    chk = subparsers.add_parser("check", help="validate a scenario file and say what is wrong with it")
+    chk.add_argument("file", help="scenario JSON file")
+    chk.set_defaults(func=cmd_check)
+
+
+def cmd_run(args: argparse.Namespace) -> int:
+    from .batch import run_scenario  # matplotlib and friends only when running
+
+    try:
+        summary = run_scenario(args.scenario, Path(args.out), until_s=args.until, steps=args.steps,
+                               nx=args.resolution, every_s=args.every, view=args.view)
+    except (ScenarioError, ValueError) as err:
+        print(f"shockslate run: {err}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    print(f"{summary['status']}: {summary['scenario']} to t = {summary['sim_time_s']:.6g} s in {summary['steps']} "
+          f"steps ({summary['wall_s']:.1f} s); results in {Path(args.out).resolve()}")
+    if summary["message"]:
+        print(summary["message"], file=sys.stderr)
+    nozzle = summary.get("nozzle")
+    if nozzle:
+        print(f"nozzle ({nozzle['regime']}): mass flow {nozzle['mass_flow_ratio']:.4f} of choked, C_F "
+              f"{nozzle['thrust_coefficient_ratio']:.4f} of ideal ({nozzle['thrust_coefficient_ratio_with_divergence']:.4f} "
+              f"with divergence factor), Isp {nozzle['specific_impulse_s']:.1f} s")
+    return {"finished": EXIT_OK, "interrupted": EXIT_INTERRUPTED}.get(summary["status"], EXIT_FAILED)
+
+
+def cmd_scenarios(args: argparse.Namespace) -> int:
+    for name in builtin_names():
+        s = load_builtin(name)
+        print(f"{name}  ({s.mode}, {builtin_path(name)})")
+        print(textwrap.fill(s.description, width=100, initial_indent="    ", subsequent_indent="    "))
+        print()
+    return EXIT_OK
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    try:
+        s = load_scenario(args.file)
+    except ScenarioError as err:
+        print(f"refused: {err}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    print(f"ok: {s.name} ({s.mode}, {len(s.sketch.shapes)} shapes, {len(s.stations)} stations, "
+          f"{len(s.probes)} probes, end time {s.end_time_s:g} s)")
+    return EXIT_OK
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Stand-alone entry for these sub-commands (`python -m solver.batch_cli ...`)."""
+    parser = argparse.ArgumentParser(prog="shockslate")
+    add_batch_commands(parser.add_subparsers(dest="command", required=True))
+    args = parser.parse_args(argv)
+    return args.func(args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())
