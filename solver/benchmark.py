@@ -1,0 +1,177 @@
+"""`shockslate bench`: solver speed, start-up time and memory, beside a plain NumPy baseline.
+
+Speed is cell updates per second (one full time step of one cell = one update), the median of
+several timed bursts on a developed flow (a blast in a closed box of walls; planar, HLLC,
+MUSCL van Leer, SSP-RK2, CFL 0.4). The NumPy baseline in bench/numpy_baseline.py runs the same
+scheme in the same process and the same run, so ratios are fair on a noisy shared machine.
+"""
+from __future__ import annotations
+
+import argparse
+import importlib.util
+import json
+import os
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+GRIDS = ((256, 128), (512, 256), (1024, 512), (2048, 1024))
+GOALS = {
+    "cell_updates_per_s_2_threads_512x256": 20e6,
+    "ratio_to_numpy_2_threads_512x256": 20.0,
+    "cell_updates_per_s_1_thread_512x256": 10e6,
+    "warm_start_s": 2.0,
+    "bytes_per_cell_2048x1024": 300.0,
+}
+
+
+def _baseline_module():
+    path = Path(__file__).resolve().parent.parent / "bench" / "numpy_baseline.py"
+    spec = importlib.util.spec_from_file_location("shockslate_numpy_baseline", path)
+    module = importlib.util.module_from_spec(spec)
+    assert spec.loader is not None
+    spec.loader.exec_module(module)
+    return module
+
+
+def blast_initial(nx: int, ny: int):
+    """A developed-flow start: a hot, dense disc off centre in still air, in a 2:1 box (SI)."""
+    x = (np.arange(nx) + 0.5) / nx * 2.0
+    y = (np.arange(ny) + 0.5) / ny * (2.0 * ny / nx)
+    xx, yy = np.meshgrid(x, y)
+    hot = (xx - 0.7) ** 2 + (yy - 0.45 * yy.max()) ** 2 < (0.12 * 2.0) ** 2
+    rho = np.where(hot, 4.0, 1.2)
+    p = np.where(hot, 1.0e6, 1.0e5)
+    return rho, np.zeros_like(rho), np.zeros_like(rho), p
+
+
+def build_box(nx: int, ny: int):
+    from .domain import Domain
+    from .simulation import Edges, Setup, Simulation
+
+    dom = Domain(0.0, 2.0, 0.0, 2.0 * ny / nx, nx)
+    sim = Simulation(Setup(domain=dom, edges=Edges("wall", "wall", "wall", "wall")))
+    sim.set_primitive(*blast_initial(nx, ny))
+    return sim
+
+
+def _median_rate(step, cells: int, steps: int, repeats: int) -> float:
+    rates = []
+    for _ in range(repeats):
+        t = time.perf_counter()
+        for _ in range(steps):
+            step()
+        rates.append(cells * steps / (time.perf_counter() - t))
+    return statistics.median(rates)
+
+
+def _steps_for(cells: int) -> int:
+    return max(2, int(4e6 // cells))
+
+
+def measure_solver(nx: int, ny: int, threads: int, repeats: int) -> float:
+    import numba
+
+    numba.set_num_threads(threads)
+    sim = build_box(nx, ny)
+    sim.advance(max(3, _steps_for(nx * ny) // 2))  # develop the flow before timing
+    return _median_rate(sim.step, nx * ny, _steps_for(nx * ny), repeats)
+
+
+def measure_numpy(nx: int, ny: int, repeats: int) -> float:
+    base = _baseline_module()
+    box = base.NumpyBox(*blast_initial(nx, ny), dx_m=2.0 / nx)
+    box.step()
+    steps = max(1, int(2e5 // (nx * ny)))
+    return _median_rate(box.step, nx * ny, steps, repeats)
+
+
+def measure_warm_start() -> float:
+    """Seconds from starting a fresh Python process to the first finished step (warm JIT cache)."""
+    code = "from solver.benchmark import build_box; build_box(256, 128).step()"
+    env = dict(os.environ)
+    times = []
+    for _ in range(3):  # the first run may fill the cache
+        t = time.perf_counter()
+        subprocess.run([sys.executable, "-c", code], check=True, env=env)
+        times.append(time.perf_counter() - t)
+    return min(times[1:])
+
+
+def _rss_bytes() -> int:
+    with open("/proc/self/statm") as f:
+        return int(f.read().split()[1]) * os.sysconf("SC_PAGE_SIZE")
+
+
+def measure_memory(nx: int, ny: int) -> tuple[float, float]:
+    """(bytes per cell held by the simulation's arrays, resident growth per cell) at nx x ny."""
+    before = _rss_bytes()
+    sim = build_box(nx, ny)
+    sim.step()
+    grown = _rss_bytes() - before
+    arrays = sum(v.nbytes for v in vars(sim).values() if isinstance(v, np.ndarray))
+    return arrays / (nx * ny), grown / (nx * ny)
+
+
+def run_benchmark(repeats: int = 5, grids=GRIDS) -> dict:
+    import numba
+
+    all_threads = numba.config.NUMBA_NUM_THREADS
+    build_box(64, 32).step()  # compile or load the kernels before timing anything
+    results = []
+    for nx, ny in grids:
+        np_rate = measure_numpy(nx, ny, max(1, repeats // 2))
+        for threads in sorted({1, all_threads}):
+            rate = measure_solver(nx, ny, threads, repeats)
+            results.append({"nx": nx, "ny": ny, "threads": threads, "cell_updates_per_s": rate,
+                            "numpy_cell_updates_per_s": np_rate, "ratio_to_numpy": rate / np_rate})
+    numba.set_num_threads(all_threads)
+    array_bytes, rss_bytes = measure_memory(2048, 1024)
+    return {
+        "scheme": "planar, closed box of walls, HLLC, MUSCL van Leer, SSP-RK2, CFL 0.4",
+        "threading_layer": numba.threading_layer(),
+        "cpu_count": os.cpu_count(),
+        "repeats": repeats,
+        "grids": results,
+        "warm_start_s": measure_warm_start(),
+        "bytes_per_cell_2048x1024": array_bytes,
+        "rss_growth_bytes_per_cell_2048x1024": rss_bytes,
+        "goals": GOALS,
+    }
+
+
+def _print_table(report: dict) -> None:
+    print(f"shockslate solver benchmark: {report['scheme']}")
+    print(f"threading layer {report['threading_layer']}, {report['cpu_count']} cores, "
+          f"median of {report['repeats']} bursts")
+    print(f"{'grid':>11} {'threads':>7} {'Mcell-updates/s':>16} {'NumPy':>8} {'ratio':>7}")
+    for g in report["grids"]:
+        print(f"{g['nx']:>5}x{g['ny']:<5} {g['threads']:>7} {g['cell_updates_per_s'] / 1e6:>16.1f} "
+              f"{g['numpy_cell_updates_per_s'] / 1e6:>8.2f} {g['ratio_to_numpy']:>7.1f}")
+    print(f"warm start to first step: {report['warm_start_s']:.2f} s")
+    print(f"memory at 2048x1024: {report['bytes_per_cell_2048x1024']:.0f} bytes/cell in arrays, "
+          f"{report['rss_growth_bytes_per_cell_2048x1024']:.0f} bytes/cell resident growth")
+
+
+def main(args: argparse.Namespace) -> int:
+    grids = GRIDS[:2] if args.quick else GRIDS
+    report = run_benchmark(repeats=args.repeats, grids=grids)
+    if args.json:
+        print(json.dumps(report, indent=2))
+    else:
+        _print_table(report)
+    return 0
+
+
+def add_bench_command(subparsers) -> argparse.ArgumentParser:
+    """Register `bench` on the command line's sub-command parsers."""
+    p = subparsers.add_parser("bench", help="measure solver speed, start-up time and memory")
+    p.add_argument("--json", action="store_true", help="print the figures as JSON")
+    p.add_argument("--repeats", type=int, default=5, help="timed bursts per figure (median is reported)")
+    p.add_argument("--quick", action="store_true", help="only the two smaller grids")
+    p.set_defaults(handler=main)
+    return p
