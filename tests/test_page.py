@@ -366,11 +366,23 @@ def test_undo_removes_the_shape_and_redo_brings_it_back(page, tmp_path):
     xs = sorted([rect["corner_a_m"][0], rect["corner_b_m"][0]])
     assert xs == pytest.approx([0.05, 0.09], abs=0.002)  # pixels converted to metres, snapped to 1 mm
 
+    choose_tool(page, "look")
     page.click("#view")  # focus off any input, then the keys a user presses
     page.keyboard.press("Control+z")
     wait_shapes(page, 0)
     page.keyboard.press("Control+Shift+Z")
     wait_shapes(page, 1)
+
+
+def test_space_toggles_run_and_pause(page):
+    pause(page)
+    page.click("#view")
+    page.keyboard.press("Space")
+    page.wait_for_function("window.shockslate.status.state === 'running'", timeout=WAIT_MS)
+    assert page.inner_text("#run-toggle") == "Pause"
+    page.keyboard.press("Space")
+    page.wait_for_function("window.shockslate.status.state === 'paused'", timeout=WAIT_MS)
+    assert page.inner_text("#run-toggle") == "Run"
 
 
 def test_bad_value_shows_an_error_naming_field_and_value(page, tmp_path):

@@ -1,7 +1,7 @@
 // The colour bar under the picture: the map, round-number ticks in the display unit, and a caption
 // naming quantity, unit and whether the range follows the flow (auto) or is held (fixed).
 
-import { cssAt } from "./colourmaps.js";
+import { cssAt, levelFraction, DATA_LEVELS } from "./colourmaps.js";
 import { num } from "./units.js";
 
 /** Round tick values covering [lo, hi], about `count` of them (1, 2, 5 times a power of ten). */
@@ -13,6 +13,19 @@ export function niceTicks(lo, hi, count = 6) {
   const ticks = [];
   for (let t = Math.ceil(lo / step) * step; t <= hi + step * 1e-9; t += step) ticks.push(Math.abs(t) < step * 1e-9 ? 0 : t);
   return ticks;
+}
+
+/** Tick labels with as many decimals as the tick step needs; large or tiny ones as 2.5e6. */
+export function tickLabels(ticks) {
+  if (ticks.length < 2) return ticks.map((t) => num(t, 4));
+  const step = Math.abs(ticks[1] - ticks[0]);
+  const top = Math.max(...ticks.map(Math.abs));
+  if (top >= 1e5 || (top > 0 && top < 1e-3)) {
+    const digits = Math.max(1, Math.min(4, Math.round(Math.log10(top / step)) + 1));
+    return ticks.map((t) => (t === 0 ? "0" : t.toExponential(digits - 1).replace("e+", "e").replace(/-/g, "−")));
+  }
+  const decimals = Math.max(0, Math.min(6, -Math.floor(Math.log10(step) + 1e-9)));
+  return ticks.map((t) => t.toFixed(decimals).replace("-", "−"));
 }
 
 /**
@@ -32,7 +45,8 @@ export function drawColourBar(canvas, mapName, minShown, maxShown) {
   const pad = 12, barH = 14;
   const barW = w - 2 * pad;
   for (let k = 0; k < barW; k++) {
-    ctx.fillStyle = cssAt(mapName, k / Math.max(1, barW - 1));
+    const level = (k / Math.max(1, barW - 1)) * (DATA_LEVELS - 1);
+    ctx.fillStyle = cssAt(mapName, levelFraction(mapName, level, minShown, maxShown));
     ctx.fillRect(pad + k, 2, 1.5, barH);
   }
   ctx.strokeStyle = "rgba(255,255,255,0.35)";
@@ -44,12 +58,15 @@ export function drawColourBar(canvas, mapName, minShown, maxShown) {
   ctx.textAlign = "center";
   const span = maxShown - minShown;
   const ticks = span > 0 ? niceTicks(minShown, maxShown, Math.max(2, Math.floor(barW / 70))) : [minShown];
-  for (const t of ticks) {
+  const labels = tickLabels(ticks);
+  ticks.forEach((t, n) => {
     const x = pad + (span > 0 ? ((t - minShown) / span) * barW : barW / 2);
     ctx.beginPath();
     ctx.moveTo(x, barH + 2);
     ctx.lineTo(x, barH + 6);
     ctx.stroke();
-    ctx.fillText(num(t, 4), x, barH + 18);
-  }
+    // keep the end labels inside the bar's canvas
+    const half = ctx.measureText(labels[n]).width / 2;
+    ctx.fillText(labels[n], Math.min(w - half - 1, Math.max(half + 1, x)), barH + 18);
+  });
 }

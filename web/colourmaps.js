@@ -13,8 +13,8 @@ export const MAP_ANCHORS = {
   kiln: ["#14161f", "#3b2330", "#7d3535", "#c2603a", "#e3a25a", "#f4e3b5"],
   // cool: night, deep blue, sea blue, teal, green, pale lime
   lagoon: ["#0c1424", "#16365e", "#1f6f8b", "#3aa39a", "#8fd18a", "#eef5c2"],
-  // violet to sky to pale yellow, for Mach number and speed
-  meadow: ["#1b1030", "#4b2a7a", "#3d6fb5", "#4fb3c0", "#a6dca0", "#f4f2b8"],
+  // moss to gold: near-black green, pine, moss, olive, gold, pale straw; for Mach number and speed
+  meadow: ["#0f1a14", "#1f3d2b", "#3f6b3a", "#8a9a3f", "#d8c35a", "#f7f0c8"],
   // a grey with a faint blue cast, for numerical schlieren (1 = still gas is light)
   slate: ["#0f1317", "#f1f3f4"],
   // diverging: blue, neutral, brick; the middle level is zero for vorticity
@@ -140,4 +140,31 @@ export function cssAt(name, f) {
   const k = Math.round(Math.min(1, Math.max(0, f)) * (table.length - 1));
   const [r, g, b] = table[k];
   return `rgb(${r}, ${g}, ${b})`;
+}
+
+/**
+ * Where level k (0..254) of a frame spanning [min, max] falls on the map, 0..1. A diverging map
+ * keeps zero at its middle when the range straddles zero (vorticity), whatever the range's
+ * asymmetry; every other map spreads the levels evenly.
+ */
+export function levelFraction(name, k, min, max) {
+  const even = k / (DATA_LEVELS - 1);
+  if (!DIVERGING.has(name) || !(min < 0 && max > 0)) return even;
+  const value = min + even * (max - min);
+  const reach = Math.max(-min, max);
+  return 0.5 + value / (2 * reach);
+}
+
+/** The packed lookup of `name` for one frame's range (see levelFraction); level 255 is the wall. */
+export function frameLookup(name, min, max) {
+  const { table, packed } = packedLookup(name);
+  if (!DIVERGING.has(name) || !(min < 0 && max > 0)) return packed;
+  const out = new Uint32Array(256);
+  for (let k = 0; k < DATA_LEVELS; k++) {
+    const f = levelFraction(name, k, min, max);
+    const [r, g, b] = table[Math.round(Math.min(1, Math.max(0, f)) * (table.length - 1))];
+    out[k] = (255 << 24) | (b << 16) | (g << 8) | r;
+  }
+  out[WALL_LEVEL] = packed[WALL_LEVEL];
+  return out;
 }

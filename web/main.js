@@ -2,7 +2,7 @@
 // measurements over it, and the controls that steer the one simulation the server runs.
 // The server owns the scenario and the flow; the page draws and sends intents.
 
-import { DEFAULT_MAP, DIVERGING, MAP_ANCHORS, packedLookup } from "./colourmaps.js";
+import { DEFAULT_MAP, DIVERGING, MAP_ANCHORS, frameLookup } from "./colourmaps.js";
 import { drawColourBar } from "./colourbar.js";
 import { Connection } from "./connection.js";
 import { Histories, showClock, showLists, showProbes, showReadout, showStations } from "./figures.js";
@@ -163,7 +163,7 @@ function paintFrame() {
   const ctx = fc.getContext("2d");
   const img = ctx.createImageData(f.width, f.height);
   const words = new Uint32Array(img.data.buffer);
-  const lut = packedLookup(app.mapName).packed;
+  const lut = frameLookup(app.mapName, f.min, f.max);
   const levels = f.levels;
   for (let k = 0; k < levels.length; k++) words[k] = lut[levels[k]];
   ctx.putImageData(img, 0, 0);
@@ -230,7 +230,7 @@ function updateColourBar() {
   $("#range-unit").textContent = unit;
   if (!held && f) {
     for (const [id, v] of [["#range-min", lo], ["#range-max", hi]]) {
-      if (document.activeElement !== $(id)) $(id).value = U.plain(v, 5);
+      if (document.activeElement !== $(id)) $(id).value = U.plain(v, 4);
     }
   }
 }
@@ -253,9 +253,10 @@ function onFrame(buffer) {
 }
 
 function tabFps() {
-  const t = app.frameTimes;
+  const now = performance.now();
+  const t = app.frameTimes.filter((x) => now - x <= 2000);
   if (t.length < 2) return 0;
-  return (t.length - 1) / ((t[t.length - 1] - t[0]) / 1000);
+  return t.length / (Math.max(now - t[0], 1000) / 1000);
 }
 
 // ------------------------------------------------------------------ view controls

@@ -1,8 +1,7 @@
 // A small line plot for the strip under the picture: probe histories against sim time, or a
 // distribution along a station or the axis with the isentropic 1D curve beside it.
 
-import { niceTicks } from "./colourbar.js";
-import { num } from "./units.js";
+import { niceTicks, tickLabels } from "./colourbar.js";
 
 export const SERIES_COLOURS = ["#ffd447", "#52d0f0", "#ff6b8b", "#8fe07e", "#c9b6ff", "#ff9f43"];
 
@@ -47,14 +46,14 @@ export function drawPlot(canvas, series, axes, emptyText = "nothing to plot yet"
   ctx.strokeStyle = "rgba(255,255,255,0.18)";
   ctx.strokeRect(left, top, pw, ph);
   ctx.textAlign = "right";
-  for (const t of niceTicks(ymin, ymax, 4)) {
-    ctx.beginPath(); ctx.moveTo(left, Y(t)); ctx.lineTo(left + pw, Y(t)); ctx.stroke();
-    ctx.fillText(num(t, 3), left - 4, Y(t) + 4);
-  }
+  const yt = niceTicks(ymin, ymax, 4);
+  tickLabels(yt).forEach((text, n) => {
+    ctx.beginPath(); ctx.moveTo(left, Y(yt[n])); ctx.lineTo(left + pw, Y(yt[n])); ctx.stroke();
+    ctx.fillText(text, left - 4, Y(yt[n]) + 4);
+  });
   ctx.textAlign = "center";
-  for (const t of niceTicks(xmin, xmax, Math.max(2, Math.floor(pw / 80)))) {
-    ctx.fillText(num(t, 3), X(t), top + ph + 13);
-  }
+  const xt = niceTicks(xmin, xmax, Math.max(2, Math.floor(pw / 80)));
+  tickLabels(xt).forEach((text, n) => ctx.fillText(text, X(xt[n]), top + ph + 13));
   ctx.fillText(axes.xLabel || "", left + pw / 2, h - 3);
   ctx.save();
   ctx.translate(11, top + ph / 2);
