@@ -231,7 +231,8 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
 async def _handle_text(parts: ServerParts, client, text: str) -> None:
     raw: Any = None
     try:
-        raw, message = p.parse_text(text)
+        raw = p.parse_json(text)
+        message = p.parse_message(raw)
         await parts.dispatcher.handle(client, message)
     except RequestError as err:
         parts.hub.send(client, p.error_message(p.request_type(raw), err, p.request_id(raw)))

@@ -309,13 +309,18 @@ def request_id(data: Any) -> Any:
     return None
 
 
-def parse_text(text: str) -> tuple[dict, _Message]:
-    """The raw object and the validated message of one text frame; RequestError otherwise."""
+def parse_json(text: str) -> Any:
+    """The JSON value of one text frame; RequestError when it is not JSON."""
     try:
-        data = json.loads(text)
+        return json.loads(text)
     except (json.JSONDecodeError, RecursionError) as err:
         raise RequestError("message", _short(text), "a JSON object with a 'type' field",
                            f"message is not valid JSON: {err}") from None
+
+
+def parse_text(text: str) -> tuple[Any, _Message]:
+    """The raw object and the validated message of one text frame; RequestError otherwise."""
+    data = parse_json(text)
     return data, parse_message(data)
 
 
