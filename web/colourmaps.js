@@ -143,26 +143,35 @@ export function cssAt(name, f) {
 }
 
 /**
- * Where level k (0..254) of a frame spanning [min, max] falls on the map, 0..1. A diverging map
- * keeps zero at its middle when the range straddles zero (vorticity), whatever the range's
- * asymmetry; every other map spreads the levels evenly.
+ * Where a value falls on the map, 0..1, for a frame spanning [min, max]. A diverging map keeps
+ * zero at its middle when the range straddles zero (vorticity), whatever the range's asymmetry;
+ * every other map spreads [min, max] evenly.
  */
-export function levelFraction(name, k, min, max) {
-  const even = k / (DATA_LEVELS - 1);
-  if (!DIVERGING.has(name) || !(min < 0 && max > 0)) return even;
-  const value = min + even * (max - min);
-  const reach = Math.max(-min, max);
-  return 0.5 + value / (2 * reach);
+export function valueFraction(name, value, min, max) {
+  let f;
+  if (DIVERGING.has(name) && min < 0 && max > 0) f = 0.5 + value / (2 * Math.max(-min, max));
+  else f = max > min ? (value - min) / (max - min) : 0.5;
+  return Math.min(1, Math.max(0, f));
 }
 
-/** The packed lookup of `name` for one frame's range (see levelFraction); level 255 is the wall. */
-export function frameLookup(name, min, max) {
+/** Where level k (0..254) of a frame spanning [min, max] falls on the map, 0..1. */
+export function levelFraction(name, k, min, max) {
+  return valueFraction(name, min + (k / (DATA_LEVELS - 1)) * (max - min), min, max);
+}
+
+/**
+ * The packed lookup of `name` for one frame's range; level 255 is the wall. With `negate`, each
+ * level shows the colour of minus its value: the picture of a sign-odd quantity (vorticity)
+ * reflected below the axis.
+ */
+export function frameLookup(name, min, max, negate = false) {
   const { table, packed } = packedLookup(name);
-  if (!DIVERGING.has(name) || !(min < 0 && max > 0)) return packed;
+  if (!negate && !(DIVERGING.has(name) && min < 0 && max > 0)) return packed;
   const out = new Uint32Array(256);
   for (let k = 0; k < DATA_LEVELS; k++) {
-    const f = levelFraction(name, k, min, max);
-    const [r, g, b] = table[Math.round(Math.min(1, Math.max(0, f)) * (table.length - 1))];
+    const value = min + (k / (DATA_LEVELS - 1)) * (max - min);
+    const f = valueFraction(name, negate ? -value : value, min, max);
+    const [r, g, b] = table[Math.round(f * (table.length - 1))];
     out[k] = (255 << 24) | (b << 16) | (g << 8) | r;
   }
   out[WALL_LEVEL] = packed[WALL_LEVEL];

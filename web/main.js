@@ -154,19 +154,31 @@ function viewInfo(index) {
   return app.views[index] || app.views.find((v) => v.name === app.viewName) || { name: app.viewName, label: app.viewName, unit: "" };
 }
 
-/** Paint the frame's levels into the off-screen image with the chosen colour map. */
-function paintFrame() {
-  const f = app.frame;
-  if (!f) return;
-  const fc = app.frameCanvas;
-  if (fc.width !== f.width || fc.height !== f.height) { fc.width = f.width; fc.height = f.height; }
-  const ctx = fc.getContext("2d");
+/** Views whose sign flips under reflection about the axis (omega_z = dv/dx - du/dy with v -> -v). */
+const SIGN_ODD_VIEWS = new Set(["vorticity"]);
+
+function paintInto(canvas, f, lut) {
+  if (canvas.width !== f.width || canvas.height !== f.height) { canvas.width = f.width; canvas.height = f.height; }
+  const ctx = canvas.getContext("2d");
   const img = ctx.createImageData(f.width, f.height);
   const words = new Uint32Array(img.data.buffer);
-  const lut = frameLookup(app.mapName, f.min, f.max);
   const levels = f.levels;
   for (let k = 0; k < levels.length; k++) words[k] = lut[levels[k]];
   ctx.putImageData(img, 0, 0);
+}
+
+/** Paint the frame's levels into the off-screen image(s) with the chosen colour map. */
+function paintFrame() {
+  const f = app.frame;
+  if (!f) return;
+  paintInto(app.frameCanvas, f, frameLookup(app.mapName, f.min, f.max));
+  const odd = SIGN_ODD_VIEWS.has(viewInfo(f.viewIndex).name);
+  app.reflectedCanvas = null;
+  if (odd && wholeShown()) {
+    if (!app.negatedCanvas) app.negatedCanvas = document.createElement("canvas");
+    paintInto(app.negatedCanvas, f, frameLookup(app.mapName, f.min, f.max, true));
+    app.reflectedCanvas = app.negatedCanvas;
+  }
 }
 
 function scheduleDraw() {
@@ -195,7 +207,7 @@ function drawPicture() {
       ctx.save();
       ctx.translate(0, 2 * (rect.top + rect.height));
       ctx.scale(1, -1);
-      ctx.drawImage(app.frameCanvas, rect.left, rect.top, rect.width, rect.height);
+      ctx.drawImage(app.reflectedCanvas || app.frameCanvas, rect.left, rect.top, rect.width, rect.height);
       ctx.restore();
     }
   }
@@ -291,7 +303,7 @@ function setupViewControls() {
   for (const id of ["#range-min", "#range-max"]) $(id).addEventListener("change", () => holdRange());
   for (const id of ["#ov-outline", "#ov-marks"]) $(id).addEventListener("change", scheduleDraw);
   for (const id of ["#ov-sonic", "#ov-arrows"]) $(id).addEventListener("change", () => { sendView(); scheduleDraw(); });
-  $("#ov-whole").addEventListener("change", layoutCanvas);
+  $("#ov-whole").addEventListener("change", () => { layoutCanvas(); paintFrame(); });
 }
 
 function setRangeInputs() {
@@ -377,8 +389,9 @@ function setupTools() {
       });
     },
     onProbe: ([x_m, y_m]) => app.send("add_probe", { name: uniqueName("P", app.scenario && app.scenario.probes), x_m, y_m }),
-    onHover: (point) => {
+    onHover: (point, shown) => {
       app.hover = point;
+      app.hoverBelowAxis = !!(point && shown && shown[1] < 0);
       requestInspect();
     },
     onDraft: scheduleDraw,
@@ -596,7 +609,8 @@ function onMessage(msg) {
       scheduleDraw();
       break;
     case "inspect":
-      showReadout(msg);
+      // a point in the reflected half reads the gas above the axis, mirrored back
+      showReadout(app.hoverBelowAxis ? { ...msg, y_m: -msg.y_m, v_m_s: -msg.v_m_s } : msg);
       break;
     case "profile":
       app.profile = msg;
