@@ -84,6 +84,16 @@ class HostGuard:
         await self.app(scope, receive, send)
 
 
+def _threading_layer() -> str | None:
+    """numba's threading layer once a parallel kernel has run (None before)."""
+    import numba
+
+    try:
+        return numba.threading_layer()
+    except ValueError:
+        return None
+
+
 def _header(scope: Scope, name: bytes) -> str | None:
     for key, value in scope.get("headers", []):
         if key == name:
@@ -149,7 +159,7 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
         return {"status": "ok", "protocol": p.PROTOCOL_VERSION, "state": s.state.value, "time_s": s.sim.time_s,
                 "steps": s.sim.steps, "cells": s.sim.cells, "steps_per_s": r.steps_per_s,
                 "cell_updates_per_s": r.cell_updates_per_s, "clients": len(parts.hub.clients),
-                "revision": s.revision, "warnings": parts.warnings}
+                "revision": s.revision, "warnings": parts.warnings, "threading_layer": _threading_layer()}
 
     @app.get("/exports/{name}")
     async def download(name: str, request: Request) -> FileResponse:
@@ -191,7 +201,7 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
     limiter = RateLimiter(access.max_messages_per_s)
     last_rate_error = 0.0
     try:
-        await runner.call(lambda: None)  # a fresh snapshot and status for the newcomer
+        await runner.call(lambda: None, fresh_status=True)  # a fresh snapshot and status for the newcomer
         while not client.closed:
             message = await websocket.receive()
             if message["type"] == "websocket.disconnect":

@@ -101,12 +101,12 @@ class Dispatcher:
         await self._change(client, message, self.session.set_conditions, **parts)
 
     async def _control(self, client: Client, message: Any, fn: Callable) -> None:
-        await self.runner.call(fn)
+        await self.runner.call(fn, fresh_status=True)
         if self.runner.last_status is not None:
             self._reply(client, message, self.runner.last_status)
 
     async def _step(self, client: Client, message: p.Step) -> None:
-        advanced = await self.runner.call(self.session.step, message.count)
+        advanced = await self.runner.call(self.session.step, message.count, fresh_status=True)
         if advanced.divergence is not None:
             self.hub.broadcast(advanced.divergence.to_message())
         if self.runner.last_status is not None:

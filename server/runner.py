@@ -44,6 +44,7 @@ class Runner:
         self.steps_per_s = 0.0
         self.cell_updates_per_s = 0.0
         self.last_status: dict | None = None
+        self._status_key: tuple | None = None
 
     # ------------------------------------------------------------ life cycle
     def start(self) -> None:
@@ -62,10 +63,14 @@ class Runner:
                     pass
 
     # ------------------------------------------------------------ requests
-    async def call(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
-        """Run a session method in the worker thread under the lock, then publish what changed."""
+    async def call(self, fn: Callable[..., Any], *args: Any, fresh_status: bool = False, **kwargs: Any) -> Any:
+        """Run a session method in the worker thread under the lock, then publish the flow it left.
+
+        fresh_status: also compute and publish a status now (run control answers with one); other
+        changes leave it to the next periodic status, so a new shape reaches the tabs sooner.
+        """
         async with self.lock:
-            result, snap, status = await asyncio.to_thread(self._call_and_observe, fn, args, kwargs)
+            result, snap, status = await asyncio.to_thread(self._call_and_observe, fn, args, kwargs, fresh_status)
         if snap is not None:
             self.hub.publish_snapshot(snap)
         if status is not None:
@@ -78,12 +83,12 @@ class Runner:
         async with self.lock:
             return await asyncio.to_thread(fn, *args, **kwargs)
 
-    def _call_and_observe(self, fn, args, kwargs):
+    def _call_and_observe(self, fn, args, kwargs, fresh_status: bool):
         result = fn(*args, **kwargs)
         snap = self.session.snapshot() if self.hub.wants_frames else None
         if snap is not None:
             self._last_snapshot_t = time.monotonic()
-        return result, snap, self._status_now(time.monotonic())
+        return result, snap, (self._status_now(time.monotonic()) if fresh_status else None)
 
     # ------------------------------------------------------------ the run loop
     async def _run_forever(self) -> None:
@@ -127,6 +132,10 @@ class Runner:
                 continue
             if time.monotonic() - self._last_status_t < self.status_interval_s:
                 continue
+            key = (self.session.revision, self.session.flow_version, self.session.state)
+            if key == self._status_key and self.last_status is not None:
+                self.hub.publish_status(self.last_status)  # nothing changed: no need to read the flow again
+                continue
             async with self.lock:
                 status = await asyncio.to_thread(self._status_now, time.monotonic())
             self.hub.publish_status(status)
@@ -155,5 +164,6 @@ class Runner:
         if s.divergence is not None:
             status["warnings"].insert(0, "the run diverged and was paused: " + s.divergence.message)
         self._last_status_t = now
+        self._status_key = (s.revision, s.flow_version, s.state)
         self.last_status = status
         return status

@@ -1,0 +1,286 @@
+"""`shockslate bench --serve`: what streaming costs and delivers, with one client on loopback.
+
+It starts the real server (a subprocess, as a user would) on the default nozzle widened to a 2:1
+domain at 512 x 256 cells, lets the flow develop, then measures, in interleaved phases so machine
+noise hits both sides alike:
+  - solver cell updates per second with no client attached and with one client streaming,
+  - frames per second delivered to that client at 512 x 256,
+  - latency from sending a shape to the first frame that shows it (a wall disc on a gas pixel).
+Goals from the issue: 30 frames/s, latency under 150 ms, solver slowdown under 10 %.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import socket
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+import urllib.request
+from pathlib import Path
+
+from .frames import WALL_LEVEL, decode_frame
+
+FRAME_W, FRAME_H = 512, 256
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def add_serve_bench(parser: argparse.ArgumentParser) -> None:
+    """Add --serve (and its options) to the `bench` parser, wrapping whatever handler it already has."""
+    parser.add_argument("--serve", action="store_true",
+                        help="benchmark the live server: frames/s at 512x256, shape-to-frame latency, "
+                             "solver speed with and without a client")
+    parser.add_argument("--phase-seconds", type=float, default=5.0, metavar="S",
+                        help="length of each measuring phase of --serve (default 5)")
+    parser.add_argument("--latency-samples", type=int, default=8, metavar="N",
+                        help="shapes sent for the latency figure of --serve (default 8)")
+    for key in ("handler", "func"):
+        previous = parser.get_default(key)
+        if previous is not None:
+            parser.set_defaults(**{key: _either(previous)})
+            return
+    parser.set_defaults(func=_either(None))
+
+
+def _either(previous):
+    def run(args: argparse.Namespace) -> int:
+        if getattr(args, "serve", False):
+            return main(args)
+        if previous is None:
+            print("shockslate bench: use --serve", file=sys.stderr)
+            return 2
+        return previous(args)
+    return run
+
+
+def main(args: argparse.Namespace) -> int:
+    report = run_serve_bench(phase_s=args.phase_seconds, latency_samples=args.latency_samples)
+    if getattr(args, "json", False):
+        print(json.dumps(report, indent=2))
+    else:
+        print_report(report)
+    return 0
+
+
+# ----------------------------------------------------------------------------- the server under test
+
+def bench_scenario() -> dict:
+    """The default nozzle with its domain made 2:1 and 512 cells across (512 x 256)."""
+    from solver import scenario as scn
+
+    doc = scn.scenario_to_dict(scn.load_builtin(scn.DEFAULT_SCENARIO))
+    d = doc["domain"]
+    d["y_max_m"] = d["y_min_m"] + 0.5 * (d["x_max_m"] - d["x_min_m"])
+    d["nx"] = FRAME_W
+    doc["name"] = "serving benchmark"
+    return doc
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def _health(url: str) -> dict:
+    with urllib.request.urlopen(url + "/health", timeout=5) as r:
+        return json.loads(r.read())
+
+
+class ServerProcess:
+    """`shockslate serve` in a subprocess with a throw-away data folder; output to a log file."""
+
+    def __init__(self, scenario: dict):
+        self.folder = Path(tempfile.mkdtemp(prefix="shockslate-bench-"))
+        path = self.folder / "bench.json"
+        path.write_text(json.dumps(scenario))
+        self.port = _free_port()
+        self.url = f"http://127.0.0.1:{self.port}"
+        self.log_path = self.folder / "server.log"
+        env = dict(os.environ)
+        env.setdefault("NUMBA_CACHE_DIR", str(ROOT / ".numba_cache"))
+        with open(self.log_path, "wb") as log:
+            self.proc = subprocess.Popen(
+                [sys.executable, "-m", "server.cli", "serve", "--port", str(self.port), "--scenario", str(path),
+                 "--data-dir", str(self.folder / "data")],
+                cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
+
+    def wait_running(self, timeout_s: float = 180.0) -> dict:
+        deadline = time.monotonic() + timeout_s
+        while time.monotonic() < deadline:
+            if self.proc.poll() is not None:
+                raise RuntimeError(f"server exited: {self.log_path.read_text()[-2000:]}")
+            try:
+                h = _health(self.url)
+                if h["state"] == "running" and h["steps"] > 0:
+                    return h
+            except OSError:
+                pass
+            time.sleep(0.2)
+        raise RuntimeError("server did not start running in time")
+
+    def stop(self) -> None:
+        self.proc.terminate()
+        try:
+            self.proc.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            self.proc.kill()
+
+
+# ----------------------------------------------------------------------------- phases
+
+def solver_rate(url: str, seconds: float) -> float:
+    """Cell updates per second over `seconds`, from the server's own step counter."""
+    a = _health(url)
+    t0 = time.monotonic()
+    time.sleep(seconds)
+    b = _health(url)
+    wall = time.monotonic() - t0
+    return (b["steps"] - a["steps"]) * b["cells"] / wall
+
+
+def _connect(url: str):
+    from websockets.sync.client import connect
+
+    sock = connect(url.replace("http://", "ws://") + "/ws", max_size=None, open_timeout=30)
+    hello = json.loads(sock.recv(timeout=30))
+    sock.send(json.dumps({"type": "set_view", "view": "mach", "width": FRAME_W, "height": FRAME_H,
+                          "range": "auto", "overlays": ["sonic_line"]}))
+    return sock, hello
+
+
+def streaming_phase(url: str, seconds: float) -> tuple[float, float, tuple[int, int]]:
+    """(frames per second received, solver cell updates per second) while one client streams."""
+    sock, _ = _connect(url)
+    try:
+        size = (0, 0)
+        deadline = time.monotonic() + 10.0
+        while time.monotonic() < deadline:  # first frame at the asked size
+            msg = sock.recv(timeout=10)
+            if isinstance(msg, bytes):
+                header, _ = decode_frame(msg)
+                size = (header.width, header.height)
+                if size == (FRAME_W, FRAME_H):
+                    break
+        a = _health(url)
+        t0 = time.monotonic()
+        frames = 0
+        while (now := time.monotonic()) - t0 < seconds:
+            try:
+                msg = sock.recv(timeout=max(0.01, seconds - (now - t0)))
+            except TimeoutError:
+                break
+            if isinstance(msg, bytes):
+                frames += 1
+        wall = time.monotonic() - t0
+        b = _health(url)
+        return frames / wall, (b["steps"] - a["steps"]) * b["cells"] / wall, size
+    finally:
+        sock.close()
+
+
+def latency_phase(url: str, scenario: dict, samples: int) -> list[float]:
+    """Seconds from sending a wall disc to the first frame whose pixel under it shows wall."""
+    sock, _ = _connect(url)
+    d = scenario["domain"]
+    width_m = d["x_max_m"] - d["x_min_m"]
+    dx = width_m / d["nx"]
+    height_m = d["y_max_m"] - d["y_min_m"]
+    out = []
+    try:
+        frame = None
+        while frame is None:
+            msg = sock.recv(timeout=10)
+            if isinstance(msg, bytes):
+                header, pixels = decode_frame(msg)
+                if (header.width, header.height) == (FRAME_W, FRAME_H):
+                    frame = pixels
+        for k in range(samples):
+            # Spots along the plume, right of the nozzle, in the lower third of the picture.
+            x = d["x_min_m"] + width_m * (0.55 + 0.4 * k / max(samples - 1, 1))
+            y = d["y_min_m"] + height_m * 0.15
+            col = min(int((x - d["x_min_m"]) / width_m * FRAME_W), FRAME_W - 1)
+            row = FRAME_H - 1 - min(int((y - d["y_min_m"]) / height_m * FRAME_H), FRAME_H - 1)
+            cx = d["x_min_m"] + (col + 0.5) * width_m / FRAME_W
+            cy = d["y_min_m"] + (FRAME_H - 1 - row + 0.5) * height_m / FRAME_H
+            if frame[row, col] == WALL_LEVEL:
+                continue
+            shape = {"kind": "circle", "centre_m": [cx, cy], "radius_m": 2.5 * dx, "paints": "wall"}
+            t0 = time.perf_counter()
+            sock.send(json.dumps({"type": "add_shape", "shape": shape}))
+            while True:
+                msg = sock.recv(timeout=10)
+                if isinstance(msg, bytes):
+                    header, frame = decode_frame(msg)
+                    if (header.width, header.height) == (FRAME_W, FRAME_H) and frame[row, col] == WALL_LEVEL:
+                        out.append(time.perf_counter() - t0)
+                        break
+            time.sleep(0.2)
+        for _ in out:
+            sock.send(json.dumps({"type": "undo"}))
+    finally:
+        sock.close()
+    return out
+
+
+def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: float = 3.0) -> dict:
+    scenario = bench_scenario()
+    server = ServerProcess(scenario)
+    try:
+        start = time.monotonic()
+        first = server.wait_running()
+        start_s = time.monotonic() - start
+        time.sleep(develop_s)  # a developed flow, not the initial condition
+        alone, streaming, fps = [], [], []
+        size = (0, 0)
+        for _ in range(2):  # interleaved: without, with, without, with
+            alone.append(solver_rate(server.url, phase_s))
+            f, rate, size = streaming_phase(server.url, phase_s)
+            fps.append(f)
+            streaming.append(rate)
+            time.sleep(1.0)  # let the server notice the client left
+        latencies = latency_phase(server.url, scenario, latency_samples)
+        health = _health(server.url)
+    finally:
+        server.stop()
+    mean_alone, mean_streaming = statistics.mean(alone), statistics.mean(streaming)
+    return {
+        "grid": [scenario["domain"]["nx"], first["cells"] // scenario["domain"]["nx"]],
+        "frame_size": list(size),
+        "start_to_running_s": start_s,
+        "frames_per_s": statistics.mean(fps),
+        "frames_per_s_phases": fps,
+        "latency_ms_median": 1e3 * statistics.median(latencies) if latencies else None,
+        "latency_ms_max": 1e3 * max(latencies) if latencies else None,
+        "latency_samples": len(latencies),
+        "cell_updates_per_s_without_client": mean_alone,
+        "cell_updates_per_s_with_client": mean_streaming,
+        "phases_without_client": alone,
+        "phases_with_client": streaming,
+        "solver_slowdown_percent": 100.0 * (1.0 - mean_streaming / mean_alone) if mean_alone > 0 else None,
+        "numba_threading_layer": health.get("threading_layer"),
+        "cpu_count": os.cpu_count(),
+        "load_average_1min": os.getloadavg()[0],
+        "goals": {"frames_per_s": 30, "latency_ms": 150, "slowdown_percent": 10},
+    }
+
+
+def print_report(r: dict) -> None:
+    print(f"serving benchmark: grid {r['grid'][0]}x{r['grid'][1]}, frames {r['frame_size'][0]}x{r['frame_size'][1]}, "
+          f"one loopback client; {r['cpu_count']} CPUs, load average {r['load_average_1min']:.2f}, "
+          f"numba threading layer {r['numba_threading_layer']}")
+    print(f"  frames delivered        {r['frames_per_s']:6.1f} /s      (goal 30; phases "
+          + ", ".join(f"{f:.1f}" for f in r["frames_per_s_phases"]) + ")")
+    if r["latency_ms_median"] is not None:
+        print(f"  shape -> frame latency  {r['latency_ms_median']:6.0f} ms median, {r['latency_ms_max']:.0f} ms max "
+              f"over {r['latency_samples']} shapes (goal < 150 ms)")
+    print(f"  solver, no client       {r['cell_updates_per_s_without_client'] / 1e6:6.2f} M cell updates/s (phases "
+          + ", ".join(f"{v / 1e6:.2f}" for v in r["phases_without_client"]) + ")")
+    print(f"  solver, one client      {r['cell_updates_per_s_with_client'] / 1e6:6.2f} M cell updates/s (phases "
+          + ", ".join(f"{v / 1e6:.2f}" for v in r["phases_with_client"]) + ")")
+    if r["solver_slowdown_percent"] is not None:
+        print(f"  slowdown from streaming {r['solver_slowdown_percent']:6.1f} %        (goal < 10 %)")
+    print(f"  start to running        {r['start_to_running_s']:6.1f} s")

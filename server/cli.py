@@ -1,0 +1,122 @@
+"""The `shockslate` console command: `serve`, plus `bench` and the batch commands where they are installed.
+
+    shockslate serve [--host 127.0.0.1] [--port 8765] [--scenario NAME_OR_PATH] [--open]
+    shockslate bench [--serve]        (solver/benchmark.py; --serve: server/bench_serve.py)
+    shockslate run | scenarios | check (solver/batch_cli.py)
+
+Sub-commands set `func` (or `handler`) to a function of the parsed arguments returning the exit code.
+"""
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from pathlib import Path
+from types import ModuleType
+
+from . import bench_serve
+from .protocol import MAX_MESSAGE_BYTES
+from .security import DEFAULT_HOST, DEFAULT_PORT, Access
+
+EXIT_OK, EXIT_BAD_INPUT = 0, 2
+#: uvicorn closes a connection (code 1009) above this size; below it, oversized messages get an error reply.
+WS_MAX_BYTES = 4 * MAX_MESSAGE_BYTES
+
+
+def optional_module(name: str) -> ModuleType | None:
+    """Import a sub-command module that another part of the project may not have yet.
+
+    Only the module itself being absent is tolerated; an import error inside it is a bug and is raised.
+    """
+    try:
+        return importlib.import_module(name)
+    except ModuleNotFoundError as err:
+        if err.name == name:
+            return None
+        raise
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="shockslate",
+        description="Local browser sandbox for 2D planar and axisymmetric compressible flow.")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    add_serve_command(sub)
+    benchmark = optional_module("solver.benchmark")
+    if benchmark is not None:
+        bench = benchmark.add_bench_command(sub)
+    else:
+        bench = sub.add_parser("bench", help="measure the live server (the solver benchmark is not installed)")
+        bench.set_defaults(func=lambda args: _no_solver_bench())
+    bench_serve.add_serve_bench(bench)
+    batch = optional_module("solver.batch_cli")
+    if batch is not None:
+        batch.add_batch_commands(sub)
+    return parser
+
+
+def _no_solver_bench() -> int:
+    print("shockslate bench: the solver benchmark is not installed here; use `shockslate bench --serve`",
+          file=sys.stderr)
+    return EXIT_BAD_INPUT
+
+
+def add_serve_command(sub) -> argparse.ArgumentParser:
+    p = sub.add_parser("serve", help="start the live sandbox and print its address",
+                       description="Serve the page and the live simulation. Binds 127.0.0.1 unless told otherwise; "
+                                   "on any other address a random token is required (it is in the printed URL).")
+    p.add_argument("--host", default=DEFAULT_HOST, help=f"address to bind (default {DEFAULT_HOST})")
+    p.add_argument("--port", type=int, default=DEFAULT_PORT, help=f"TCP port (default {DEFAULT_PORT})")
+    p.add_argument("--scenario", metavar="NAME_OR_PATH",
+                   help="start on this scenario: a built-in or saved name, or a scenario JSON file "
+                        "(default: the scenario of the last session, else the built-in default)")
+    p.add_argument("--open", action="store_true", help="open the page in the default browser")
+    p.add_argument("--data-dir", type=Path, metavar="DIR",
+                   help="user data folder (default $SHOCKSLATE_DATA_DIR or ~/.local/share/shockslate)")
+    p.add_argument("--paused", action="store_true", help="start paused instead of running")
+    p.set_defaults(func=serve)
+    return p
+
+
+def serve(args: argparse.Namespace) -> int:
+    import uvicorn
+
+    from solver.scenario import ScenarioError
+
+    from .app import ServerConfig, create_app
+    from .errors import RequestError
+    from .persistence import ScenarioStore, scenario_from_argument
+
+    if not (0 < args.port < 65536):
+        print(f"shockslate serve: --port = {args.port} is not allowed: 1 to 65535", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    store = ScenarioStore(args.data_dir)
+    scenario = None
+    if args.scenario:
+        try:
+            scenario = scenario_from_argument(args.scenario, store)
+        except (ScenarioError, RequestError) as err:
+            print(f"shockslate serve: --scenario: {err}", file=sys.stderr)
+            return EXIT_BAD_INPUT
+    access = Access.for_bind(args.host, args.port)
+    config = ServerConfig(access=access, data_dir=store.data_dir, scenario=scenario,
+                          start_running=not args.paused, open_browser=args.open)
+    app = create_app(config)
+    print(f"shockslate: open {access.url()}", flush=True)
+    print(f"shockslate: scenarios are kept in {store.data_dir}", flush=True)
+    if access.token:
+        print("shockslate: bound off loopback; the token in that address is required to connect. "
+              "Anyone with it can steer the simulation.", flush=True)
+    uvicorn.Server(uvicorn.Config(app, host=args.host, port=args.port, ws_max_size=WS_MAX_BYTES,
+                                  log_level="warning", lifespan="on")).run()
+    return EXIT_OK
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    command = getattr(args, "func", None) or getattr(args, "handler", None)
+    return int(command(args) or 0)
+
+
+if __name__ == "__main__":
+    sys.exit(main())
