@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from fastapi import FastAPI, HTTPException, Request, WebSocket
+from fastapi import FastAPI, HTTPException, Request, WebSocket, WebSocketDisconnect
 from fastapi.responses import FileResponse, JSONResponse
 from starlette.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Receive, Scope, Send
@@ -271,6 +271,9 @@ async def _run_sender(hub: Hub, client) -> None:
         await hub.sender(client)
     except asyncio.CancelledError:
         raise
-    except Exception as err:  # the socket went away mid-send: the reader will see the disconnect
-        log.debug("sender of %s stopped: %s", client.id, err)
+    except WebSocketDisconnect:
+        client.closed = True  # the tab went away mid-send: the reader sees the disconnect too
+    except Exception:
+        if not client.closed:
+            log.warning("sender of %s stopped", client.id, exc_info=True)
         client.closed = True

@@ -121,3 +121,73 @@ def test_velocity_arrows_sample_gas_cells_only():
     assert len(arrows) > 0
     assert arrows[:, 0].min() > 0.32  # none in the wall half (x < 0.32 m)
     assert np.all(arrows[:, 2] == 100.0) and np.all(arrows[:, 3] == 0.0)
+
+
+# ----------------------------------------------------------------------------- delivery (server/hub.py)
+
+def _snapshot(version: int):
+    from server.session import FlowSnapshot
+    from solver.domain import Domain
+    from solver.gas import AIR
+
+    dom = Domain(0.0, 0.4, 0.0, 0.1, 16)
+    shape = dom.shape
+    return FlowSnapshot(version, version * 1e-3, version, np.full(shape, 1.2), np.full(shape, 50.0 * version),
+                        np.zeros(shape), np.full(shape, 1e5), np.zeros(shape, np.uint8), AIR, dom)
+
+
+class _Socket:
+    """Stands in for a websocket; a stuck one blocks in send until released."""
+
+    def __init__(self, stuck: bool = False):
+        import asyncio
+
+        self.frames: list[int] = []
+        self.texts: list[str] = []
+        self.gate = asyncio.Event()
+        if not stuck:
+            self.gate.set()
+
+    async def send_bytes(self, data: bytes) -> None:
+        await self.gate.wait()
+        self.frames.append(frames.decode_frame(data)[0].step)
+
+    async def send_text(self, text: str) -> None:
+        await self.gate.wait()
+        self.texts.append(text)
+
+
+def test_a_stuck_tab_does_not_hold_up_another_and_then_gets_only_the_newest_frame():
+    import asyncio
+
+    from server.hub import Hub, ViewChoice
+
+    async def until(condition) -> None:
+        for _ in range(500):  # a bound on waiting, not a timing check
+            if condition():
+                return
+            await asyncio.sleep(0.01)
+        raise AssertionError("condition never became true")
+
+    async def scenario() -> tuple[list[int], list[int]]:
+        hub = Hub(max_frames_per_s=1000.0)
+        fast, slow = _Socket(), _Socket(stuck=True)
+        a, b = hub.new_client(fast), hub.new_client(slow)
+        for c in (a, b):
+            c.view = ViewChoice("speed", 64, 64, None, ())
+        tasks = [asyncio.create_task(hub.sender(c)) for c in (a, b)]
+        hub.publish_snapshot(_snapshot(1))
+        await until(lambda: fast.frames == [1])
+        for version in (2, 3, 4):  # the stuck tab is still inside its first send
+            hub.publish_snapshot(_snapshot(version))
+            await until(lambda: fast.frames[-1] == version)
+        slow.gate.set()
+        await until(lambda: len(slow.frames) >= 2)
+        for c in (a, b):
+            hub.remove(c)
+        await asyncio.gather(*tasks, return_exceptions=True)
+        return fast.frames, slow.frames
+
+    fast_frames, slow_frames = asyncio.run(scenario())
+    assert fast_frames == [1, 2, 3, 4]
+    assert slow_frames == [1, 4]  # 2 and 3 were skipped: only the newest is ever sent
