@@ -31,7 +31,7 @@ from .hub import Hub
 from .persistence import ScenarioStore
 from .runner import Runner
 from .security import Access, RateLimiter
-from .session import RUNNING, Session, warm_kernels
+from .session import Session, warm_kernels
 
 log = logging.getLogger("shockslate")
 
