@@ -170,8 +170,10 @@ def load_through_upload(page, doc: dict, tmp_path: Path) -> None:
     """Load a scenario document the way a user does: the upload button of the page."""
     path = tmp_path / "upload.json"
     path.write_text(json.dumps(doc))
+    revision = page.evaluate("window.shockslate.revision")
     page.set_input_files("#upload-scenario", str(path))
-    page.wait_for_function("name => window.shockslate.scenario.name === name", arg=doc["name"], timeout=WAIT_MS)
+    page.wait_for_function("([name, rev]) => window.shockslate.revision !== rev && window.shockslate.scenario.name === name",
+                           arg=[doc["name"], revision], timeout=WAIT_MS)
 
 
 def pause(page) -> None:
@@ -338,8 +340,9 @@ def test_save_then_load_gives_the_same_scenario(page, tmp_path):
     wait_shapes(page, 0)
     assert page.evaluate("window.shockslate.scenario") != before
 
+    revision = page.evaluate("window.shockslate.revision")
     page.set_input_files("#upload-scenario", str(saved))
-    wait_shapes(page, len(before["sketch"]["shapes"]))
+    page.wait_for_function("rev => window.shockslate.revision !== rev", arg=revision, timeout=WAIT_MS)
     assert page.evaluate("window.shockslate.scenario") == before
 
     # the same through the server's folder: keep it under a name, then pick it from the list
@@ -348,9 +351,10 @@ def test_save_then_load_gives_the_same_scenario(page, tmp_path):
     page.wait_for_selector("#scenario-pick option[value='page test kept']", state="attached", timeout=WAIT_MS)
     page.click("#clear-sketch")
     wait_shapes(page, 0)
+    revision = page.evaluate("window.shockslate.revision")
     page.select_option("#scenario-pick", "page test kept")
     page.click("#scenario-load")
-    wait_shapes(page, len(before["sketch"]["shapes"]))
+    page.wait_for_function("rev => window.shockslate.revision !== rev", arg=revision, timeout=WAIT_MS)
     after = page.evaluate("window.shockslate.scenario")
     assert {k: v for k, v in after.items() if k != "name"} == {k: v for k, v in before.items() if k != "name"}
 

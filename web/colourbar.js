@@ -4,14 +4,17 @@
 import { cssAt, levelFraction, DATA_LEVELS } from "./colourmaps.js";
 import { num } from "./units.js";
 
-/** Round tick values covering [lo, hi], about `count` of them (1, 2, 5 times a power of ten). */
+/** Round tick values covering [lo, hi], about `count` of them (1, 2, 2.5, 5 times a power of ten). */
 export function niceTicks(lo, hi, count = 6) {
   if (!(hi > lo) || !Number.isFinite(lo) || !Number.isFinite(hi)) return [lo];
-  const raw = (hi - lo) / count;
+  const raw = (hi - lo) / Math.max(1, count);
   const power = Math.pow(10, Math.floor(Math.log10(raw)));
   const step = [1, 2, 2.5, 5, 10].map((m) => m * power).find((s) => s >= raw) || 10 * power;
+  const first = Math.ceil(lo / step), last = Math.floor(hi / step);
+  // a span too small for the numbers' precision gives no usable steps: show the ends
+  if (!(step > 0) || !(Math.max(Math.abs(first), Math.abs(last)) < 1e12) || last - first > 50 || last < first) return [lo, hi];
   const ticks = [];
-  for (let t = Math.ceil(lo / step) * step; t <= hi + step * 1e-9; t += step) ticks.push(Math.abs(t) < step * 1e-9 ? 0 : t);
+  for (let n = first; n <= last; n++) ticks.push(n === 0 ? 0 : n * step);
   return ticks;
 }
 

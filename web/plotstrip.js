@@ -37,7 +37,8 @@ export function drawPlot(canvas, series, axes, emptyText = "nothing to plot yet"
     return;
   }
   if (xmax === xmin) { xmin -= 0.5; xmax += 0.5; }
-  if (ymax === ymin) { const d = Math.abs(ymin) * 0.05 || 0.5; ymin -= d; ymax += d; }
+  // a flat line (or one flat to round-off) gets a visible band around it
+  if (ymax - ymin <= 1e-9 * Math.max(Math.abs(ymin), Math.abs(ymax))) { const d = Math.abs(ymin) * 0.05 || 0.5; ymin -= d; ymax += d; }
   const padY = 0.05 * (ymax - ymin);
   ymin -= padY; ymax += padY;
   const X = (x) => left + ((x - xmin) / (xmax - xmin)) * pw;
