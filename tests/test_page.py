@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import json
 import os
-import re
 import shutil
 import socket
 import subprocess
@@ -50,17 +49,9 @@ def _free_port() -> int:
         return s.getsockname()[1]
 
 
-def _app_target() -> list[str]:
-    """uvicorn's target: the module-level app when server/app.py has one, else its factory."""
-    source = (ROOT / "server" / "app.py").read_text(encoding="utf-8")
-    if re.search(r"^app\s*[:=]", source, re.M):
-        return ["server.app:app"]
-    return ["--factory", "server.app:create_app"]
-
-
 @pytest.fixture(scope="module")
 def server_url(tmp_path_factory):
-    """The real server on a free loopback port, its data folder fresh, its output in a log file."""
+    """`shockslate serve` on a free loopback port, its data folder fresh, its output in a log file."""
     port = _free_port()
     data_dir = tmp_path_factory.mktemp("shockslate-data")
     log_path = tmp_path_factory.mktemp("server-log") / "server.log"
@@ -69,7 +60,8 @@ def server_url(tmp_path_factory):
     env.setdefault("NUMBA_CACHE_DIR", str(ROOT / ".numba_cache"))
     with open(log_path, "wb") as log:
         proc = subprocess.Popen(
-            [sys.executable, "-m", "uvicorn", *_app_target(), "--host", "127.0.0.1", "--port", str(port)],
+            [sys.executable, "-m", "server.cli", "serve", "--host", "127.0.0.1", "--port", str(port),
+             "--data-dir", str(data_dir)],
             cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
     url = f"http://127.0.0.1:{port}"
     deadline = time.monotonic() + 120  # first start may compile the numba kernels

@@ -27,6 +27,13 @@ export function showClock(status, tabFps) {
   $("#fig-cells").textContent = U.rate(status.cell_updates_per_s || 0, "");
   $("#fig-frames").textContent = `${U.num(tabFps, 3)} (server ${U.num(status.frames_per_s || 0, 3)})`;
   $("#fig-maxmach").textContent = U.num(status.max_mach, 3);
+  if (status.dt_s != null) $("#fig-dt").textContent = U.simTime(status.dt_s);
+  if (status.nx != null) $("#fig-grid").textContent = `${status.nx} × ${status.ny}`;
+  if (status.undo_depth != null) {
+    $("#undo").disabled = status.undo_depth === 0;
+    $("#redo").disabled = status.redo_depth === 0;
+    $("#undo").title = `undo (Ctrl+Z): ${status.undo_depth} change${status.undo_depth === 1 ? "" : "s"} to undo`;
+  }
 }
 
 /** A table cell with the simulated figure and, under it, the 1D ideal one. */
@@ -101,7 +108,7 @@ export function showReadout(reply) {
     ["ρ", U.density(reply.rho_kg_m3)],
     ["u", U.speed(reply.u_m_s)],
     ["v", U.speed(reply.v_m_s)],
-    ["speed", U.speed(Math.hypot(reply.u_m_s, reply.v_m_s))],
+    ["speed", reply.u_m_s == null ? "–" : U.speed(Math.hypot(reply.u_m_s, reply.v_m_s))],
     ["Mach", U.num(reply.mach, 3)],
   ];
   dl.replaceChildren(
@@ -169,11 +176,12 @@ export class Histories {
       if (!this.byName.has(pr.name)) this.byName.set(pr.name, { t: [], p_pa: [], t_k: [], rho_kg_m3: [], mach: [], speed: [] });
       const h = this.byName.get(pr.name);
       h.t.push(status.time_s);
-      h.p_pa.push(pr.p_pa);
-      h.t_k.push(pr.t_k);
-      h.rho_kg_m3.push(pr.rho_kg_m3);
-      h.mach.push(pr.mach);
-      h.speed.push(Math.hypot(pr.u_m_s, pr.v_m_s));
+      const val = (v) => (v == null ? NaN : v);
+      h.p_pa.push(val(pr.p_pa));
+      h.t_k.push(val(pr.t_k));
+      h.rho_kg_m3.push(val(pr.rho_kg_m3));
+      h.mach.push(val(pr.mach));
+      h.speed.push(pr.u_m_s == null ? NaN : Math.hypot(pr.u_m_s, pr.v_m_s));
       if (h.t.length > this.limit) for (const k in h) h[k].splice(0, h[k].length - this.limit);
     }
   }

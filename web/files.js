@@ -97,5 +97,5 @@ export function showScenarioList(msg) {
 /** Follow an `export_ready` message: fetch the file the server made. */
 export function fetchExport(msg) {
   const ext = { npz: "npz", csv: "csv", scenario: "json" }[msg.what] || "";
-  download(withToken(msg.url), ext ? `shockslate-${msg.what}.${ext}` : undefined);
+  download(withToken(msg.url), msg.filename || (ext ? `shockslate-${msg.what}.${ext}` : undefined));
 }

@@ -52,33 +52,42 @@ export function displayUnit(siUnit) {
   }
 }
 
-/** "123.4 kPa" for a value in Pa. */
+const missing = (v) => v === null || v === undefined || Number.isNaN(v);
+
+/** "123.4 kPa" for a value in Pa ("–" when there is no value, e.g. on a wall). */
 export function pressure(pa, digits = 4) {
+  if (missing(pa)) return "–";
   return `${num(pa / PRESSURE_UNITS[pressureUnit], digits)} ${pressureUnit}`;
 }
 
 export function temperature(k) {
+  if (missing(k)) return "–";
   return `${num(k, 4)} K`;
 }
 
 export function density(kgm3) {
+  if (missing(kgm3)) return "–";
   return `${num(kgm3, 4)} kg/m³`;
 }
 
 export function speed(ms) {
+  if (missing(ms)) return "–";
   return `${num(ms, 4)} m/s`;
 }
 
 export function mach(m) {
+  if (missing(m)) return "–";
   return `M ${num(m, 3)}`;
 }
 
 /** Lengths in mm (the unit of drawing on this scale). */
 export function length(m, digits = 4) {
+  if (missing(m)) return "–";
   return `${num(m * 1e3, digits)} mm`;
 }
 
 export function area(m2) {
+  if (missing(m2)) return "–";
   return `${num(m2 * 1e6, 4)} mm²`;
 }
 
@@ -90,10 +99,12 @@ export function simTime(s) {
 }
 
 export function massFlow(kgs) {
+  if (missing(kgs)) return "–";
   return `${num(kgs, 4)} kg/s`;
 }
 
 export function force(n) {
+  if (missing(n)) return "–";
   if (Math.abs(n) >= 1e4) return `${num(n / 1e3, 4)} kN`;
   return `${num(n, 4)} N`;
 }
@@ -107,6 +118,7 @@ export function rate(x, unit) {
 
 /** A view value in its display unit, with the unit. */
 export function viewValue(si, siUnit) {
+  if (missing(si)) return "–";
   const { unit, scale } = displayUnit(siUnit);
   return unit ? `${num(si / scale, 4)} ${unit}` : num(si / scale, 4);
 }
