@@ -483,3 +483,29 @@ def test_station_and_probe_tools_add_marks(page, tmp_path):
     # the station's distribution comes back for the plot strip
     page.select_option("#plot-source", "station:S1")
     page.wait_for_function("window.shockslate.profile && window.shockslate.profile.station === 'S1'", timeout=WAIT_MS)
+
+
+def test_exports_download_picture_fields_and_station_csv(page, tmp_path):
+    """The three exports arrive as files of their kind: a PNG of the picture, the fields .npz with the
+    documented arrays on the cell grid, and the station CSV with the documented columns."""
+    import numpy as np
+
+    load_through_upload(page, fed_channel(), tmp_path)
+    pause(page)
+    step(page, 20)
+    files = {}
+    for button in ("#export-png", "#export-npz", "#export-csv"):
+        with page.expect_download(timeout=WAIT_MS) as info:
+            page.click(button)
+        path = tmp_path / info.value.suggested_filename
+        info.value.save_as(str(path))
+        files[button] = path
+    png = files["#export-png"].read_bytes()
+    assert png[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature, ISO/IEC 15948 sec. 5.2
+    width = int.from_bytes(png[16:20], "big")
+    assert width == page.evaluate("document.querySelector('#view').width")
+    with np.load(files["#export-npz"]) as fields:
+        assert fields["p_pa"].shape == (16, 64)  # (ny, nx) of the fed channel
+        assert float(fields["p_pa"].max()) == pytest.approx(3.0e5, rel=0.01)  # the reservoir holds p0
+    header = files["#export-csv"].read_text().splitlines()[0]
+    assert header.split(",")[:4] == ["station", "s_m", "x_m", "y_m"] and "mach" in header

@@ -88,6 +88,7 @@ export function length(m, digits = 4) {
 
 export function area(m2) {
   if (missing(m2)) return "–";
+  if (Math.abs(m2) >= 1e-2) return `${num(m2, 4)} m²`;
   return `${num(m2 * 1e6, 4)} mm²`;
 }
 
