@@ -29,7 +29,7 @@ def hello_message(client: Client, runner: Runner) -> dict:
             "views": [{"name": n, "label": label, "unit": unit} for n, (label, unit) in VIEWS.items()],
             "scenario": scn.scenario_to_dict(s.scenario), "state": s.state.value, "revision": s.revision,
             "limits": {"max_message_bytes": p.MAX_MESSAGE_BYTES, "max_messages_per_s": p.MAX_MESSAGES_PER_S,
-                       "max_frames_per_s": 1.0 / runner.hub.frame_interval_s},
+                       "max_frames_per_s": runner.hub.max_frames_per_s},
             "view": {"view": client.view.view, "width": client.view.width, "height": client.view.height,
                      "range": "auto" if client.view.fixed_range is None else list(client.view.fixed_range)}}
 

@@ -26,6 +26,8 @@ from .session import FlowSnapshot
 log = logging.getLogger("shockslate.hub")
 
 MAX_FRAMES_PER_S = 30.0
+#: Frames a tab may receive back to back after a late one (token bucket); the average stays at most 30/s.
+FRAME_BURST = 2.0
 OVERLAYS_PER_S = 4.0
 #: A client whose replies pile up beyond this is not reading; it is disconnected.
 MAX_QUEUED_MESSAGES = 2000
@@ -52,7 +54,8 @@ class Client:
     status: dict | None = None
     wake: asyncio.Event = field(default_factory=asyncio.Event)
     last_frame_key: tuple | None = None
-    last_frame_t: float = 0.0
+    frame_tokens: float = FRAME_BURST
+    frame_tokens_t: float = 0.0
     last_overlay_key: tuple | None = None
     last_overlay_t: float = 0.0
     frame_times: collections.deque = field(default_factory=lambda: collections.deque(maxlen=64))
@@ -79,7 +82,7 @@ class Hub:
     def __init__(self, max_frames_per_s: float = MAX_FRAMES_PER_S):
         self.clients: dict[str, Client] = {}
         self.snapshot: FlowSnapshot | None = None
-        self.frame_interval_s = 1.0 / max_frames_per_s
+        self.max_frames_per_s = max_frames_per_s
         self._ids = itertools.count(1)
         self._cache: dict[tuple, asyncio.Future] = {}
         self._cache_version = -1
@@ -194,15 +197,17 @@ class Hub:
         wait_s = None
         if key != client.last_frame_key:
             now = time.monotonic()
-            due_in = client.last_frame_t + self.frame_interval_s - now
-            if due_in > 0.001:
-                wait_s = due_in
+            client.frame_tokens = min(FRAME_BURST, client.frame_tokens
+                                      + (now - client.frame_tokens_t) * self.max_frames_per_s)
+            client.frame_tokens_t = now
+            if client.frame_tokens < 1.0:
+                wait_s = (1.0 - client.frame_tokens) / self.max_frames_per_s
             else:
+                client.frame_tokens -= 1.0
                 data = await self.frame(snap, view)
                 await client.websocket.send_bytes(data)
                 client.last_frame_key = key
-                client.last_frame_t = time.monotonic()
-                client.frame_times.append(client.last_frame_t)
+                client.frame_times.append(time.monotonic())
                 client.frames_sent += 1
         if view.overlays:
             okey = (snap.version, view.overlays)

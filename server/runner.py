@@ -21,6 +21,8 @@ log = logging.getLogger("shockslate.runner")
 
 BURST_S = 0.02
 STATUS_INTERVAL_S = 0.25
+#: Snapshots run on a fixed schedule a little faster than the 30 frames/s a tab may take, so that a
+#: burst overrunning its deadline by part of a step does not lower the rate the tabs see.
 SNAPSHOT_INTERVAL_S = 1.0 / 32.0
 
 
@@ -36,7 +38,7 @@ class Runner:
         self._kick = asyncio.Event()
         self._task: asyncio.Task | None = None
         self._ticker: asyncio.Task | None = None
-        self._last_snapshot_t = 0.0
+        self._next_snapshot_t = 0.0
         self._last_status_t = 0.0
         self._rate_t = time.monotonic()
         self._rate_steps = session.sim.steps
@@ -86,8 +88,6 @@ class Runner:
     def _call_and_observe(self, fn, args, kwargs, fresh_status: bool):
         result = fn(*args, **kwargs)
         snap = self.session.snapshot() if self.hub.wants_frames else None
-        if snap is not None:
-            self._last_snapshot_t = time.monotonic()
         return result, snap, (self._status_now(time.monotonic()) if fresh_status else None)
 
     # ------------------------------------------------------------ the run loop
@@ -111,14 +111,16 @@ class Runner:
         now = time.monotonic()
         budget = self.burst_s
         if self.hub.wants_frames:
-            budget = min(budget, max(self._last_snapshot_t + self.snapshot_interval_s - now, 0.0))
+            budget = min(budget, max(self._next_snapshot_t - now, 0.0))
         advanced = self.session.advance(budget)
         now = time.monotonic()
         snap = None
-        if self.hub.wants_frames and (now - self._last_snapshot_t >= self.snapshot_interval_s
-                                      or advanced.divergence is not None):
+        if self.hub.wants_frames and (now >= self._next_snapshot_t or advanced.divergence is not None):
             snap = self.session.snapshot()
-            self._last_snapshot_t = now
+            late = now - self._next_snapshot_t
+            # Keep the schedule (so overruns average out) unless a whole interval behind.
+            self._next_snapshot_t = (self._next_snapshot_t if late < self.snapshot_interval_s else now) \
+                + self.snapshot_interval_s
         status = None
         if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
             status = self._status_now(now)
