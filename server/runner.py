@@ -97,8 +97,13 @@ class Runner:
                 self._kick.clear()
                 await self._kick.wait()
                 continue
-            async with self.lock:
-                advanced, snap, status = await asyncio.to_thread(self._burst)
+            try:
+                async with self.lock:
+                    advanced, snap, status = await asyncio.to_thread(self._burst)
+            except Exception as err:  # a bug, not a divergence: stop the run, keep the server, say so
+                log.exception("the run stopped on an unexpected error")
+                await self._stop_after_failure(err)
+                continue
             if snap is not None:
                 self.hub.publish_snapshot(snap)
             if advanced.divergence is not None:
@@ -106,6 +111,16 @@ class Runner:
             if status is not None:
                 self.hub.publish_status(status)
             await asyncio.sleep(0)
+
+    async def _stop_after_failure(self, err: Exception) -> None:
+        async with self.lock:
+            if self.session.running:
+                self.session.pause()
+        self.hub.broadcast({"type": "error", "request": "run", "field": "server", "value": None,
+                            "allowed": "a run the server can carry out",
+                            "message": f"the run stopped on an internal error and was paused: "
+                                       f"{type(err).__name__}: {err}"})
+        self._status_key = None  # the ticker sends a fresh status now that the run is paused
 
     def _burst(self) -> tuple[Advanced, Any, dict | None]:
         now = time.monotonic()
@@ -138,8 +153,12 @@ class Runner:
             if key == self._status_key and self.last_status is not None:
                 self.hub.publish_status(self.last_status)  # nothing changed: no need to read the flow again
                 continue
-            async with self.lock:
-                status = await asyncio.to_thread(self._status_now, time.monotonic())
+            try:
+                async with self.lock:
+                    status = await asyncio.to_thread(self._status_now, time.monotonic())
+            except Exception:
+                log.exception("status could not be computed")
+                continue
             self.hub.publish_status(status)
 
     # ------------------------------------------------------------ status

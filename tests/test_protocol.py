@@ -433,3 +433,22 @@ def test_off_loopback_export_urls_carry_the_token(tmp_path):
             assert ready["url"].endswith(f"?token={access.token}")
             assert client.get(ready["url"]).status_code == 200
             assert client.get(ready["url"].split("?")[0]).status_code == 403
+
+
+def test_an_unexpected_solver_error_pauses_the_run_and_keeps_the_server(server, ws):
+    session = server.app.state.parts.session
+
+    def broken(max_wall_s, max_steps=100_000):
+        raise RuntimeError("simulated bug in a burst")
+
+    session.advance = broken  # instance attribute: only this server's session
+    ws.send_json({"type": "run"})
+    err = receive(ws, "error")
+    assert err["request"] == "run" and "simulated bug" in err["message"]
+    for _ in range(MAX_READS):
+        if receive(ws, "status")["state"] == "paused":
+            break
+    else:
+        raise AssertionError("the run was not paused")
+    del session.advance
+    still_alive(ws)
