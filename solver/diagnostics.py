@@ -70,10 +70,20 @@ class StationReading:
     area_m2: float
 
 
-def _samples(sim: Simulation, station: Station):
+#: A station reads the mean over parallel copies shifted this many cells along its normal. Walls
+#: are staircases of cells, and gas crosses their cell faces (in at one step, out at the next),
+#: so a single line of cells reads a little high or low by where it cuts the steps.
+BAND_OFFSETS_CELLS = (-2, -1, 0, 1, 2)
+
+
+def _samples(sim: Simulation, station: Station, shift_cells: float = 0.0):
     """Sample points along the station at half-cell spacing, with their weights (m or m^2)."""
     dom = sim.domain
     (x0, y0), (x1, y1) = station.start_m, station.end_m
+    length0 = math.dist((x0, y0), (x1, y1))
+    sx = (y1 - y0) / length0 * shift_cells * dom.dx_m
+    sy = -(x1 - x0) / length0 * shift_cells * dom.dx_m
+    x0, x1, y0, y1 = x0 + sx, x1 + sx, y0 + sy, y1 + sy
     length = math.dist((x0, y0), (x1, y1))
     n = max(2, int(math.ceil(2.0 * length / dom.dx_m)))
     t = (np.arange(n) + 0.5) / n
@@ -92,8 +102,15 @@ def _samples(sim: Simulation, station: Station):
 
 
 def read_station(sim: Simulation, station: Station) -> StationReading:
-    """Mass flow, axial thrust ((rho u_x u_n + (p - p_amb) n_x) dA), mean Mach and pressure."""
-    jj, ii, w, (nx_, ny_) = _samples(sim, station)
+    """Mass flow, axial thrust ((rho u_x u_n + (p - p_amb) n_x) dA), mean Mach and pressure,
+    each the mean over a band of parallel lines (BAND_OFFSETS_CELLS)."""
+    readings = [_read_line(sim, station, k) for k in BAND_OFFSETS_CELLS]
+    return StationReading(*(float(np.mean([getattr(r, f) for r in readings]))
+                            for f in StationReading.__dataclass_fields__))
+
+
+def _read_line(sim: Simulation, station: Station, shift_cells: float) -> StationReading:
+    jj, ii, w, (nx_, ny_) = _samples(sim, station, shift_cells)
     s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
     rho, u, v, p = (sim.W[c][s][jj, ii] for c in range(4))
     gas_cells = sim.mask[jj, ii] != CellKind.WALL

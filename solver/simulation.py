@@ -18,7 +18,7 @@ from .errors import SolverDiverged
 from .gas import AIR, Gas
 from .kinds import EDGE_GHOST_KIND, HELD_KINDS, CellKind
 from .numerics import Numerics
-from .wall_normals import wall_normals
+from .wall_normals import imbalance_receivers, wall_normals
 
 MODES = ("planar", "axisymmetric")
 GHOST = 2
@@ -108,10 +108,14 @@ class Simulation:
         j = np.arange(ny, dtype=float)
         if self.setup.mode == "axisymmetric":
             r_c = (j + 0.5) * domain.dx_m
+            self._r_cell = j + 0.5
+            self._r_face = np.arange(ny + 1, dtype=float)
             self._w_plus = (j + 1.0) / (j + 0.5)
             self._w_minus = j / (j + 0.5)
             self._source = 1.0 / r_c
         else:
+            self._r_cell = np.ones(ny)
+            self._r_face = np.ones(ny + 1)
             self._w_plus = np.ones(ny)
             self._w_minus = np.ones(ny)
             self._source = np.zeros(ny)
@@ -140,6 +144,7 @@ class Simulation:
         touches[1:, :] |= fluid[:-1, :]
         self._feed_j, self._feed_i = (a.astype(np.int64) for a in np.nonzero(res & touches))
         self._wall_nx, self._wall_ny = wall_normals(k, GHOST)
+        self._return = imbalance_receivers(k[GHOST:-GHOST, GHOST:-GHOST])
 
     # ------------------------------------------------------------ conditions
     def _refresh_held(self) -> None:
@@ -343,6 +348,9 @@ class Simulation:
             kernels.update_stage(self.U, self.U0, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
                                  self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
+            kernels.return_wall_imbalance(self.U, self.W, self.Fx, self.Gy, *self._return[:2], self._r_cell,
+                                          self._r_face, *self._return[2:], b * dt, inv_dx, gamma,
+                                          self._rho_floor, self._p_floor)
             kernels.fill_open_edges(self.U, self.W, self.kind)
             floors += int(self._row_floors.sum())
         if self._row_bad.any():

@@ -152,19 +152,25 @@ def test_closed_box_conserves_mass_and_energy_and_keeps_mirror_symmetry():
     assert rho.max() > 1.5  # the blast has really moved gas about
 
 
-def test_painted_box_walls_conserve_too():
-    dom_n = 96
-    dom = Domain(0.0, 2.0, 0.0, 1.0, dom_n)
-    frame = Sketch((Rectangle((0.0, 0.0), (2.0, 1.0), "wall"), Rectangle((0.2, 0.1), (1.8, 0.9), "fluid")))
-    mask = rasterise(frame, dom)
-    sim = _blast_box(dom_n, Edges("open", "open", "open", "open"), mask)
+@pytest.mark.parametrize("mode", ["planar", "axisymmetric"])
+def test_painted_inclined_and_curved_walls_conserve_too(mode):
+    # Gas that the fluxes move into wall cells is handed back to the gas beside them, so a
+    # vessel of sloped and curved painted walls conserves to round-off as well.
+    dom = Domain(0.0, 2.0, 0.0, 1.0, 128)
+    vessel = Sketch((Polygon(((0.3, 1.0), (1.5, 0.6), (2.0, 0.8), (2.0, 1.1), (0.3, 1.1)), "wall"),
+                     Circle((1.2, 0.3), 0.1, "wall"), Polygon(((0.0, 0.5), (0.25, 1.0), (0.0, 1.0)), "wall")))
+    bottom = "axis" if mode == "axisymmetric" else "wall"
+    sim = Simulation(Setup(domain=dom, mode=mode, edges=Edges("wall", "wall", bottom, "wall")),
+                     rasterise(vessel, dom))
+    x, y = np.meshgrid(dom.x_centres_m(), dom.y_centres_m())
+    hot = (x - 1.0) ** 2 + (y - 0.4) ** 2 < 0.15 ** 2
+    sim.set_primitive(np.where(hot, 4.0, 1.2), 0.0, 0.0, np.where(hot, 1.0e6, 1.0e5))
     before = totals(sim)
-    sim.advance(100)
+    sim.advance(300)
     after = totals(sim)
-    # painted walls along the grid are exact mirrors away from corners; corners (smoothed
-    # orientation) may exchange a little mass with the wall cells
-    assert after.mass_kg == pytest.approx(before.mass_kg, rel=2e-3)
-    assert after.energy_j == pytest.approx(before.energy_j, rel=2e-3)
+    assert after.mass_kg == pytest.approx(before.mass_kg, rel=1e-12)
+    assert after.energy_j == pytest.approx(before.energy_j, rel=1e-12)
+    assert sim.floors_total == 0
 
 
 def test_supersonic_wedge_shock_angle():
@@ -213,11 +219,11 @@ def test_axisymmetric_gas_at_rest_stays_at_rest():
 
 
 def _nozzle(nx):
-    """Axisymmetric conical nozzle (30 deg in, rounded throat of radius 2 r_t, 10 deg out)."""
+    """Axisymmetric conical nozzle (25 deg in, rounded throat of radius 3 r_t, 10 deg out)."""
     dom = Domain(0.0, 0.24, 0.0, 0.05, nx)
     r_c, r_t, x_t = 0.035, 0.015, 0.07
-    r_curv = 2.0 * r_t
-    conv, div = math.radians(30.0), math.radians(10.0)
+    r_curv = 3.0 * r_t
+    conv, div = math.radians(25.0), math.radians(10.0)
     xa = x_t - r_curv * math.sin(conv)
     ya = r_t + r_curv * (1.0 - math.cos(conv))
     pts = [(0.0, r_c), (xa - (r_c - ya) / math.tan(conv), r_c)]
@@ -238,10 +244,10 @@ def _nozzle(nx):
 @pytest.mark.slow
 def test_axisymmetric_nozzle_chokes_at_theory_mass_flow_and_exit_mach():
     # [N] choked mass flow and area-Mach relation (solver.relations, checked against the
-    # report's tables). Walls act at their drawn position (cells reflect gas about the drawn
-    # wall), so theory uses the drawn throat and station areas.
+    # report's tables). At nx = 240 the throat radius is exactly 15 cells, so the drawn and the
+    # cell-resolved throat areas agree; elsewhere they differ by up to half a cell of radius.
     p0, t0, p_amb = 1.0e6, 300.0, 1.5e4
-    dom, sketch, r_t, x_t, radius = _nozzle(360)
+    dom, sketch, r_t, x_t, radius = _nozzle(240)
     setup = Setup(domain=dom, mode="axisymmetric", edges=Edges("wall", "ambient", "axis", "ambient"),
                   conditions=Conditions(reservoir=Reservoir(p0, t0), ambient=Ambient(p_amb, 288.15)))
     sim = Simulation(setup, rasterise(sketch, dom))
@@ -251,10 +257,10 @@ def test_axisymmetric_nozzle_chokes_at_theory_mass_flow_and_exit_mach():
                       np.where(up, p0, p_amb))
     sim.run_until(0.0025)
     ideal = relations.choked_mass_flow_kg_s(p0, t0, math.pi * r_t ** 2, 1.4, AIR.r_j_kg_k)
-    # the staircase puts mass into and out of wall cells along the wall, so one station reads
-    # high or low by where it cuts the steps: average stations over the divergent part
-    stations = np.linspace(0.09, 0.16, 15)
+    # a steady flow passes the same mass through every station of the divergent part
+    stations = np.linspace(0.09, 0.16, 8)
     flows = [read_station(sim, Station((xs, 0.0), (xs, 0.05))).mass_flow_kg_s for xs in stations]
+    assert np.ptp(flows) < 0.015 * ideal, f"mass flows / ideal: {np.array(flows) / ideal}"
     assert np.mean(flows) == pytest.approx(ideal, rel=0.02), f"mass flows / ideal: {np.array(flows) / ideal}"
     x_exit = 0.16
     exit_mach = read_station(sim, Station((x_exit, 0.0), (x_exit, 0.05))).mean_mach
