@@ -142,7 +142,7 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
 
     async def _warm_then_run(parts: ServerParts) -> None:
         if config.warm:
-            seconds = await asyncio.to_thread(warm_kernels)
+            seconds = await parts.runner.in_worker(warm_kernels)
             log.info("numba kernels ready in %.1f s", seconds)
         if config.start_running:
             await parts.runner.call(parts.session.run)

@@ -1,7 +1,10 @@
 """Drives the session from the event loop: solver bursts in a worker thread, every change behind one lock.
 
-The solver steps in bursts of about 20 ms in a worker thread (the numba kernels release the GIL),
-so the event loop stays free to read messages and feed the tabs. Requests take the same asyncio
+The solver steps in bursts of about 20 ms in one dedicated worker thread (the numba kernels release
+the GIL), so the event loop stays free to read messages and feed the tabs. Every call that touches
+the simulation runs in that same thread: numba's OpenMP layer keeps a thread team per calling thread,
+and teams of several callers spin against each other on a 2-core machine (measured: the solver ran at
+less than half speed when bursts hopped between the default pool's threads). Requests take the same asyncio
 lock, which is fair: a request waits at most one burst. After each burst or request the runner
 publishes a flow snapshot (when tabs are connected, at most ~32 per second) and, a few times per
 second, a status.
@@ -9,6 +12,8 @@ second, a status.
 from __future__ import annotations
 
 import asyncio
+import functools
+from concurrent.futures import ThreadPoolExecutor
 import logging
 import time
 from typing import Any, Callable
@@ -35,6 +40,7 @@ class Runner:
         self.status_interval_s = status_interval_s
         self.snapshot_interval_s = snapshot_interval_s
         self.lock = asyncio.Lock()
+        self._worker = ThreadPoolExecutor(max_workers=1, thread_name_prefix="shockslate-solver")
         self._kick = asyncio.Event()
         self._task: asyncio.Task | None = None
         self._ticker: asyncio.Task | None = None
@@ -53,6 +59,10 @@ class Runner:
         self._task = asyncio.create_task(self._run_forever(), name="shockslate-runner")
         self._ticker = asyncio.create_task(self._status_ticker(), name="shockslate-status")
 
+    async def in_worker(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
+        """Run fn in the solver's own thread (callers hold the lock when fn touches the session)."""
+        return await asyncio.get_running_loop().run_in_executor(self._worker, functools.partial(fn, *args, **kwargs))
+
     async def stop(self) -> None:
         for task in (self._task, self._ticker):
             if task is not None:
@@ -63,6 +73,7 @@ class Runner:
                     await task
                 except asyncio.CancelledError:
                     pass
+        self._worker.shutdown(wait=False, cancel_futures=True)
 
     # ------------------------------------------------------------ requests
     async def call(self, fn: Callable[..., Any], *args: Any, fresh_status: bool = False, **kwargs: Any) -> Any:
@@ -72,7 +83,7 @@ class Runner:
         changes leave it to the next periodic status, so a new shape reaches the tabs sooner.
         """
         async with self.lock:
-            result, snap, status = await asyncio.to_thread(self._call_and_observe, fn, args, kwargs, fresh_status)
+            result, snap, status = await self.in_worker(self._call_and_observe, fn, args, kwargs, fresh_status)
         if snap is not None:
             self.hub.publish_snapshot(snap)
         if status is not None:
@@ -83,7 +94,7 @@ class Runner:
     async def read(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
         """Run a read-only session method in the worker thread under the lock; publishes nothing."""
         async with self.lock:
-            return await asyncio.to_thread(fn, *args, **kwargs)
+            return await self.in_worker(fn, *args, **kwargs)
 
     def _call_and_observe(self, fn, args, kwargs, fresh_status: bool):
         result = fn(*args, **kwargs)
@@ -99,7 +110,7 @@ class Runner:
                 continue
             try:
                 async with self.lock:
-                    advanced, snap, status = await asyncio.to_thread(self._burst)
+                    advanced, snap, status = await self.in_worker(self._burst)
             except Exception as err:  # a bug, not a divergence: stop the run, keep the server, say so
                 log.exception("the run stopped on an unexpected error")
                 await self._stop_after_failure(err)
@@ -155,7 +166,7 @@ class Runner:
                 continue
             try:
                 async with self.lock:
-                    status = await asyncio.to_thread(self._status_now, time.monotonic())
+                    status = await self.in_worker(self._status_now, time.monotonic())
             except Exception:
                 log.exception("status could not be computed")
                 continue
