@@ -149,7 +149,11 @@ class Runner:
                 + self.snapshot_interval_s
         status = None
         if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
-            status = self._status_now(now)
+            if self.hub.clients or advanced.divergence is not None:
+                status = self._status_now(now)
+            else:  # nobody to tell: keep only the rates /health reports
+                self._update_rates(now)
+                self._last_status_t = now
         return advanced, snap, status
 
     async def _status_ticker(self) -> None:
@@ -173,10 +177,9 @@ class Runner:
             self.hub.publish_status(status)
 
     # ------------------------------------------------------------ status
-    def _status_now(self, now: float) -> dict:
-        """The status message (without frames_per_s, which each client's sender adds). Worker thread, locked."""
-        s = self.session
-        sim = s.sim
+    def _update_rates(self, now: float) -> None:
+        """Steps and cell updates per second since the last update (for status and /health)."""
+        s, sim = self.session, self.session.sim
         elapsed = now - self._rate_t
         if elapsed >= 0.2 or not s.running:
             steps = sim.steps - self._rate_steps
@@ -186,6 +189,12 @@ class Runner:
             elif not s.running:
                 self.steps_per_s = self.cell_updates_per_s = 0.0
             self._rate_t, self._rate_steps = now, sim.steps
+
+    def _status_now(self, now: float) -> dict:
+        """The status message (without frames_per_s, which each client's sender adds). Worker thread, locked."""
+        s = self.session
+        sim = s.sim
+        self._update_rates(now)
         floors = max(sim.floors_total - self._rate_floors, 0)
         self._rate_floors = sim.floors_total
         nozzle = readings.nozzle_geometry(sim.mask, sim.domain, s.scenario)
