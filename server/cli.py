@@ -52,6 +52,9 @@ def build_parser() -> argparse.ArgumentParser:
     batch = optional_module("solver.batch_cli")
     if batch is not None:
         batch.add_batch_commands(sub)
+    sweep = optional_module("solver.sweep_cli")
+    if sweep is not None:
+        sweep.add_sweep_command(sub)
     return parser
 
 
