@@ -86,6 +86,10 @@ class Hub:
         self._ids = itertools.count(1)
         self._cache: dict[tuple, asyncio.Future] = {}
         self._cache_version = -1
+        self._ready: dict[tuple, Any] = {}
+        self._overlays_prepared_t = 0.0
+        #: Whether the newest snapshot came from a running flow (more will follow soon).
+        self.snapshot_live = False
         self.frames_built = 0
 
     # ------------------------------------------------------------ membership
@@ -122,46 +126,52 @@ class Hub:
             client.status = status
             client.wake.set()
 
-    def publish_snapshot(self, snap: FlowSnapshot) -> None:
+    def publish_snapshot(self, snap: FlowSnapshot, live: bool = False) -> None:
         self.snapshot = snap
+        self.snapshot_live = live
         for client in self.clients.values():
             client.wake.set()
 
     # ------------------------------------------------------------ frames
-    async def _cached(self, key: tuple, build) -> Any:
-        snap_version = key[0]
-        if snap_version != self._cache_version:
+    def prepare(self, snap: FlowSnapshot, with_overlays: bool = False) -> None:
+        """Build, in the solver's own thread right after a snapshot, every frame the tabs will ask for.
+
+        Doing it there, between bursts, keeps a third busy thread away from the solver's two OpenMP
+        threads on a 2-core machine (a preempted OpenMP thread stalls its partner at each barrier).
+        Overlays are built at most OVERLAYS_PER_S times a second, or when with_overlays is set.
+        """
+        clients = list(self.clients.values())
+        ready: dict[tuple, Any] = {}
+        for view in {c.view for c in clients}:
+            ready[_frame_key(snap, view)] = build_frame(snap, view)
+            self.frames_built += 1
+        now = time.monotonic()
+        if with_overlays or now - self._overlays_prepared_t >= 1.0 / OVERLAYS_PER_S:
+            for overlays in {c.view.overlays for c in clients if c.view.overlays}:
+                ready[_overlay_key(snap, overlays)] = build_overlay_text(snap, overlays)
+            self._overlays_prepared_t = now
+        self._ready = ready
+
+    async def _get(self, key: tuple, build, live: bool) -> Any:
+        """A prepared frame or overlay; while the flow runs, None when it was not prepared (the next
+        snapshot will have it); while it stands still, built on demand in a helper thread."""
+        found = self._ready.get(key)
+        if found is not None or live:
+            return found
+        if key[0] != self._cache_version:
             self._cache.clear()
-            self._cache_version = snap_version
+            self._cache_version = key[0]
         fut = self._cache.get(key)
         if fut is None:
             fut = asyncio.ensure_future(asyncio.to_thread(build))
             self._cache[key] = fut
         return await asyncio.shield(fut)
 
-    async def frame(self, snap: FlowSnapshot, view: ViewChoice) -> bytes:
-        def build() -> bytes:
-            fld = frames.view_field(view.view, snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
-            self.frames_built += 1
-            return frames.encode_frame(fld, view.view, view.width, view.height, view.fixed_range,
-                                       snap.time_s, snap.steps)
+    async def frame(self, snap: FlowSnapshot, view: ViewChoice, live: bool = False) -> bytes | None:
+        return await self._get(_frame_key(snap, view), lambda: build_frame(snap, view), live)
 
-        return await self._cached((snap.version, "frame", view.view, view.width, view.height, view.fixed_range), build)
-
-    async def overlay(self, snap: FlowSnapshot, overlays: tuple[str, ...]) -> dict:
-        def build() -> dict:
-            out: dict[str, Any] = {"type": "overlay", "time_s": snap.time_s, "steps": snap.steps,
-                                   "sonic_line": [], "arrows": []}
-            x, y = snap.x_centres_m, snap.y_centres_m
-            if "sonic_line" in overlays:
-                m = frames.view_field("mach", snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
-                out["sonic_line"] = frames.sonic_line(m, x, y)
-            if "arrows" in overlays:
-                gas_cells = snap.mask != CellKind.WALL
-                out["arrows"] = frames.velocity_arrows(snap.u, snap.v, gas_cells, x, y)
-            return out
-
-        return await self._cached((snap.version, "overlay", overlays), build)
+    async def overlay_text(self, snap: FlowSnapshot, overlays: tuple[str, ...], live: bool = False) -> str | None:
+        return await self._get(_overlay_key(snap, overlays), lambda: build_overlay_text(snap, overlays), live)
 
     # ------------------------------------------------------------ the sender
     async def sender(self, client: Client) -> None:
@@ -189,7 +199,7 @@ class Hub:
 
     async def _send_frame_if_due(self, client: Client) -> float | None:
         """Send a frame (and, less often, an overlay) of the newest snapshot; the seconds until one is due."""
-        snap = self.snapshot
+        snap, live = self.snapshot, self.snapshot_live
         if snap is None:
             return None
         view = client.view
@@ -203,12 +213,13 @@ class Hub:
             if client.frame_tokens < 1.0:
                 wait_s = (1.0 - client.frame_tokens) / self.max_frames_per_s
             else:
-                client.frame_tokens -= 1.0
-                data = await self.frame(snap, view)
-                await client.websocket.send_bytes(data)
-                client.last_frame_key = key
-                client.frame_times.append(time.monotonic())
-                client.frames_sent += 1
+                data = await self.frame(snap, view, live)
+                if data is not None:
+                    client.frame_tokens -= 1.0
+                    await client.websocket.send_bytes(data)
+                    client.last_frame_key = key
+                    client.frame_times.append(time.monotonic())
+                    client.frames_sent += 1
         if view.overlays:
             okey = (snap.version, view.overlays)
             if okey != client.last_overlay_key:
@@ -216,7 +227,35 @@ class Hub:
                 if due_in > 0.001:
                     wait_s = due_in if wait_s is None else min(wait_s, due_in)
                 else:
-                    await client.websocket.send_text(dumps(await self.overlay(snap, view.overlays)))
-                    client.last_overlay_key = okey
-                    client.last_overlay_t = time.monotonic()
+                    text = await self.overlay_text(snap, view.overlays, live)
+                    if text is not None:
+                        await client.websocket.send_text(text)
+                        client.last_overlay_key = okey
+                        client.last_overlay_t = time.monotonic()
         return wait_s
+
+
+def _frame_key(snap: FlowSnapshot, view: ViewChoice) -> tuple:
+    return (snap.version, "frame", view.view, view.width, view.height, view.fixed_range)
+
+
+def _overlay_key(snap: FlowSnapshot, overlays: tuple[str, ...]) -> tuple:
+    return (snap.version, "overlay", overlays)
+
+
+def build_frame(snap: FlowSnapshot, view: ViewChoice) -> bytes:
+    fld = frames.view_field(view.view, snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
+    return frames.encode_frame(fld, view.view, view.width, view.height, view.fixed_range, snap.time_s, snap.steps)
+
+
+def build_overlay_text(snap: FlowSnapshot, overlays: tuple[str, ...]) -> str:
+    """The overlay message, as JSON text, for the overlays asked for."""
+    out: dict[str, Any] = {"type": "overlay", "time_s": snap.time_s, "steps": snap.steps,
+                           "sonic_line": [], "arrows": []}
+    x, y = snap.x_centres_m, snap.y_centres_m
+    if "sonic_line" in overlays:
+        m = frames.view_field("mach", snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
+        out["sonic_line"] = frames.sonic_line(m, x, y)
+    if "arrows" in overlays:
+        out["arrows"] = frames.velocity_arrows(snap.u, snap.v, snap.mask != CellKind.WALL, x, y)
+    return dumps(out)

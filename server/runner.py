@@ -98,7 +98,10 @@ class Runner:
 
     def _call_and_observe(self, fn, args, kwargs, fresh_status: bool):
         result = fn(*args, **kwargs)
-        snap = self.session.snapshot() if self.hub.wants_frames else None
+        snap = None
+        if self.hub.wants_frames:
+            snap = self.session.snapshot()
+            self.hub.prepare(snap, with_overlays=True)
         return result, snap, (self._status_now(time.monotonic()) if fresh_status else None)
 
     # ------------------------------------------------------------ the run loop
@@ -116,7 +119,7 @@ class Runner:
                 await self._stop_after_failure(err)
                 continue
             if snap is not None:
-                self.hub.publish_snapshot(snap)
+                self.hub.publish_snapshot(snap, live=self.session.running)
             if advanced.divergence is not None:
                 self.hub.broadcast(advanced.divergence.to_message())
             if status is not None:
@@ -143,6 +146,7 @@ class Runner:
         snap = None
         if self.hub.wants_frames and (now >= self._next_snapshot_t or advanced.divergence is not None):
             snap = self.session.snapshot()
+            self.hub.prepare(snap)
             late = now - self._next_snapshot_t
             # Keep the schedule (so overruns average out) unless a whole interval behind.
             self._next_snapshot_t = (self._next_snapshot_t if late < self.snapshot_interval_s else now) \

@@ -191,3 +191,28 @@ def test_a_stuck_tab_does_not_hold_up_another_and_then_gets_only_the_newest_fram
     fast_frames, slow_frames = asyncio.run(scenario())
     assert fast_frames == [1, 2, 3, 4]
     assert slow_frames == [1, 4]  # 2 and 3 were skipped: only the newest is ever sent
+
+
+def test_frames_prepared_with_the_snapshot_serve_every_tab_of_that_view():
+    import asyncio
+
+    from server.hub import Hub, ViewChoice
+
+    async def scenario():
+        hub = Hub()
+        a, b = hub.new_client(_Socket()), hub.new_client(_Socket())
+        a.view = b.view = ViewChoice("pressure", 64, 64, None, ("sonic_line",))
+        snap = _snapshot(7)
+        hub.prepare(snap)
+        built = hub.frames_built
+        fa = await hub.frame(snap, a.view, live=True)
+        fb = await hub.frame(snap, b.view, live=True)
+        overlay = await hub.overlay_text(snap, ("sonic_line",), live=True)
+        other = await hub.frame(snap, ViewChoice("density", 64, 64, None, ()), live=True)
+        return built, fa, fb, overlay, other
+
+    built, fa, fb, overlay, other = asyncio.run(scenario())
+    assert built == 1 and fa is fb  # one build for two tabs with the same view
+    assert frames.decode_frame(fa)[0].step == 7
+    assert '"type":"overlay"' in overlay
+    assert other is None  # not prepared while the flow runs: the next snapshot will carry it
