@@ -74,6 +74,8 @@ DONE_STATUSES = ("finished", "diverged", "stalled")
 #: case that never ran because the sweep was stopped.
 FAILED, NOT_RUN = "failed", "not run"
 MAX_CASES = 10_000
+#: How long a sweep waits for the first worker of a cluster, seconds.
+WORKER_WAIT_S = 60.0
 MAX_COUNT = 1_000
 CASE_PREFIX = "case-"
 #: Leading columns and trailing columns of sweep.csv; the varied paths and the figures go between.
@@ -665,7 +667,6 @@ def run_sweep(plan: SweepPlan, out_dir: str | Path, *, scheduler: str | None = N
     left; the tables are still written, with those cases as "not run".
     """
     out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
     if progress == "default":
         progress = ProgressPrinter()
     say = announce or (lambda text: None)
@@ -718,8 +719,13 @@ def run_sweep(plan: SweepPlan, out_dir: str | Path, *, scheduler: str | None = N
                 cluster = stack.enter_context(local_cluster(workers))
                 client = stack.enter_context(Client(cluster))
                 result.where = f"a local cluster of {len(cluster.workers)} process workers, one numba thread each"
-            client.wait_for_workers(1, timeout=60)
+            try:
+                client.wait_for_workers(1, timeout=WORKER_WAIT_S)
+            except TimeoutError:
+                raise SweepError(f"no worker joined {result.where} within {WORKER_WAIT_S:g} s; start one with "
+                                 "`dask worker SCHEDULER_ADDRESS --nthreads 1`") from None
             threads = client.nthreads()
+            out.mkdir(parents=True, exist_ok=True)
             say(f"sweep: {len(unique)} cases, {len(reused_keys)} kept from before, {len(pending)} to run on "
                 f"{result.where} ({len(threads)} workers, {sum(threads.values())} threads)")
             token = uuid.uuid4().hex[:8]
@@ -754,6 +760,7 @@ def run_sweep(plan: SweepPlan, out_dir: str | Path, *, scheduler: str | None = N
         status = statuses.get(case.key, NOT_RUN)
         result.rows.append(_case_row(case, status, errors.get(case.key, ""), summaries.get(case.key)))
     result.columns = _columns(result.rows, [v.path for v in plan.varies])
+    out.mkdir(parents=True, exist_ok=True)
     write_tables(result)
     if write_report:
         write_sweep_report(out / "sweep_report.html", result)
