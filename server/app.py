@@ -52,6 +52,8 @@ class ServerConfig:
     warm: bool = True
     open_browser: bool = False
     web_dir: Path = WEB_DIR
+    #: numba threads for the solver (None: numba's default, all cores). 1 is kinder to a shared machine.
+    solver_threads: int | None = None
     runner_options: dict[str, Any] = field(default_factory=dict)
 
 
@@ -141,6 +143,10 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
                 hub.remove(client)
 
     async def _warm_then_run(parts: ServerParts) -> None:
+        if config.solver_threads is not None:
+            import numba  # the thread count is per calling thread: set it in the solver's own thread
+
+            await parts.runner.in_worker(numba.set_num_threads, config.solver_threads)
         if config.warm:
             seconds = await parts.runner.in_worker(warm_kernels)
             log.info("numba kernels ready in %.1f s", seconds)

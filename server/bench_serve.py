@@ -37,6 +37,8 @@ def add_serve_bench(parser: argparse.ArgumentParser) -> None:
                         help="length of each measuring phase of --serve (default 5)")
     parser.add_argument("--latency-samples", type=int, default=8, metavar="N",
                         help="shapes sent for the latency figure of --serve (default 8)")
+    parser.add_argument("--serve-threads", type=int, metavar="N",
+                        help="solver threads of the server under test (default: all cores)")
     for key in ("handler", "func"):
         previous = parser.get_default(key)
         if previous is not None:
@@ -57,7 +59,8 @@ def _either(previous):
 
 
 def main(args: argparse.Namespace) -> int:
-    report = run_serve_bench(phase_s=args.phase_seconds, latency_samples=args.latency_samples)
+    report = run_serve_bench(phase_s=args.phase_seconds, latency_samples=args.latency_samples,
+                             threads=args.serve_threads)
     if getattr(args, "json", False):
         print(json.dumps(report, indent=2))
     else:
@@ -93,7 +96,7 @@ def _health(url: str) -> dict:
 class ServerProcess:
     """`shockslate serve` in a subprocess with a throw-away data folder; output to a log file."""
 
-    def __init__(self, scenario: dict):
+    def __init__(self, scenario: dict, threads: int | None = None):
         self.folder = Path(tempfile.mkdtemp(prefix="shockslate-bench-"))
         path = self.folder / "bench.json"
         path.write_text(json.dumps(scenario))
@@ -105,7 +108,7 @@ class ServerProcess:
         with open(self.log_path, "wb") as log:
             self.proc = subprocess.Popen(
                 [sys.executable, "-m", "server.cli", "serve", "--port", str(self.port), "--scenario", str(path),
-                 "--data-dir", str(self.folder / "data")],
+                 "--data-dir", str(self.folder / "data"), *(["--threads", str(threads)] if threads else [])],
                 cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
 
     def wait_running(self, timeout_s: float = 180.0) -> dict:
@@ -226,9 +229,10 @@ def latency_phase(url: str, scenario: dict, samples: int) -> list[float]:
     return out
 
 
-def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: float = 3.0) -> dict:
+def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: float = 3.0,
+                    threads: int | None = None) -> dict:
     scenario = bench_scenario()
-    server = ServerProcess(scenario)
+    server = ServerProcess(scenario, threads)
     try:
         start = time.monotonic()
         first = server.wait_running()
@@ -262,6 +266,7 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
         "phases_with_client": streaming,
         "solver_slowdown_percent": 100.0 * (1.0 - mean_streaming / mean_alone) if mean_alone > 0 else None,
         "numba_threading_layer": health.get("threading_layer"),
+        "solver_threads": threads or "all cores",
         "cpu_count": os.cpu_count(),
         "load_average_1min": os.getloadavg()[0],
         "goals": {"frames_per_s": 30, "latency_ms": 150, "slowdown_percent": 10},
@@ -271,7 +276,7 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
 def print_report(r: dict) -> None:
     print(f"serving benchmark: grid {r['grid'][0]}x{r['grid'][1]}, frames {r['frame_size'][0]}x{r['frame_size'][1]}, "
           f"one loopback client; {r['cpu_count']} CPUs, load average {r['load_average_1min']:.2f}, "
-          f"numba threading layer {r['numba_threading_layer']}")
+          f"numba threading layer {r['numba_threading_layer']}, solver threads {r['solver_threads']}")
     print(f"  frames delivered        {r['frames_per_s']:6.1f} /s      (goal 30; phases "
           + ", ".join(f"{f:.1f}" for f in r["frames_per_s_phases"]) + ")")
     if r["latency_ms_median"] is not None:

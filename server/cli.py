@@ -77,6 +77,8 @@ def add_serve_command(sub) -> argparse.ArgumentParser:
     p.add_argument("--data-dir", type=Path, metavar="DIR",
                    help="user data folder (default $SHOCKSLATE_DATA_DIR or ~/.local/share/shockslate)")
     p.add_argument("--paused", action="store_true", help="start paused instead of running")
+    p.add_argument("--threads", type=int, metavar="N",
+                   help="solver threads (default: all cores; 1 is kinder to a machine shared with other work)")
     p.set_defaults(func=serve)
     return p
 
@@ -93,6 +95,12 @@ def serve(args: argparse.Namespace) -> int:
     if not (0 < args.port < 65536):
         print(f"shockslate serve: --port = {args.port} is not allowed: 1 to 65535", file=sys.stderr)
         return EXIT_BAD_INPUT
+    import numba
+
+    if args.threads is not None and not (1 <= args.threads <= numba.config.NUMBA_NUM_THREADS):
+        print(f"shockslate serve: --threads = {args.threads} is not allowed: 1 to {numba.config.NUMBA_NUM_THREADS}",
+              file=sys.stderr)
+        return EXIT_BAD_INPUT
     store = ScenarioStore(args.data_dir)
     scenario = None
     if args.scenario:
@@ -103,7 +111,7 @@ def serve(args: argparse.Namespace) -> int:
             return EXIT_BAD_INPUT
     access = Access.for_bind(args.host, args.port)
     config = ServerConfig(access=access, data_dir=store.data_dir, scenario=scenario,
-                          start_running=not args.paused, open_browser=args.open)
+                          start_running=not args.paused, open_browser=args.open, solver_threads=args.threads)
     app = create_app(config)
     print(f"shockslate: open {access.url()}", flush=True)
     print(f"shockslate: scenarios are kept in {store.data_dir}", flush=True)

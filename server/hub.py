@@ -15,6 +15,7 @@ import time
 from dataclasses import dataclass, field
 from typing import Any
 
+import numpy as np
 from starlette.websockets import WebSocket
 
 from solver.kinds import CellKind
@@ -142,13 +143,14 @@ class Hub:
         """
         clients = list(self.clients.values())
         ready: dict[tuple, Any] = {}
+        fields = _ViewFields(snap)  # each view computed once, shared by frames and the sonic line
         for view in {c.view for c in clients}:
-            ready[_frame_key(snap, view)] = build_frame(snap, view)
+            ready[_frame_key(snap, view)] = build_frame(snap, view, fields)
             self.frames_built += 1
         now = time.monotonic()
         if with_overlays or now - self._overlays_prepared_t >= 1.0 / OVERLAYS_PER_S:
             for overlays in {c.view.overlays for c in clients if c.view.overlays}:
-                ready[_overlay_key(snap, overlays)] = build_overlay_text(snap, overlays)
+                ready[_overlay_key(snap, overlays)] = build_overlay_text(snap, overlays, fields)
             self._overlays_prepared_t = now
         self._ready = ready
 
@@ -243,19 +245,32 @@ def _overlay_key(snap: FlowSnapshot, overlays: tuple[str, ...]) -> tuple:
     return (snap.version, "overlay", overlays)
 
 
-def build_frame(snap: FlowSnapshot, view: ViewChoice) -> bytes:
-    fld = frames.view_field(view.view, snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
+class _ViewFields:
+    """The views of one snapshot, each computed on first use."""
+
+    def __init__(self, snap: FlowSnapshot):
+        self.snap = snap
+        self._done: dict[str, np.ndarray] = {}
+
+    def __getitem__(self, view: str) -> np.ndarray:
+        if view not in self._done:
+            s = self.snap
+            self._done[view] = frames.view_field(view, s.gas, s.rho, s.u, s.v, s.p, s.domain.dx_m, s.mask)
+        return self._done[view]
+
+
+def build_frame(snap: FlowSnapshot, view: ViewChoice, fields: _ViewFields | None = None) -> bytes:
+    fld = (fields or _ViewFields(snap))[view.view]
     return frames.encode_frame(fld, view.view, view.width, view.height, view.fixed_range, snap.time_s, snap.steps)
 
 
-def build_overlay_text(snap: FlowSnapshot, overlays: tuple[str, ...]) -> str:
+def build_overlay_text(snap: FlowSnapshot, overlays: tuple[str, ...], fields: _ViewFields | None = None) -> str:
     """The overlay message, as JSON text, for the overlays asked for."""
     out: dict[str, Any] = {"type": "overlay", "time_s": snap.time_s, "steps": snap.steps,
                            "sonic_line": [], "arrows": []}
     x, y = snap.x_centres_m, snap.y_centres_m
     if "sonic_line" in overlays:
-        m = frames.view_field("mach", snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m, snap.mask)
-        out["sonic_line"] = frames.sonic_line(m, x, y)
+        out["sonic_line"] = frames.sonic_line((fields or _ViewFields(snap))["mach"], x, y)
     if "arrows" in overlays:
         out["arrows"] = frames.velocity_arrows(snap.u, snap.v, snap.mask != CellKind.WALL, x, y)
     return dumps(out)

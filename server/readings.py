@@ -17,9 +17,8 @@ from solver import relations
 from solver import scenario as scn
 from solver.diagnostics import Station, read_probe, read_station, station_profile
 from solver.domain import Domain
-from solver.fields import mach as mach_field
 from solver.kinds import CellKind
-from solver.simulation import Simulation
+from solver.simulation import GHOST, Simulation
 
 
 @dataclass(frozen=True)
@@ -126,22 +125,26 @@ def ideal_station_figures(area_m2: float, throat_area_m2: float, scenario: scn.S
             "ideal_exit_mach": exit_mach, "ideal_thrust_n": cf * res.p0_pa * throat_area_m2}
 
 
-def throat_area_m2(sim: Simulation, scenario: scn.Scenario, nozzle: Nozzle | None) -> float | None:
+def throat_area_m2(sim: Simulation, scenario: scn.Scenario, nozzle: Nozzle | None,
+                   readings_by_name: dict[str, Any] | None = None) -> float | None:
     """A*: the throat station's gas area, else the geometric throat; None without a reservoir."""
     if not scn.has_reservoir(scenario):
         return None
     station = scn.station_by_role(scenario, "throat")
     if station is not None:
-        area = read_station(sim, station).area_m2
-        return area if area > 0.0 else None
+        reading = (readings_by_name or {}).get(station.name) or read_station(sim, station)
+        return reading.area_m2 if reading.area_m2 > 0.0 else None
     return nozzle.throat_area_m2 if nozzle is not None else None
 
 
 def station_figures(sim: Simulation, scenario: scn.Scenario, nozzle: Nozzle | None) -> list[dict]:
-    a_star = throat_area_m2(sim, scenario, nozzle)
+    """Each station's reading, with the ideal 1D figures where they apply (each station read once)."""
+    read = {st.name: read_station(sim, Station(tuple(st.start_m), tuple(st.end_m), st.name))
+            for st in scenario.stations}
+    a_star = throat_area_m2(sim, scenario, nozzle, read)
     out = []
     for st in scenario.stations:
-        r = read_station(sim, Station(tuple(st.start_m), tuple(st.end_m), st.name))
+        r = read[st.name]
         in_nozzle = st.role is not None or _crosses_nozzle(st, sim.domain, nozzle)
         ideal = ideal_station_figures(r.area_m2, a_star, scenario) if (a_star and in_nozzle) else None
         out.append({"name": st.name, "role": st.role, "mass_flow_kg_s": r.mass_flow_kg_s, "thrust_n": r.thrust_n,
@@ -169,19 +172,20 @@ def probe_figures(sim: Simulation, scenario: scn.Scenario) -> list[dict]:
 
 
 def max_mach(sim: Simulation) -> float:
-    """Largest Mach number over the gas cells that the scheme updates."""
-    rho, u, v, p = sim.primitive()
+    """Largest Mach number over the gas cells that the scheme updates (views of the state, no copies)."""
     fluid = sim.mask == CellKind.FLUID
     if not fluid.any():
         return 0.0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        m = mach_field(sim.setup.gas, rho[fluid], u[fluid], v[fluid], p[fluid])
-    finite = m[np.isfinite(m)]
-    return float(finite.max()) if finite.size else float("nan")
+    rho, u, v, p = (sim.W[c, GHOST:-GHOST, GHOST:-GHOST] for c in range(4))
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        m2 = (u * u + v * v) * rho / (sim.setup.gas.gamma * p)
+    m2 = np.where(fluid & np.isfinite(m2), m2, -1.0)
+    top = float(m2.max())
+    return math.sqrt(top) if top >= 0.0 else float("nan")
 
 
-def warnings(sim: Simulation, scenario: scn.Scenario, a_star: float | None, floors_since_last: int) -> list[str]:
-    """Plain-language cautions about the flow on screen."""
+def warnings(scenario: scn.Scenario, stations: list[dict], floors_since_last: int) -> list[str]:
+    """Plain-language cautions about the flow on screen (from the station figures just computed)."""
     out = []
     if floors_since_last > 0:
         out.append(f"density or pressure floors were applied {floors_since_last} times since the last status: "
@@ -190,12 +194,11 @@ def warnings(sim: Simulation, scenario: scn.Scenario, a_star: float | None, floo
         res, amb = scenario.conditions.reservoir, scenario.conditions.ambient
         if res.p0_pa <= amb.p_pa:
             out.append("reservoir p0 is not above ambient pressure: no outflow is expected")
-        elif a_star:
-            exit_station = scn.station_by_role(scenario, "exit")
-            if exit_station is not None:
-                area = read_station(sim, exit_station).area_m2
-                if area > a_star:
-                    regime = relations.flow_regime(min(amb.p_pa / res.p0_pa, 1.0), area / a_star,
+        else:
+            for fig in stations:
+                ideal = fig["ideal"]
+                if fig["role"] == "exit" and ideal is not None and ideal["area_ratio"] > 1.0:
+                    regime = relations.flow_regime(min(amb.p_pa / res.p0_pa, 1.0), ideal["area_ratio"],
                                                    scn.to_gas(scenario).gamma)
                     if regime in ("subsonic", "shock in nozzle"):
                         out.append(f"1D theory expects '{regime}' at p_amb/p0 = {amb.p_pa / res.p0_pa:.3g}: "
@@ -206,11 +209,10 @@ def warnings(sim: Simulation, scenario: scn.Scenario, a_star: float | None, floo
 def status_figures(sim: Simulation, scenario: scn.Scenario, nozzle: Nozzle | None,
                    floors_since_last: int) -> dict[str, Any]:
     """The flow-dependent part of the status message."""
-    a_star = throat_area_m2(sim, scenario, nozzle)
+    stations = station_figures(sim, scenario, nozzle)
     return {"time_s": sim.time_s, "steps": sim.steps, "max_mach": max_mach(sim), "floors": sim.floors_total,
-            "dt_s": sim.dt_s, "cells": sim.cells,
-            "stations": station_figures(sim, scenario, nozzle), "probes": probe_figures(sim, scenario),
-            "warnings": warnings(sim, scenario, a_star, floors_since_last)}
+            "dt_s": sim.dt_s, "cells": sim.cells, "stations": stations, "probes": probe_figures(sim, scenario),
+            "warnings": warnings(scenario, stations, floors_since_last)}
 
 
 def axis_profile(sim: Simulation, scenario: scn.Scenario) -> dict[str, Any]:
