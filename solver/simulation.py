@@ -144,7 +144,8 @@ class Simulation:
         touches[1:, :] |= fluid[:-1, :]
         self._feed_j, self._feed_i = (a.astype(np.int64) for a in np.nonzero(res & touches))
         self._wall_nx, self._wall_ny = wall_normals(k, GHOST)
-        self._return = imbalance_receivers(k[GHOST:-GHOST, GHOST:-GHOST])
+        #: (source j, source i, CSR start, receiver j, receiver i, weight): see wall_normals.imbalance_receivers
+        self.wall_return = imbalance_receivers(k[GHOST:-GHOST, GHOST:-GHOST])
 
     # ------------------------------------------------------------ conditions
     def _refresh_held(self) -> None:
@@ -304,6 +305,7 @@ class Simulation:
 
     # -------------------------------------------------------------- stepping
     def _update_rate(self) -> None:
+        self._fluxes_step = -1
         s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
         fluid = self.mask == CellKind.FLUID
         rate = 0.0
@@ -312,6 +314,11 @@ class Simulation:
             c_s = np.sqrt(self.setup.gas.gamma * p / r)
             rate = float(np.max((np.abs(u) + np.abs(v) + 2.0 * c_s) / self.domain.dx_m))
         self._rate = max(rate, self._held_rate)
+
+    @property
+    def fluxes_current(self) -> bool:
+        """True when Fx and Gy hold the face fluxes of the last step of the current state."""
+        return self.steps > 0 and self._fluxes_step == self.steps
 
     @property
     def dt_s(self) -> float:
@@ -348,8 +355,8 @@ class Simulation:
             kernels.update_stage(self.U, self.U0, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
                                  self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
-            kernels.return_wall_imbalance(self.U, self.W, self.Fx, self.Gy, *self._return[:2], self._r_cell,
-                                          self._r_face, *self._return[2:], b * dt, inv_dx, gamma,
+            kernels.return_wall_imbalance(self.U, self.W, self.Fx, self.Gy, *self.wall_return[:2], self._r_cell,
+                                          self._r_face, *self.wall_return[2:], b * dt, inv_dx, gamma,
                                           self._rho_floor, self._p_floor)
             kernels.fill_open_edges(self.U, self.W, self.kind)
             floors += int(self._row_floors.sum())
@@ -360,6 +367,7 @@ class Simulation:
         self._rate = max(float(self._row_rate.max()), self._held_rate)
         self.time_s += dt
         self.steps += 1
+        self._fluxes_step = self.steps
         return dt
 
     def _diverged(self) -> None:
