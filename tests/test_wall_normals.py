@@ -1,0 +1,67 @@
+"""Wall orientation from the mask, and who takes back gas that crosses a staircase."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from solver.domain import Domain
+from solver.kinds import CellKind
+from solver.raster import rasterise
+from solver.shapes import Polygon, Rectangle, Sketch
+from solver.wall_normals import imbalance_receivers, wall_normals
+
+
+def _padded(mask):
+    return np.pad(mask, 2, constant_values=CellKind.WALL)
+
+
+def _boundary(kind):
+    fluid = kind == CellKind.FLUID
+    near = np.zeros_like(fluid)
+    near[:, :-1] |= fluid[:, 1:]
+    near[:, 1:] |= fluid[:, :-1]
+    near[:-1, :] |= fluid[1:, :]
+    near[1:, :] |= fluid[:-1, :]
+    return (kind == CellKind.WALL) & near
+
+
+@pytest.mark.parametrize("slope_deg", [10.0, 20.0, 35.0])
+def test_sloped_staircase_gets_the_drawn_orientation(slope_deg):
+    # exact geometry: the drawn wall's normal is at slope + 90 degrees (no source needed)
+    dom = Domain(0.0, 1.0, 0.0, 0.6, 200)
+    t = math.tan(math.radians(slope_deg))
+    mask = rasterise(Sketch((Polygon(((-1.0, 0.2 - t), (2.0, 0.2 + 2.0 * t), (2.0, 3.0), (-1.0, 3.0)), "wall"),)), dom)
+    kind = _padded(mask)
+    nx, ny = wall_normals(kind, 2)
+    edge = _boundary(kind)
+    edge[:, :30] = edge[:, -30:] = False  # away from where the wall leaves the domain
+    edge[:10, :] = edge[-10:, :] = False
+    angles = np.degrees(np.arctan2(ny[edge], nx[edge])) % 180.0
+    assert np.all(np.abs(angles - (slope_deg + 90.0)) < 3.0), angles
+
+
+def test_straight_grid_walls_are_exact_axes():
+    dom = Domain(0.0, 1.0, 0.0, 0.5, 100)
+    mask = rasterise(Sketch((Rectangle((-1.0, 0.3), (2.0, 1.0), "wall"),)), dom)
+    kind = _padded(mask)
+    nx, ny = wall_normals(kind, 2)
+    edge = _boundary(kind)
+    edge[:2, :] = edge[-2:, :] = edge[:, :2] = edge[:, -2:] = False  # the ghost bands have their own normals
+    assert edge.sum() == 100
+    assert np.all(nx[edge] == 0.0) and np.all(np.abs(ny[edge]) == 1.0)
+    assert np.all(nx[kind != CellKind.WALL] == 0.0) and np.all(ny[kind != CellKind.WALL] == 0.0)
+
+
+def test_hand_back_weights_sum_to_one_and_stay_near():
+    dom = Domain(0.0, 1.0, 0.0, 0.5, 80)
+    mask = rasterise(Sketch((Polygon(((0.1, 0.1), (0.9, 0.2), (0.5, 0.45)), "wall"),)), dom)
+    src_j, src_i, start, rec_j, rec_i, w = imbalance_receivers(mask)
+    assert src_j.size > 0
+    sums = np.add.reduceat(w, start[:-1])
+    np.testing.assert_allclose(sums, 1.0, rtol=1e-12)
+    s_of = np.repeat(np.arange(src_j.size), np.diff(start))
+    assert np.all(np.hypot(rec_j - src_j[s_of], rec_i - src_i[s_of]) <= 4.0)
+    assert np.all(mask[rec_j, rec_i] == CellKind.FLUID)
+    assert np.all(mask[src_j, src_i] == CellKind.WALL)
