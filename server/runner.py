@@ -53,6 +53,7 @@ class Runner:
         self.cell_updates_per_s = 0.0
         self.last_status: dict | None = None
         self._status_key: tuple | None = None
+        self._status_failure: str | None = None
 
     # ------------------------------------------------------------ life cycle
     def start(self) -> None:
@@ -102,7 +103,7 @@ class Runner:
         if self.hub.wants_frames:
             snap = self.session.snapshot()
             self.hub.prepare(snap, with_overlays=True)
-        return result, snap, (self._status_now(time.monotonic()) if fresh_status else None)
+        return result, snap, (self._status_or_none(time.monotonic()) if fresh_status else None)
 
     # ------------------------------------------------------------ the run loop
     async def _run_forever(self) -> None:
@@ -154,7 +155,7 @@ class Runner:
         status = None
         if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
             if self.hub.clients or advanced.divergence is not None:
-                status = self._status_now(now)
+                status = self._status_or_none(now)
             else:  # nobody to tell: keep only the rates /health reports
                 self._update_rates(now)
                 self._last_status_t = now
@@ -193,6 +194,18 @@ class Runner:
             elif not s.running:
                 self.steps_per_s = self.cell_updates_per_s = 0.0
             self._rate_t, self._rate_steps = now, sim.steps
+
+    def _status_or_none(self, now: float) -> dict | None:
+        """The status, or None (logged once per kind of failure) when reading the flow fails: a broken
+        figure must not stop the run or drop the tabs."""
+        try:
+            return self._status_now(now)
+        except Exception as err:
+            kind = f"{type(err).__name__}: {err}"
+            if kind != self._status_failure:
+                self._status_failure = kind
+                log.exception("status could not be computed")
+            return None
 
     def _status_now(self, now: float) -> dict:
         """The status message (without frames_per_s, which each client's sender adds). Worker thread, locked."""

@@ -452,3 +452,17 @@ def test_an_unexpected_solver_error_pauses_the_run_and_keeps_the_server(server, 
         raise AssertionError("the run was not paused")
     del session.advance
     still_alive(ws)
+
+
+def test_a_failing_status_figure_neither_drops_tabs_nor_stops_requests(server, monkeypatch):
+    from server import readings
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("simulated bug in a status figure")
+
+    monkeypatch.setattr(readings, "status_figures", broken)
+    with server.websocket_connect(WS) as sock:
+        assert sock.receive_json()["type"] == "hello"
+        still_alive(sock)
+        sc = ask(sock, {"type": "add_shape", "shape": SHAPE}, "scenario")
+        assert sc["revision"] == 1
