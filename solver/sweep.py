@@ -43,6 +43,7 @@ import sys
 import tempfile
 import time
 import uuid
+from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Literal, Optional, get_args, get_origin
@@ -626,15 +627,8 @@ class SweepResult:
         return self.count("finished") == len(self.rows)
 
 
-def local_cluster(workers: int | None = None):
-    """A distributed.LocalCluster of process workers (default: one per core), one thread each, numba held to one
-    thread and pointed at the same JIT cache as this process."""
-    import logging
-
-    from distributed import LocalCluster
-
-    n = int(workers) if workers else (len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity")
-                                      else (os.cpu_count() or 1))
+def worker_environment() -> dict[str, str]:
+    """Environment of a local worker: numba held to one thread, and the JIT cache of this process."""
     env = {"NUMBA_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
     cache_dir = os.environ.get("NUMBA_CACHE_DIR")
     if not cache_dir:
@@ -643,8 +637,44 @@ def local_cluster(workers: int | None = None):
         cache_dir = numba.config.CACHE_DIR or ""
     if cache_dir:
         env["NUMBA_CACHE_DIR"] = str(Path(cache_dir).resolve())
-    return LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
-                        silence_logs=logging.ERROR, env=env)
+    return env
+
+
+@contextmanager
+def kept_environ():
+    """Put os.environ back as it was: a Nanny writes the variables of its workers into this process before it
+    spawns them (distributed's pre-spawn environment)."""
+    saved = dict(os.environ)
+    try:
+        yield
+    finally:
+        if dict(os.environ) != saved:
+            os.environ.clear()
+            os.environ.update(saved)
+
+
+def local_cluster(workers: int | None = None):
+    """A distributed.LocalCluster of process workers (default: one per core), one thread each, numba held to one
+    thread and pointed at the same JIT cache as this process.
+
+    The variables are given as the pre-spawn environment, so they are set before the worker process starts:
+    numba reads NUMBA_NUM_THREADS and NUMBA_CACHE_DIR once, at import, and a spawned worker may import it early
+    (it re-imports the main module of this process). This process's own environment is left as it was.
+    """
+    import logging
+
+    import dask
+    from distributed import LocalCluster
+
+    n = int(workers) if workers else (len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity")
+                                      else (os.cpu_count() or 1))
+    env = worker_environment()
+    pre_spawn = {**(dask.config.get("distributed.nanny.pre-spawn-environ", default={}) or {}), **env}
+    with kept_environ(), dask.config.set({"distributed.nanny.pre-spawn-environ": pre_spawn}):
+        # no dashboard; the scheduler's small HTTP server on a free loopback port rather than on 8787
+        return LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
+                            dashboard_address="127.0.0.1:0", scheduler_kwargs={"dashboard": False},
+                            silence_logs=logging.ERROR, env=env)
 
 
 def check_scheduler_address(address: str) -> str:
@@ -701,8 +731,6 @@ def run_sweep(plan: SweepPlan, out_dir: str | Path, *, scheduler: str | None = N
         result.where = "nothing to run"
         say(f"sweep: all {len(unique)} cases are already done in {out}; writing the tables")
     else:
-        from contextlib import ExitStack
-
         from distributed import Client
 
         with ExitStack() as stack:
@@ -716,6 +744,7 @@ def run_sweep(plan: SweepPlan, out_dir: str | Path, *, scheduler: str | None = N
                     raise SweepError(f"--scheduler = {address!r}: cannot reach a scheduler there ({err})") from None
                 result.where = f"the existing cluster at {address}"
             else:
+                stack.enter_context(kept_environ())  # a worker restarted by its Nanny writes it again
                 cluster = stack.enter_context(local_cluster(workers))
                 client = stack.enter_context(Client(cluster))
                 result.where = f"a local cluster of {len(cluster.workers)} process workers, one numba thread each"

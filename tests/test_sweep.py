@@ -231,15 +231,30 @@ def test_local_cluster_sweep_of_four_tiny_cases_gives_four_rows(tmp_path):
     assert "stations.door against conditions.reservoir.p0_pa" in page
 
 
+def _numba_settings() -> tuple:
+    import numba as nb
+
+    return os.environ.get("NUMBA_NUM_THREADS"), nb.config.NUMBA_NUM_THREADS, nb.get_num_threads(), nb.config.CACHE_DIR
+
+
 def test_local_cluster_workers_hold_numba_to_one_thread_and_share_the_jit_cache(client):
-    env = client.run(lambda: (os.environ.get("NUMBA_NUM_THREADS"), os.environ.get("NUMBA_CACHE_DIR")))
-    assert len(env) == 2
+    seen = list(client.run(_numba_settings).values())
+    seen += client.gather([client.submit(_numba_settings, pure=False) for _ in range(4)])
     expected_cache = str(Path(os.environ["NUMBA_CACHE_DIR"]).resolve()) if os.environ.get("NUMBA_CACHE_DIR") else None
-    for threads, cache in env.values():
-        assert threads == "1"
+    for env_threads, config_threads, threads, cache in seen:
+        assert (env_threads, config_threads, threads) == ("1", 1, 1)
         if expected_cache:
             assert cache == expected_cache
-    assert set(client.nthreads().values()) == {1}
+    assert set(client.nthreads().values()) == {1} and len(client.nthreads()) == 2
+
+
+def test_starting_a_local_cluster_leaves_this_process_environment_alone():
+    before = dict(os.environ)
+    cluster = sweep.local_cluster(1)
+    try:
+        assert dict(os.environ) == before  # distributed writes its workers' variables here; they are put back
+    finally:
+        cluster.close()
 
 
 def test_diverging_case_is_a_row_with_its_error_and_the_others_finish(client, tmp_path):
@@ -326,8 +341,8 @@ def dask_cluster_processes(tmp_path):
     try:
         procs.append(subprocess.Popen(
             [sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1", "--port", "0",
-             "--no-dashboard", "--scheduler-file", str(sched_file)], stdout=logs[0], stderr=subprocess.STDOUT,
-            env=env))
+             "--no-dashboard", "--dashboard-address", "127.0.0.1:0", "--scheduler-file", str(sched_file)],
+            stdout=logs[0], stderr=subprocess.STDOUT, env=env))
         deadline = time.monotonic() + 60
         while not sched_file.exists() and time.monotonic() < deadline:
             assert procs[0].poll() is None, (tmp_path / "scheduler.log").read_text()
@@ -336,8 +351,8 @@ def dask_cluster_processes(tmp_path):
         address = json.loads(sched_file.read_text())["address"]
         procs.append(subprocess.Popen(
             [sys.executable, "-m", "distributed.cli.dask_worker", address, "--nthreads", "1", "--no-nanny",
-             "--no-dashboard", "--host", "127.0.0.1"], stdout=logs[1], stderr=subprocess.STDOUT, env=env,
-            cwd=str(Path(__file__).resolve().parent.parent)))
+             "--no-dashboard", "--dashboard-address", "127.0.0.1:0", "--host", "127.0.0.1"],
+            stdout=logs[1], stderr=subprocess.STDOUT, env=env, cwd=str(Path(__file__).resolve().parent.parent)))
         yield address, procs[1].pid
     finally:
         for proc in reversed(procs):
