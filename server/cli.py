@@ -21,6 +21,7 @@ from .security import DEFAULT_HOST, DEFAULT_PORT, Access
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 #: uvicorn closes a connection (code 1009) above this size; below it, oversized messages get an error reply.
 WS_MAX_BYTES = 4 * MAX_MESSAGE_BYTES
+SWITCH_INTERVAL_S = 0.0005
 
 
 def optional_module(name: str) -> ModuleType | None:
@@ -118,8 +119,12 @@ def serve(args: argparse.Namespace) -> int:
     if access.token:
         print("shockslate: bound off loopback; the token in that address is required to connect. "
               "Anyone with it can steer the simulation.", flush=True)
+    # The solver thread needs the GIL back between its nogil kernels many times per step; a shorter
+    # switch interval than the default 5 ms keeps the event loop's Python work from stalling it.
+    sys.setswitchinterval(SWITCH_INTERVAL_S)
+    # Frames are sent uncompressed: on loopback deflate only costs CPU that the solver wants.
     uvicorn.Server(uvicorn.Config(app, host=args.host, port=args.port, ws_max_size=WS_MAX_BYTES,
-                                  log_level="warning", lifespan="on")).run()
+                                  ws_per_message_deflate=False, log_level="warning", lifespan="on")).run()
     return EXIT_OK
 
 
