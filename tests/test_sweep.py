@@ -202,8 +202,9 @@ def test_ideal_nozzle_curve_matches_momentum_balance_built_from_pygasflow(p_amb_
 def test_local_cluster_sweep_of_four_tiny_cases_gives_four_rows(tmp_path):
     plan = blast_plan("conditions.reservoir.p0_pa=1e6:2.5e6:4")
     lines: list[str] = []
+    children_before = set(multiprocessing.active_children())
     result = sweep.run_sweep(plan, tmp_path, workers=2, announce=lines.append, progress=None)
-    assert multiprocessing.active_children() == []  # the sweep's own cluster is closed again
+    assert set(multiprocessing.active_children()) <= children_before  # the sweep's own cluster is closed again
     assert "local cluster of 2 process workers" in lines[0] and "4 to run" in lines[0]
     assert result.ran == [0, 1, 2, 3] and result.reused == []
     rows = read_csv(tmp_path / "sweep.csv")
