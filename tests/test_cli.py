@@ -1,0 +1,57 @@
+"""The `shockslate` command: its sub-commands exist, refuse bad input with exit code 2, and do their job."""
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from server.cli import build_parser, main
+
+
+def test_every_documented_command_is_there():
+    sub = next(a for a in build_parser()._actions if a.dest == "command")
+    assert {"serve", "bench", "run", "scenarios", "check", "sweep"} <= set(sub.choices)
+
+
+def test_scenarios_lists_the_built_ins(capsys):
+    assert main(["scenarios"]) == 0
+    out = capsys.readouterr().out
+    assert "nozzle_sea_level" in out and "forward_step_mach3" in out
+
+
+def test_check_accepts_a_good_file_and_names_the_path_in_a_bad_one(tmp_path, capsys):
+    from solver.scenario import builtin_path
+
+    assert main(["check", str(builtin_path("shock_tube_reflection"))]) == 0
+    doc = json.loads(builtin_path("shock_tube_reflection").read_text())
+    doc["conditions"]["ambient"]["p_pa"] = -5.0
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps(doc))
+    assert main(["check", str(bad)]) == 2
+    captured = capsys.readouterr()
+    assert "conditions.ambient.p_pa" in captured.out + captured.err
+
+
+def test_serve_refuses_a_bad_port(capsys):
+    assert main(["serve", "--port", "70000"]) == 2
+    assert "--port = 70000" in capsys.readouterr().err
+
+
+def test_console_script_runs_a_short_batch(tmp_path):
+    # the installed entry point, in a fresh process, as a user would call it
+    out = tmp_path / "out"
+    cmd = [sys.executable, "-c", "import sys; from server.cli import main; sys.exit(main(sys.argv[1:]))",
+           "run", "shock_tube_reflection", "--steps", "5", "--resolution", "80", "--out", str(out)]
+    done = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["steps"] == 5 and summary["resolution"]["nx"] == 80
+
+
+@pytest.mark.parametrize("argv", [["run"], ["nonsense"]])
+def test_usage_errors_exit_2(argv):
+    with pytest.raises(SystemExit) as info:
+        main(argv)
+    assert info.value.code == 2
