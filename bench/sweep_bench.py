@@ -1,10 +1,10 @@
 """Sweep throughput: cases per minute on a local Dask cluster against a plain sequential loop, in one run.
 
-    NUMBA_CACHE_DIR=.numba_cache .venv/bin/python bench/sweep_bench.py [--cases 8] [--workers 2] [--nx 120]
-                                                                       [--until 0.0015] [--repeat 1]
+    NUMBA_CACHE_DIR=.numba_cache .venv/bin/python bench/sweep_bench.py [--cases 8] [--workers 2] [--nx 160]
+                                                                       [--until 0.0012] [--repeat 1]
 
-Eight cases of the over-expanded nozzle (nozzle_sea_level) over ambient pressure, each run through the same
-function (solver.sweep.run_case, one numba thread):
+Eight cases of the over-expanded nozzle (nozzle_sea_level) over ambient pressure, at the resolution and end time
+of the built-in sweep example (scenarios/sweeps/nozzle_ambient_sweep.json), each run through the same function (solver.sweep.run_case, one numba thread):
   sequential  a plain loop in this process;
   cluster     solver.sweep.run_sweep on a fresh local cluster of --workers process workers (solver.sweep.
               local_cluster), timed end to end: cluster start, worker warm-up (imports and JIT-cache load, one tiny
@@ -78,8 +78,8 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--cases", type=int, default=8)
     parser.add_argument("--workers", type=int, default=2)
-    parser.add_argument("--nx", type=int, default=120)
-    parser.add_argument("--until", type=float, default=1.5e-3)
+    parser.add_argument("--nx", type=int, default=160)
+    parser.add_argument("--until", type=float, default=1.2e-3)
     parser.add_argument("--repeat", type=int, default=1,
                         help="alternate cluster and sequential runs this many times and keep the best of each")
     args = parser.parse_args(argv)
