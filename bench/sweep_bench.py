@@ -4,7 +4,8 @@
                                                                        [--until 0.0012] [--repeat 1]
 
 Eight cases of the over-expanded nozzle (nozzle_sea_level) over ambient pressure, at the resolution and end time
-of the built-in sweep example (scenarios/sweeps/nozzle_ambient_sweep.json), each run through the same function (solver.sweep.run_case, one numba thread):
+of the built-in sweep example (scenarios/sweeps/nozzle_ambient_sweep.json), each run through the same function
+(solver.sweep.run_case, one numba thread):
   sequential  a plain loop in this process;
   cluster     solver.sweep.run_sweep on a fresh local cluster of --workers process workers (solver.sweep.
               local_cluster), timed end to end: cluster start, worker warm-up (imports and JIT-cache load, one tiny
