@@ -134,10 +134,12 @@ def _face_line_fluxes(sim: Simulation, x_m: float, ya_m: float, yb_m: float) -> 
     r_cell = (rows + 0.5) if axi else np.ones(rows.size)
     area = (2.0 * math.pi * r_cell * dx * dx) if axi else np.full(rows.size, dx)
     kind = sim.kind[GHOST:-GHOST, :][rows]
-    both_wall = (kind[:, f + GHOST - 1] == CellKind.WALL) & (kind[:, f + GHOST] == CellKind.WALL)
+    gas_face = (kind[:, f + GHOST - 1] != CellKind.WALL) & (kind[:, f + GHOST] != CellKind.WALL)
     p_amb = sim.setup.conditions.ambient.p_pa
+    # mass: every face (gas crossing a wall face is part of the hand-back counted below);
+    # thrust: gas faces only, a wall face carries the wall's pressure, not gas through the station
     mdot = float(np.sum(sim.Fx[0, rows, f] * area))
-    thrust = float(np.sum(np.where(both_wall, 0.0, (sim.Fx[1, rows, f] - p_amb) * area)))
+    thrust = float(np.sum(np.where(gas_face, (sim.Fx[1, rows, f] - p_amb) * area, 0.0)))
     # gas handed back across the line: source wall cell on one side, receiving cell on the other
     src_j, src_i, start, rec_j, rec_i, w = sim.wall_return
     if src_j.size:

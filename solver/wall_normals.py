@@ -46,7 +46,8 @@ def wall_normals(kind: np.ndarray, ghost: int) -> tuple[np.ndarray, np.ndarray]:
     """
     g = ghost
     interior = kind[g:-g, g:-g] == CellKind.WALL
-    gy, gx = np.gradient(_smooth(interior.astype(float)))
+    smooth = np.pad(_smooth(interior.astype(float)), 1, mode="edge")  # np.gradient needs 2+ cells a side
+    gy, gx = (g[1:-1, 1:-1] for g in np.gradient(smooth))
     jxx = _smooth(gx * gx)
     jxy = _smooth(gx * gy)
     jyy = _smooth(gy * gy)

@@ -65,3 +65,11 @@ def test_hand_back_weights_sum_to_one_and_stay_near():
     assert np.all(np.hypot(rec_j - src_j[s_of], rec_i - src_i[s_of]) <= 4.0)
     assert np.all(mask[rec_j, rec_i] == CellKind.FLUID)
     assert np.all(mask[src_j, src_i] == CellKind.WALL)
+
+
+def test_a_single_row_of_cells_has_orientations_too():
+    # a 1D shock tube is one row of cells; the orientation estimate must not need two
+    mask = np.zeros((1, 40), np.uint8)
+    mask[0, 30:] = CellKind.WALL
+    nx, ny = wall_normals(_padded(mask), 2)
+    assert nx.shape == (5, 44) and np.all(np.isfinite(nx)) and np.all(np.isfinite(ny))
