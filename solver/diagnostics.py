@@ -167,7 +167,10 @@ def _read_line(sim: Simulation, station: Station, shift_cells: float) -> Station
     jj, ii, w, (nx_, ny_) = _samples(sim, station, shift_cells)
     s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
     rho, u, v, p = (sim.W[c][s][jj, ii] for c in range(4))
-    gas_cells = sim.mask[jj, ii] != CellKind.WALL
+    # the station's gas cross-section is that of its own line: a shifted line samples the same
+    # stretch of it, so a station at a nozzle's exit plane does not take in the gas beside the lip
+    c_jj, c_ii, _, _ = _samples(sim, station, 0.0) if shift_cells else (jj, ii, None, None)
+    gas_cells = (sim.mask[jj, ii] != CellKind.WALL) & (sim.mask[c_jj, c_ii] != CellKind.WALL)
     w = np.where(gas_cells, w, 0.0)
     area = float(w.sum())
     if area <= 0.0:
