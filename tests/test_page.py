@@ -169,8 +169,8 @@ def load_through_upload(page, doc: dict, tmp_path: Path) -> None:
 
 
 def pause(page) -> None:
-    if page.evaluate("window.shockslate.state") == "running":
-        page.click("#run-toggle")
+    # an explicit intent: a toggle read against a state that is changing could run instead of pause
+    page.evaluate("window.shockslate.send('pause')")
     page.wait_for_function("window.shockslate.status && window.shockslate.status.state !== 'running'", timeout=WAIT_MS)
 
 
@@ -227,8 +227,9 @@ def wait_shapes(page, n: int) -> None:
 
 def test_frames_render_and_screenshot(page):
     """The default scenario flows and the picture is a real image: many colours, not the empty canvas."""
-    if page.evaluate("window.shockslate.state") != "running":
-        page.click("#run-toggle")
+    # an explicit run intent, not the toggle: the server may finish warming up and start running between
+    # reading the state and clicking, and the toggle would then pause it
+    page.evaluate("window.shockslate.send('run')")
     page.wait_for_function("window.shockslate.frame && window.shockslate.frame.step > 20", timeout=WAIT_MS)
     page.wait_for_function("window.shockslate.framesDrawn > 3", timeout=WAIT_MS)
     stats = page.evaluate(
