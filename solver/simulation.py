@@ -352,7 +352,8 @@ class Simulation:
             kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
             kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux)
             kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux)
-            kernels.update_stage(self.U, self.U0, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
+            # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
+            kernels.update_stage(self.U, self.U0 if a != 0.0 else self.U, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
                                  self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
             kernels.return_wall_imbalance(self.U, self.W, self.Fx, self.Gy, *self.wall_return[:2], self._r_cell,
