@@ -458,12 +458,7 @@ class Session:
         self._commit(new, lambda s: None)
 
     def remove_station(self, name: str) -> None:
-        doc = self._doc()
-        names = [st["name"] for st in doc["stations"]]
-        if name not in names:
-            raise RequestError("name", name, "one of the stations: " + (", ".join(names) or "(there are none)"))
-        del doc["stations"][names.index(name)]
-        self._commit(self._validated(doc), lambda s: None)
+        self._remove_named("stations", name)
 
     def add_probe(self, name: str, x_m: float, y_m: float) -> None:
         doc = self._doc()
@@ -476,11 +471,15 @@ class Session:
         self._commit(new, lambda s: None)
 
     def remove_probe(self, name: str) -> None:
+        self._remove_named("probes", name)
+
+    def _remove_named(self, key: str, name: str) -> None:
+        """Remove the station or probe (`key`) of this name from the scenario."""
         doc = self._doc()
-        names = [pr["name"] for pr in doc["probes"]]
+        names = [item["name"] for item in doc[key]]
         if name not in names:
-            raise RequestError("name", name, "one of the probes: " + (", ".join(names) or "(there are none)"))
-        del doc["probes"][names.index(name)]
+            raise RequestError("name", name, f"one of the {key}: " + (", ".join(names) or "(there are none)"))
+        del doc[key][names.index(name)]
         self._commit(self._validated(doc), lambda s: None)
 
     # ------------------------------------------------------------------ reading the flow

@@ -101,15 +101,3 @@ def cmd_check(args: argparse.Namespace) -> int:
     print(f"ok: {s.name} ({s.mode}, {len(s.sketch.shapes)} shapes, {len(s.stations)} stations, "
           f"{len(s.probes)} probes, end time {s.end_time_s:g} s)")
     return EXIT_OK
-
-
-def main(argv: list[str] | None = None) -> int:
-    """Stand-alone entry for these sub-commands (`python -m solver.batch_cli ...`)."""
-    parser = argparse.ArgumentParser(prog="shockslate")
-    add_batch_commands(parser.add_subparsers(dest="command", required=True))
-    args = parser.parse_args(argv)
-    return args.func(args)
-
-
-if __name__ == "__main__":
-    sys.exit(main())

@@ -105,15 +105,3 @@ def cmd_sweep(args: argparse.Namespace) -> int:
     if result.interrupted:
         return EXIT_INTERRUPTED
     return EXIT_OK if failed == 0 else EXIT_FAILED
-
-
-def main(argv: list[str] | None = None) -> int:
-    """Stand-alone entry (`python -m solver.sweep_cli sweep ...`)."""
-    parser = argparse.ArgumentParser(prog="shockslate")
-    add_sweep_command(parser.add_subparsers(dest="command", required=True))
-    args = parser.parse_args(argv)
-    return args.func(args)
-
-
-if __name__ == "__main__":
-    sys.exit(main())

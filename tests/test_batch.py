@@ -20,6 +20,7 @@ import numba
 import numpy as np
 import pytest
 
+from server.cli import main as cli_main
 from solver import batch, batch_cli, export, relations, riemann
 from solver.gas import AIR
 from solver.kinds import CellKind
@@ -169,19 +170,19 @@ def test_nozzle_summary_carries_the_theory_block(tmp_path):
 def test_cli_check_scenarios_and_run(tmp_path, capsys):
     good = tmp_path / "ok.json"
     good.write_text(json.dumps(scenario_to_dict(load_builtin("wedge_oblique_shock"))))
-    assert batch_cli.main(["check", str(good)]) == batch_cli.EXIT_OK
+    assert cli_main(["check", str(good)]) == batch_cli.EXIT_OK
     assert "ok: wedge_oblique_shock" in capsys.readouterr().out
     bad = tmp_path / "bad.json"
     doc = scenario_to_dict(load_builtin("wedge_oblique_shock"))
     doc["conditions"]["stream"]["mach"] = -1.0
     bad.write_text(json.dumps(doc))
-    assert batch_cli.main(["check", str(bad)]) == batch_cli.EXIT_BAD_INPUT
+    assert cli_main(["check", str(bad)]) == batch_cli.EXIT_BAD_INPUT
     assert "conditions.stream.mach = -1.0" in capsys.readouterr().err
-    assert batch_cli.main(["scenarios"]) == batch_cli.EXIT_OK
+    assert cli_main(["scenarios"]) == batch_cli.EXIT_OK
     listing = capsys.readouterr().out
     assert "nozzle_sea_level" in listing and "forward_step_mach3" in listing
     out = tmp_path / "run"
-    code = batch_cli.main(["run", "wedge_oblique_shock", "--steps", "3", "--resolution", "60", "--out", str(out),
+    code = cli_main(["run", "wedge_oblique_shock", "--steps", "3", "--resolution", "60", "--out", str(out),
                            "--view", "schlieren"])
     assert code == batch_cli.EXIT_OK
     assert json.loads((out / "summary.json").read_text())["steps"] == 3

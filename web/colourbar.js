@@ -31,11 +31,8 @@ export function tickLabels(ticks) {
   return ticks.map((t) => t.toFixed(decimals).replace("-", "−"));
 }
 
-/**
- * Draw the bar on `canvas` (CSS size read from the element) for a range [minShown, maxShown]
- * in display units.
- */
-export function drawColourBar(canvas, mapName, minShown, maxShown) {
+/** Size a canvas's backing store to its CSS size times the pixel ratio; returns a cleared context in CSS pixels. */
+export function fitCanvas(canvas) {
   const dpr = window.devicePixelRatio || 1;
   const w = canvas.clientWidth, h = canvas.clientHeight;
   if (canvas.width !== Math.round(w * dpr) || canvas.height !== Math.round(h * dpr)) {
@@ -45,6 +42,15 @@ export function drawColourBar(canvas, mapName, minShown, maxShown) {
   const ctx = canvas.getContext("2d");
   ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
   ctx.clearRect(0, 0, w, h);
+  return { ctx, w, h };
+}
+
+/**
+ * Draw the bar on `canvas` (CSS size read from the element) for a range [minShown, maxShown]
+ * in display units.
+ */
+export function drawColourBar(canvas, mapName, minShown, maxShown) {
+  const { ctx, w, h } = fitCanvas(canvas);
   const pad = 12, barH = 14;
   const barW = w - 2 * pad;
   for (let k = 0; k < barW; k++) {

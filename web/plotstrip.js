@@ -1,7 +1,7 @@
 // A small line plot for the strip under the picture: probe histories against sim time, or a
 // distribution along a station or the axis with the isentropic 1D curve beside it.
 
-import { niceTicks, tickLabels } from "./colourbar.js";
+import { fitCanvas, niceTicks, tickLabels } from "./colourbar.js";
 
 export const SERIES_COLOURS = ["#ffd447", "#52d0f0", "#ff6b8b", "#8fe07e", "#c9b6ff", "#ff9f43"];
 
@@ -10,15 +10,7 @@ export const SERIES_COLOURS = ["#ffd447", "#52d0f0", "#ff6b8b", "#8fe07e", "#c9b
  * CSS size; an empty plot says `emptyText`.
  */
 export function drawPlot(canvas, series, axes, emptyText = "nothing to plot yet") {
-  const dpr = window.devicePixelRatio || 1;
-  const w = canvas.clientWidth, h = canvas.clientHeight;
-  if (canvas.width !== Math.round(w * dpr) || canvas.height !== Math.round(h * dpr)) {
-    canvas.width = Math.round(w * dpr);
-    canvas.height = Math.round(h * dpr);
-  }
-  const ctx = canvas.getContext("2d");
-  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
-  ctx.clearRect(0, 0, w, h);
+  const { ctx, w, h } = fitCanvas(canvas);
   ctx.font = "11px system-ui, sans-serif";
   const left = 58, right = 10, top = 10, bottom = 30;
   const pw = w - left - right, ph = h - top - bottom;
