@@ -25,8 +25,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from solver import sweep  # noqa: E402
-from solver.scenario import load_builtin  # noqa: E402
+from shockslate.solver import sweep  # noqa: E402
+from shockslate.solver.scenario import load_builtin  # noqa: E402
 
 
 def plan_for(cases: int, nx: int, until_s: float) -> sweep.SweepPlan:

@@ -14,9 +14,9 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
-from solver import relations  # noqa: E402
-from solver.gas import AIR, HOT_PRODUCTS  # noqa: E402
-from solver.scenario import parse_scenario, scenario_to_dict, write_schema  # noqa: E402
+from shockslate.solver import relations  # noqa: E402
+from shockslate.solver.gas import AIR, HOT_PRODUCTS  # noqa: E402
+from shockslate.solver.scenario import parse_scenario, scenario_to_dict, write_schema  # noqa: E402
 
 ILLUSTRATIVE = "All numbers are illustrative choices, plausible for the trade, not data of a real engine or rig."
 SEA_LEVEL = {"p_pa": 101325.0, "t_k": 288.15}  # ISA sea level (common practice)

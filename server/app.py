@@ -13,6 +13,7 @@ import re
 import time
 import webbrowser
 from dataclasses import dataclass, field
+from importlib import resources
 from pathlib import Path
 from typing import Any
 
@@ -21,7 +22,7 @@ from fastapi.responses import FileResponse, JSONResponse
 from starlette.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Receive, Scope, Send
 
-from solver import scenario as scn
+from shockslate.solver import scenario as scn
 
 from . import protocol as p
 from .dispatch import Dispatcher, hello_message
@@ -35,7 +36,8 @@ from .session import Session, warm_kernels
 
 log = logging.getLogger("shockslate")
 
-WEB_DIR = Path(__file__).resolve().parent.parent / "web"
+#: The page: package data of shockslate.web (web/ in a checkout).
+WEB_DIR = Path(str(resources.files("shockslate.web")))
 #: Close code for a refused connection (RFC 6455 'policy violation').
 POLICY_VIOLATION = 1008
 

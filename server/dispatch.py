@@ -10,8 +10,8 @@ from __future__ import annotations
 import asyncio
 from typing import Any, Awaitable, Callable
 
-from solver import scenario as scn
-from solver.fields import VIEWS
+from shockslate.solver import scenario as scn
+from shockslate.solver.fields import VIEWS
 
 from . import protocol as p
 from .errors import RequestError

@@ -13,10 +13,10 @@ from pathlib import Path
 
 import numpy as np
 
-from solver import scenario as scn
-from solver.diagnostics import Station, station_profile
-from solver.fields import VIEWS
-from solver.simulation import Simulation
+from shockslate.solver import scenario as scn
+from shockslate.solver.diagnostics import Station, station_profile
+from shockslate.solver.fields import VIEWS
+from shockslate.solver.simulation import Simulation
 
 from .frames import view_field
 from .persistence import write_atomically

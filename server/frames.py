@@ -12,8 +12,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from solver.fields import VIEWS, derived
-from solver.gas import Gas
+from shockslate.solver.fields import VIEWS, derived
+from shockslate.solver.gas import Gas
 
 MAGIC = b"SSF1"
 #: magic, header length, width, height, view index, encoding, reserved, min, max, time_s, step.

@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 from starlette.websockets import WebSocket
 
-from solver.kinds import CellKind
+from shockslate.solver.kinds import CellKind
 
 from . import frames
 from .protocol import OVERLAYS, dumps

@@ -17,7 +17,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from solver import scenario as scn
+from shockslate.solver import scenario as scn
 
 from .errors import RequestError
 

@@ -13,7 +13,7 @@ from typing import Annotated, Any, Literal, Optional, Union
 
 from pydantic import BaseModel, ConfigDict, Field, TypeAdapter, ValidationError, model_validator
 
-from solver.fields import VIEWS
+from shockslate.solver.fields import VIEWS
 
 from .errors import RequestError
 

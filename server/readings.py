@@ -13,12 +13,12 @@ from typing import Any
 
 import numpy as np
 
-from solver import relations
-from solver import scenario as scn
-from solver.diagnostics import Station, read_probe, read_station, station_profile
-from solver.domain import Domain
-from solver.kinds import CellKind
-from solver.simulation import GHOST, Simulation
+from shockslate.solver import relations
+from shockslate.solver import scenario as scn
+from shockslate.solver.diagnostics import Station, read_probe, read_station, station_profile
+from shockslate.solver.domain import Domain
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.simulation import GHOST, Simulation
 
 
 @dataclass(frozen=True)

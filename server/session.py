@@ -22,14 +22,14 @@ from typing import Any, Callable
 
 import numpy as np
 
-from solver import scenario as scn
-from solver.diagnostics import Station, read_probe, station_profile
-from solver.domain import Domain
-from solver.errors import SolverDiverged
-from solver.gas import PRESETS, Gas
-from solver.raster import rasterise
-from solver.shapes import shape_from_dict
-from solver.simulation import Simulation
+from shockslate.solver import scenario as scn
+from shockslate.solver.diagnostics import Station, read_probe, station_profile
+from shockslate.solver.domain import Domain
+from shockslate.solver.errors import SolverDiverged
+from shockslate.solver.gas import PRESETS, Gas
+from shockslate.solver.raster import rasterise
+from shockslate.solver.shapes import shape_from_dict
+from shockslate.solver.simulation import Simulation
 
 from . import readings
 from .errors import RequestError
@@ -523,9 +523,9 @@ def warm_kernels() -> float:
 
     Called at server start in a worker thread, so the first real burst does not stall for compilation.
     """
-    from solver.kinds import CellKind
-    from solver.shapes import Segment, Sketch
-    from solver.simulation import Setup
+    from shockslate.solver.kinds import CellKind
+    from shockslate.solver.shapes import Segment, Sketch
+    from shockslate.solver.simulation import Setup
 
     start = time.perf_counter()
     domain = Domain(0.0, 1.0, 0.0, 0.25, 16)

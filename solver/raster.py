@@ -17,9 +17,9 @@ import math
 import numpy as np
 from numba import njit
 
-from solver.domain import Domain
-from solver.kinds import PAINTABLE, CellKind
-from solver.shapes import Circle, Polygon, Rectangle, Segment, Shape, Sketch, Stroke
+from shockslate.solver.domain import Domain
+from shockslate.solver.kinds import PAINTABLE, CellKind
+from shockslate.solver.shapes import Circle, Polygon, Rectangle, Segment, Shape, Sketch, Stroke
 
 #: Smallest half-width of a painted path, in cells (see the module docstring for why > 0.5).
 MIN_HALF_WIDTH_CELLS = 0.75

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import json
 import math
+from importlib import resources
 from pathlib import Path
 from typing import Annotated, Any, Literal, Optional, Union
 
@@ -27,8 +28,8 @@ from .raster import rasterise
 from .shapes import MAX_COORD_M, Sketch, shape_from_dict
 from .simulation import Edges, Setup, Simulation
 
-#: Folder of the built-in scenario files (repository root / scenarios).
-SCENARIO_DIR = Path(__file__).resolve().parent.parent / "scenarios"
+#: Folder of the built-in scenario files (package data of shockslate.scenarios; scenarios/ in a checkout).
+SCENARIO_DIR = Path(str(resources.files("shockslate.scenarios")))
 #: The scenario the server opens with: over-expanded axisymmetric nozzle into sea-level air.
 DEFAULT_SCENARIO = "nozzle_sea_level"
 SCHEMA_FILE = "schema.json"

@@ -10,7 +10,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Union
 
-from solver.kinds import PAINTABLE
+from shockslate.solver.kinds import PAINTABLE
 
 Point = tuple[float, float]
 

@@ -25,7 +25,7 @@ is a row with its error, and the other cases go on.
 Outputs in the sweep folder: sweep.csv (one row per case: case number, varied values, summary figures with units
 in the column names, status, error, folder), sweep.json (the plan and the same rows) and sweep_report.html
 (self-contained; plots of each summary figure against each varied value and, for a reservoir-fed nozzle, thrust
-coefficient and mass flow beside the ideal 1D curves over the same range from solver.relations).
+coefficient and mass flow beside the ideal 1D curves over the same range from shockslate.solver.relations).
 """
 from __future__ import annotations
 

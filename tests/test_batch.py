@@ -20,13 +20,14 @@ import numba
 import numpy as np
 import pytest
 
-from server.cli import main as cli_main
-from solver import batch, batch_cli, export, relations, riemann
-from solver.gas import AIR
-from solver.kinds import CellKind
-from solver.report import CAUTION
-from solver.scenario import build_simulation, load_builtin, parse_scenario, scenario_to_dict, station_by_role
-from solver import nozzle_report
+from shockslate.server.cli import main as cli_main
+from shockslate.server.cli import batch as batch_cli
+from shockslate.solver import batch, export, relations, riemann
+from shockslate.solver.gas import AIR
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.report import CAUTION
+from shockslate.solver.scenario import build_simulation, load_builtin, parse_scenario, scenario_to_dict, station_by_role
+from shockslate.solver import nozzle_report
 
 
 @pytest.fixture(scope="module", autouse=True)
@@ -135,8 +136,8 @@ def test_ctrl_c_stops_cleanly_and_keeps_files(tmp_path):
 
 
 def test_divergence_is_reported_not_raised(tmp_path, monkeypatch):
-    from solver.errors import SolverDiverged
-    from solver.simulation import Simulation
+    from shockslate.solver.errors import SolverDiverged
+    from shockslate.solver.simulation import Simulation
 
     real_step = Simulation.step
 

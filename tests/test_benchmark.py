@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from solver.benchmark import _baseline_module, blast_initial, build_box
+from shockslate.bench.solver_bench import _baseline_module, blast_initial, build_box
 
 
 def test_numpy_baseline_matches_the_solver():

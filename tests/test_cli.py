@@ -7,7 +7,7 @@ import sys
 
 import pytest
 
-from server.cli import build_parser, main
+from shockslate.server.cli import build_parser, main
 
 
 def test_every_documented_command_is_there():
@@ -22,7 +22,7 @@ def test_scenarios_lists_the_built_ins(capsys):
 
 
 def test_check_accepts_a_good_file_and_names_the_path_in_a_bad_one(tmp_path, capsys):
-    from solver.scenario import builtin_path
+    from shockslate.solver.scenario import builtin_path
 
     assert main(["check", str(builtin_path("shock_tube_reflection"))]) == 0
     doc = json.loads(builtin_path("shock_tube_reflection").read_text())
@@ -42,7 +42,7 @@ def test_serve_refuses_a_bad_port(capsys):
 def test_console_script_runs_a_short_batch(tmp_path):
     # the installed entry point, in a fresh process, as a user would call it
     out = tmp_path / "out"
-    cmd = [sys.executable, "-c", "import sys; from server.cli import main; sys.exit(main(sys.argv[1:]))",
+    cmd = [sys.executable, "-c", "import sys; from shockslate.server.cli import main; sys.exit(main(sys.argv[1:]))",
            "run", "shock_tube_reflection", "--steps", "5", "--resolution", "80", "--out", str(out)]
     done = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
     assert done.returncode == 0, done.stderr

@@ -10,11 +10,11 @@ import math
 import numpy as np
 import pytest
 
-from solver.conditions import Ambient, Conditions, Stream, held_primitive
-from solver.diagnostics import Station, read_probe, read_station, station_profile, totals
-from solver.domain import Domain
-from solver.kinds import CellKind
-from solver.simulation import Edges, Setup, Simulation
+from shockslate.solver.conditions import Ambient, Conditions, Stream, held_primitive
+from shockslate.solver.diagnostics import Station, read_probe, read_station, station_profile, totals
+from shockslate.solver.domain import Domain
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.simulation import Edges, Setup, Simulation
 
 
 def _duct(mode: str, edge_top: str = "wall"):

@@ -12,10 +12,10 @@ import xml.etree.ElementTree as ET
 import numpy as np
 import pytest
 
-from solver import export
-from solver.diagnostics import read_probe, read_station, station_profile
-from solver.kinds import CellKind
-from solver.scenario import build_simulation, parse_scenario, to_stations
+from shockslate.solver import export
+from shockslate.solver.diagnostics import read_probe, read_station, station_profile
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.scenario import build_simulation, parse_scenario, to_stations
 
 
 @pytest.fixture(scope="module")

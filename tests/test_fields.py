@@ -4,9 +4,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from solver.fields import VIEWS, derived
-from solver.gas import AIR
-from solver.kinds import CellKind
+from shockslate.solver.fields import VIEWS, derived
+from shockslate.solver.gas import AIR
+from shockslate.solver.kinds import CellKind
 
 
 def test_views_of_a_solid_body_rotation():

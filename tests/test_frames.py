@@ -11,8 +11,8 @@ import struct
 import numpy as np
 import pytest
 
-from server import frames
-from solver.fields import VIEWS
+from shockslate.server import frames
+from shockslate.solver.fields import VIEWS
 
 
 def test_header_is_48_bytes_little_endian_and_round_trips():
@@ -126,9 +126,9 @@ def test_velocity_arrows_sample_gas_cells_only():
 # ----------------------------------------------------------------------------- delivery (server/hub.py)
 
 def _snapshot(version: int):
-    from server.session import FlowSnapshot
-    from solver.domain import Domain
-    from solver.gas import AIR
+    from shockslate.server.session import FlowSnapshot
+    from shockslate.solver.domain import Domain
+    from shockslate.solver.gas import AIR
 
     dom = Domain(0.0, 0.4, 0.0, 0.1, 16)
     shape = dom.shape
@@ -160,7 +160,7 @@ class _Socket:
 def test_a_stuck_tab_does_not_hold_up_another_and_then_gets_only_the_newest_frame():
     import asyncio
 
-    from server.hub import Hub, ViewChoice
+    from shockslate.server.hub import Hub, ViewChoice
 
     async def until(condition) -> None:
         for _ in range(500):  # a bound on waiting, not a timing check
@@ -196,7 +196,7 @@ def test_a_stuck_tab_does_not_hold_up_another_and_then_gets_only_the_newest_fram
 def test_frames_prepared_with_the_snapshot_serve_every_tab_of_that_view():
     import asyncio
 
-    from server.hub import Hub, ViewChoice
+    from shockslate.server.hub import Hub, ViewChoice
 
     async def scenario():
         hub = Hub()

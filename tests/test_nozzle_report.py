@@ -13,8 +13,8 @@ import math
 import numpy as np
 import pytest
 
-from solver import nozzle_report as nr
-from solver.scenario import build_simulation, parse_scenario, station_by_role
+from shockslate.solver import nozzle_report as nr
+from shockslate.solver.scenario import build_simulation, parse_scenario, station_by_role
 
 DX = 0.001
 

@@ -60,7 +60,7 @@ def server_url(tmp_path_factory):
     env.setdefault("NUMBA_CACHE_DIR", str(ROOT / ".numba_cache"))
     with open(log_path, "wb") as log:
         proc = subprocess.Popen(
-            [sys.executable, "-m", "server.cli", "serve", "--host", "127.0.0.1", "--port", str(port),
+            [sys.executable, "-m", "shockslate.server.cli", "serve", "--host", "127.0.0.1", "--port", str(port),
              "--data-dir", str(data_dir)],
             cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
     url = f"http://127.0.0.1:{port}"

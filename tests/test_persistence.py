@@ -11,10 +11,10 @@ import os
 import pytest
 from starlette.testclient import TestClient
 
-from server.app import ServerConfig, create_app
-from server.errors import RequestError
-from server.persistence import ScenarioStore, check_name, default_data_dir, scenario_from_argument
-from solver import scenario as scn
+from shockslate.server.app import ServerConfig, create_app
+from shockslate.server.errors import RequestError
+from shockslate.server.persistence import ScenarioStore, check_name, default_data_dir, scenario_from_argument
+from shockslate.solver import scenario as scn
 
 BASE = "http://127.0.0.1:8765"
 WS = "ws://127.0.0.1:8765/ws"

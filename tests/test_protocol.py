@@ -13,12 +13,12 @@ import numpy as np
 import pytest
 from starlette.testclient import TestClient
 
-from server import protocol
-from server.app import ServerConfig, create_app
-from server.frames import decode_frame
-from server.security import Access
-from solver import scenario as scn
-from solver.fields import VIEWS
+from shockslate.server import protocol
+from shockslate.server.app import ServerConfig, create_app
+from shockslate.server.frames import decode_frame
+from shockslate.server.security import Access
+from shockslate.solver import scenario as scn
+from shockslate.solver.fields import VIEWS
 from scenario_docs import duct_doc as shared_duct_doc
 
 BASE = "http://127.0.0.1:8765"
@@ -442,7 +442,7 @@ def test_an_unexpected_solver_error_pauses_the_run_and_keeps_the_server(server, 
 
 
 def test_a_failing_status_figure_neither_drops_tabs_nor_stops_requests(server, monkeypatch):
-    from server import readings
+    from shockslate.server import readings
 
     def broken(*args, **kwargs):
         raise RuntimeError("simulated bug in a status figure")

@@ -18,10 +18,10 @@ import math
 import numpy as np
 import pytest
 
-from solver.domain import Domain
-from solver.kinds import CellKind
-from solver.raster import MIN_HALF_WIDTH_CELLS, footprint, paint, paint_mirrored, rasterise
-from solver.shapes import Circle, Polygon, Rectangle, Segment, Sketch, Stroke
+from shockslate.solver.domain import Domain
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.raster import MIN_HALF_WIDTH_CELLS, footprint, paint, paint_mirrored, rasterise
+from shockslate.solver.shapes import Circle, Polygon, Rectangle, Segment, Sketch, Stroke
 
 FLUID, WALL, RESERVOIR, STREAM, AMBIENT = (
     CellKind.FLUID, CellKind.WALL, CellKind.RESERVOIR, CellKind.STREAM, CellKind.AMBIENT

@@ -1,6 +1,6 @@
 """Checks of solver.relations against published tables, a reference library and physical identities.
 
-Sources (keys as in /work/shared/reference/README.md):
+Sources (keys as in tests/data/README.md):
   [N]  NACA Report 1135, Ames Research Staff, "Equations, Tables, and Charts for Compressible Flow", 1953.
   [A]  J. D. Anderson, "Modern Compressible Flow", 3rd ed. (equation numbers from memory).
   [SB] G. P. Sutton and O. Biblarz, "Rocket Propulsion Elements", ch. 3 (equation numbers from memory).
@@ -10,7 +10,7 @@ Sources (keys as in /work/shared/reference/README.md):
   ``find_shockwave_area_ratio`` drops gamma in one internal call (see the reference README), so it is not used;
   the nozzle back-pressure limits are rebuilt from its isentropic and normal-shock functions instead.
 
-Reference values come from /work/shared/reference/check_values.csv: ``value_full`` is compared tightly, and
+Reference values come from tests/data/check_values.csv (copied from the team reference set, sources in each row): ``value_full`` is compared tightly, and
 ``published_value`` (the table figure) is compared at the precision it is printed with.
 """
 from __future__ import annotations
@@ -26,9 +26,9 @@ from pygasflow import isentropic as pg_ise
 from pygasflow import shockwave as pg_sw
 from pygasflow.solvers.de_laval import nozzle_mass_flow_rate as pg_mass_flow
 
-from solver import relations as rel
+from shockslate.solver import relations as rel
 
-CSV_PATH = Path("/work/shared/reference/check_values.csv")
+CSV_PATH = Path(__file__).resolve().parent / "data" / "check_values.csv"
 GAMMAS = [1.1, 1.2, 1.3, 1.4, 5.0 / 3.0]
 RTOL = 1e-9  # the CSV values are double-precision evaluations of the same closed forms
 

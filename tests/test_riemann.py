@@ -1,11 +1,11 @@
 """Checks of the exact Riemann solver (solver.riemann).
 
-Sources (keys as in /work/shared/reference/README.md):
+Sources (keys as in tests/data/README.md):
   [T] E. F. Toro, "Riemann Solvers and Numerical Methods for Fluid Dynamics", 3rd ed., Springer, 2009, ch. 4:
       the five test problems of sec. 4.3.3 and their exact star values (table number from memory).
   [S] G. A. Sod, J. Comput. Phys. 27 (1978) 1-31 (initial data of Test 1).
   [N] NACA Report 1135 (normal-shock relations, used for a cross-check of the shock strength).
-Values are read from /work/shared/reference/check_values.csv: ``value_full`` is compared tightly, the published
+Values are read from tests/data/check_values.csv (copied from the team reference set, sources in each row): ``value_full`` is compared tightly, the published
 figure at the precision it is printed with. Self-consistency checks (Rankine-Hugoniot, isentropic fan) use only
 the conservation laws.
 """
@@ -19,10 +19,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from solver import relations
-from solver.riemann import StarState, exact_solution, sample, star_state, wave_speeds
+from shockslate.solver import relations
+from shockslate.solver.riemann import StarState, exact_solution, sample, star_state, wave_speeds
 
-CSV_PATH = Path("/work/shared/reference/check_values.csv")
+CSV_PATH = Path(__file__).resolve().parent / "data" / "check_values.csv"
 GAMMA = 1.4
 FIELD = {"p*": "p", "u*": "u", "rho*L": "rho_l", "rho*R": "rho_r"}
 

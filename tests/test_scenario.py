@@ -11,8 +11,8 @@ import math
 import numpy as np
 import pytest
 
-from solver.kinds import CellKind
-from solver.scenario import (
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.scenario import (
     DEFAULT_SCENARIO,
     SCENARIO_DIR,
     Scenario,

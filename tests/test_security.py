@@ -12,9 +12,9 @@ import pytest
 from starlette.testclient import TestClient
 from starlette.websockets import WebSocketDisconnect
 
-from server.app import ServerConfig, create_app
-from server.security import Access, RateLimiter, is_loopback
-from solver import scenario as scn
+from shockslate.server.app import ServerConfig, create_app
+from shockslate.server.security import Access, RateLimiter, is_loopback
+from shockslate.solver import scenario as scn
 
 BASE = "http://127.0.0.1:8765"
 WS = "ws://127.0.0.1:8765/ws"

@@ -7,13 +7,13 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from server import readings
-from server.errors import RequestError
-from server.session import DIVERGED, PAUSED, RUNNING, TRANSITIONS, Session, TransitionError, SessionState
-from solver import relations
-from solver import scenario as scn
-from solver.kinds import CellKind
-from solver.numerics import CFL_MAX
+from shockslate.server import readings
+from shockslate.server.errors import RequestError
+from shockslate.server.session import DIVERGED, PAUSED, RUNNING, TRANSITIONS, Session, TransitionError, SessionState
+from shockslate.solver import relations
+from shockslate.solver import scenario as scn
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.numerics import CFL_MAX
 
 from scenario_docs import duct_doc
 

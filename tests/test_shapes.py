@@ -9,7 +9,7 @@ import math
 
 import pytest
 
-from solver.shapes import (
+from shockslate.solver.shapes import (
     Circle,
     Polygon,
     Rectangle,

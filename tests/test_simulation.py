@@ -15,18 +15,18 @@ import math
 import numpy as np
 import pytest
 
-from solver import relations
-from solver.conditions import Ambient, Conditions, Reservoir, Stream, held_primitive
-from solver.diagnostics import Station, read_station, totals
-from solver.domain import Domain
-from solver.errors import SolverDiverged
-from solver.gas import AIR, Gas
-from solver.kinds import CellKind
-from solver.numerics import Numerics
-from solver.raster import rasterise
-from solver.riemann import exact_solution
-from solver.shapes import Circle, Polygon, Rectangle, Sketch
-from solver.simulation import Edges, Setup, Simulation
+from shockslate.solver import relations
+from shockslate.solver.conditions import Ambient, Conditions, Reservoir, Stream, held_primitive
+from shockslate.solver.diagnostics import Station, read_station, totals
+from shockslate.solver.domain import Domain
+from shockslate.solver.errors import SolverDiverged
+from shockslate.solver.gas import AIR, Gas
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.numerics import Numerics
+from shockslate.solver.raster import rasterise
+from shockslate.solver.riemann import exact_solution
+from shockslate.solver.shapes import Circle, Polygon, Rectangle, Sketch
+from shockslate.solver.simulation import Edges, Setup, Simulation
 
 # (name, left (rho, u, p), right (rho, u, p), diaphragm x0, output time) -- [T] sec. 4.3.3, [S]
 RIEMANN_CASES = [

@@ -1,4 +1,4 @@
-"""Parameter sweeps on Dask's distributed scheduler (solver/sweep.py, solver/sweep_cli.py): real clusters only.
+"""Parameter sweeps on Dask's distributed scheduler (solver/sweep.py, server/cli/sweep.py): real clusters only.
 
 Sources:
 [SB] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, ch. 3 (thrust F = mdot u_e + (p_e - p_a) A_e,
@@ -29,11 +29,11 @@ from distributed import Client
 from pygasflow import isentropic as pg_ise
 from pygasflow.solvers.de_laval import nozzle_mass_flow_rate as pg_mass_flow
 
-from server.cli import main as shockslate_main
-from solver import sweep
-from solver.gas import PRESETS
-from solver.report import CAUTION
-from solver.scenario import load_builtin
+from shockslate.server.cli import main as shockslate_main
+from shockslate.solver import sweep
+from shockslate.solver.gas import PRESETS
+from shockslate.solver.report import CAUTION
+from shockslate.solver.scenario import load_builtin
 
 TINY_NX = 60
 TINY_UNTIL_S = 0.004  # about 80 steps of the blast room at nx 60

@@ -6,11 +6,11 @@ import math
 import numpy as np
 import pytest
 
-from solver.domain import Domain
-from solver.kinds import CellKind
-from solver.raster import rasterise
-from solver.shapes import Polygon, Rectangle, Sketch
-from solver.wall_normals import imbalance_receivers, wall_normals
+from shockslate.solver.domain import Domain
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.raster import rasterise
+from shockslate.solver.shapes import Polygon, Rectangle, Sketch
+from shockslate.solver.wall_normals import imbalance_receivers, wall_normals
 
 
 def _padded(mask):

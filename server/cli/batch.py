@@ -10,8 +10,8 @@ import sys
 import textwrap
 from pathlib import Path
 
-from .fields import VIEWS
-from .scenario import ScenarioError, builtin_names, builtin_path, load_builtin, load_scenario
+from shockslate.solver.fields import VIEWS
+from shockslate.solver.scenario import ScenarioError, builtin_names, builtin_path, load_builtin, load_scenario
 
 #: Exit codes: 0 done, 1 the run diverged or stalled, 2 bad input, 130 stopped with Ctrl+C (shell convention).
 EXIT_OK, EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
@@ -63,7 +63,7 @@ def add_batch_commands(subparsers) -> None:
 
 
 def cmd_run(args: argparse.Namespace) -> int:
-    from .batch import run_scenario  # matplotlib and friends only when running
+    from shockslate.solver.batch import run_scenario  # matplotlib and friends only when running
 
     try:
         summary = run_scenario(args.scenario, Path(args.out), until_s=args.until, steps=args.steps,

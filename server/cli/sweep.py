@@ -9,8 +9,8 @@ import argparse
 import sys
 from pathlib import Path
 
-from .batch_cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_INTERRUPTED, EXIT_OK, _positive_float, _positive_int
-from .scenario import ScenarioError
+from .batch import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_INTERRUPTED, EXIT_OK, _positive_float, _positive_int
+from shockslate.solver.scenario import ScenarioError
 
 EPILOG = """\
 examples:
@@ -60,7 +60,7 @@ def add_sweep_command(subparsers) -> argparse.ArgumentParser:
 
 
 def cmd_sweep(args: argparse.Namespace) -> int:
-    from . import sweep
+    from shockslate.solver import sweep
 
     def refuse(err: Exception) -> int:
         print(f"shockslate sweep: {err}", file=sys.stderr)

@@ -1,40 +1,28 @@
-"""The `shockslate` console command: `serve`, plus `bench` and the batch commands where they are installed.
+"""The `shockslate` console command: every sub-command is registered here, in one place.
 
-    shockslate serve [--host 127.0.0.1] [--port 8765] [--scenario NAME_OR_PATH] [--open]
-    shockslate bench [--serve]        (solver/benchmark.py; --serve: server/bench_serve.py)
-    shockslate run | scenarios | check (solver/batch_cli.py)
+    shockslate serve [--host 127.0.0.1] [--port 8765] [--scenario NAME_OR_PATH] [--open]   (this module)
+    shockslate run | scenarios | check                                                    (cli/batch.py)
+    shockslate sweep                                                                      (cli/sweep.py)
+    shockslate bench [--serve]              (bench/solver_bench.py; --serve: bench/serve_bench.py)
 
 Sub-commands set `func` (or `handler`) to a function of the parsed arguments returning the exit code.
 """
 from __future__ import annotations
 
 import argparse
-import importlib
 import sys
 from pathlib import Path
-from types import ModuleType
 
-from . import bench_serve
-from .protocol import MAX_MESSAGE_BYTES
-from .security import DEFAULT_HOST, DEFAULT_PORT, Access
+from shockslate.bench import serve_bench, solver_bench
+
+from ..protocol import MAX_MESSAGE_BYTES
+from ..security import DEFAULT_HOST, DEFAULT_PORT, Access
+from . import batch, sweep
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 #: uvicorn closes a connection (code 1009) above this size; below it, oversized messages get an error reply.
 WS_MAX_BYTES = 4 * MAX_MESSAGE_BYTES
 SWITCH_INTERVAL_S = 0.0005
-
-
-def optional_module(name: str) -> ModuleType | None:
-    """Import a sub-command module that another part of the project may not have yet.
-
-    Only the module itself being absent is tolerated; an import error inside it is a bug and is raised.
-    """
-    try:
-        return importlib.import_module(name)
-    except ModuleNotFoundError as err:
-        if err.name == name:
-            return None
-        raise
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -43,26 +31,11 @@ def build_parser() -> argparse.ArgumentParser:
         description="Local browser sandbox for 2D planar and axisymmetric compressible flow.")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     add_serve_command(sub)
-    benchmark = optional_module("solver.benchmark")
-    if benchmark is not None:
-        bench = benchmark.add_bench_command(sub)
-    else:
-        bench = sub.add_parser("bench", help="measure the live server (the solver benchmark is not installed)")
-        bench.set_defaults(func=lambda args: _no_solver_bench())
-    bench_serve.add_serve_bench(bench)
-    batch = optional_module("solver.batch_cli")
-    if batch is not None:
-        batch.add_batch_commands(sub)
-    sweep = optional_module("solver.sweep_cli")
-    if sweep is not None:
-        sweep.add_sweep_command(sub)
+    bench = solver_bench.add_bench_command(sub)
+    serve_bench.add_serve_bench(bench)
+    batch.add_batch_commands(sub)
+    sweep.add_sweep_command(sub)
     return parser
-
-
-def _no_solver_bench() -> int:
-    print("shockslate bench: the solver benchmark is not installed here; use `shockslate bench --serve`",
-          file=sys.stderr)
-    return EXIT_BAD_INPUT
 
 
 def add_serve_command(sub) -> argparse.ArgumentParser:
@@ -87,11 +60,11 @@ def add_serve_command(sub) -> argparse.ArgumentParser:
 def serve(args: argparse.Namespace) -> int:
     import uvicorn
 
-    from solver.scenario import ScenarioError
+    from shockslate.solver.scenario import ScenarioError
 
-    from .app import ServerConfig, create_app
-    from .errors import RequestError
-    from .persistence import ScenarioStore, scenario_from_argument
+    from ..app import ServerConfig, create_app
+    from ..errors import RequestError
+    from ..persistence import ScenarioStore, scenario_from_argument
 
     if not (0 < args.port < 65536):
         print(f"shockslate serve: --port = {args.port} is not allowed: 1 to 65535", file=sys.stderr)

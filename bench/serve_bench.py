@@ -22,10 +22,9 @@ import time
 import urllib.request
 from pathlib import Path
 
-from .frames import WALL_LEVEL, decode_frame
+from shockslate.server.frames import WALL_LEVEL, decode_frame
 
 FRAME_W, FRAME_H = 512, 256
-ROOT = Path(__file__).resolve().parent.parent
 
 
 def add_serve_bench(parser: argparse.ArgumentParser) -> None:
@@ -72,7 +71,7 @@ def main(args: argparse.Namespace) -> int:
 
 def bench_scenario() -> dict:
     """The default nozzle with its domain made 2:1 and 512 cells across (512 x 256)."""
-    from solver import scenario as scn
+    from shockslate.solver import scenario as scn
 
     doc = scn.scenario_to_dict(scn.load_builtin(scn.DEFAULT_SCENARIO))
     d = doc["domain"]
@@ -104,12 +103,11 @@ class ServerProcess:
         self.url = f"http://127.0.0.1:{self.port}"
         self.log_path = self.folder / "server.log"
         env = dict(os.environ)
-        env.setdefault("NUMBA_CACHE_DIR", str(ROOT / ".numba_cache"))
         with open(self.log_path, "wb") as log:
             self.proc = subprocess.Popen(
-                [sys.executable, "-m", "server.cli", "serve", "--port", str(self.port), "--scenario", str(path),
+                [sys.executable, "-m", "shockslate.server.cli", "serve", "--port", str(self.port), "--scenario", str(path),
                  "--data-dir", str(self.folder / "data"), *(["--threads", str(threads)] if threads else [])],
-                cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
+                cwd=self.folder, env=env, stdout=log, stderr=subprocess.STDOUT)
 
     def wait_running(self, timeout_s: float = 180.0) -> dict:
         deadline = time.monotonic() + timeout_s

@@ -8,7 +8,6 @@ scheme in the same process and the same run, so ratios are fair on a noisy share
 from __future__ import annotations
 
 import argparse
-import importlib.util
 import json
 import os
 import statistics
@@ -30,12 +29,9 @@ GOALS = {
 
 
 def _baseline_module():
-    path = Path(__file__).resolve().parent.parent / "bench" / "numpy_baseline.py"
-    spec = importlib.util.spec_from_file_location("shockslate_numpy_baseline", path)
-    module = importlib.util.module_from_spec(spec)
-    assert spec.loader is not None
-    spec.loader.exec_module(module)
-    return module
+    from . import numpy_baseline
+
+    return numpy_baseline
 
 
 def blast_initial(nx: int, ny: int):
@@ -50,8 +46,8 @@ def blast_initial(nx: int, ny: int):
 
 
 def build_box(nx: int, ny: int):
-    from .domain import Domain
-    from .simulation import Edges, Setup, Simulation
+    from shockslate.solver.domain import Domain
+    from shockslate.solver.simulation import Edges, Setup, Simulation
 
     dom = Domain(0.0, 2.0, 0.0, 2.0 * ny / nx, nx)
     sim = Simulation(Setup(domain=dom, edges=Edges("wall", "wall", "wall", "wall")))
@@ -92,7 +88,7 @@ def measure_numpy(nx: int, ny: int, repeats: int) -> float:
 
 def measure_warm_start() -> float:
     """Seconds from starting a fresh Python process to the first finished step (warm JIT cache)."""
-    code = "from solver.benchmark import build_box; build_box(256, 128).step()"
+    code = "from shockslate.bench.solver_bench import build_box; build_box(256, 128).step()"
     env = dict(os.environ)
     times = []
     for _ in range(3):  # the first run may fill the cache
