@@ -1,6 +1,6 @@
 """Sweep throughput: cases per minute on a local Dask cluster against a plain sequential loop, in one run.
 
-    NUMBA_CACHE_DIR=.numba_cache .venv/bin/python bench/sweep_bench.py [--cases 8] [--workers 2] [--nx 160]
+    .venv/bin/python -m shockslate.bench.sweep_bench [--cases 8] [--workers 2] [--nx 160]
                                                                        [--until 0.0012] [--repeat 1]
 
 Eight cases of the over-expanded nozzle (nozzle_sea_level) over ambient pressure, at the resolution and end time
@@ -23,10 +23,9 @@ import tempfile
 import time
 from pathlib import Path
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from shockslate.solver import sweep  # noqa: E402
-from shockslate.solver.scenario import load_builtin  # noqa: E402
+from shockslate.solver import sweep
+from shockslate.solver.scenario import load_builtin
 
 
 def plan_for(cases: int, nx: int, until_s: float) -> sweep.SweepPlan:

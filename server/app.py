@@ -10,6 +10,7 @@ import asyncio
 import contextlib
 import logging
 import re
+import sys
 import time
 import webbrowser
 from dataclasses import dataclass, field
@@ -111,6 +112,8 @@ def starting_scenario(config: ServerConfig, store: ScenarioStore) -> tuple[scn.S
         return config.scenario, []
     restored = store.restore_current()
     warnings = [restored.warning] if restored.warning else []
+    for warning in warnings:
+        print(f"shockslate: {warning}", file=sys.stderr, flush=True)
     if restored.scenario is not None:
         return restored.scenario, warnings
     return scn.load_builtin(scn.DEFAULT_SCENARIO), warnings

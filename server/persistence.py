@@ -93,15 +93,34 @@ class ScenarioStore:
         write_atomically(self.current_path, scn.scenario_to_json(scenario))
 
     def restore_current(self) -> Restored:
-        """The scenario of the last session; a file that no longer validates is set aside, not lost."""
-        if not self.current_path.is_file():
+        """The scenario of the last session. Any damage to the file (bad bytes, nesting too deep, numbers too
+        long, a folder in its place, a document that no longer validates) sets it aside under a timestamped
+        name and says so: the server still starts, and the user's file is kept, not lost."""
+        if not os.path.lexists(self.current_path):
             return Restored(None)
         try:
+            if not self.current_path.is_file():
+                raise scn.ScenarioError(f"{CURRENT_FILE} is not a file")
             return Restored(scn.load_scenario(self.current_path))
-        except scn.ScenarioError as err:
-            aside = self.current_path.with_name(f"current.rejected-{time.strftime('%Y%m%d-%H%M%S')}.json")
-            os.replace(self.current_path, aside)
-            return Restored(None, f"the last scenario could not be restored and was kept as {aside.name}: {err}")
+        except Exception as err:  # noqa: BLE001 - whatever is wrong with the file, start clean and keep it
+            reason = err if isinstance(err, scn.ScenarioError) else _plain_reason(err)
+            aside = self._set_aside()
+            kept = f"it was kept as {aside}" if aside else "it could not be moved aside either"
+            return Restored(None, f"The scenario of the last session could not be restored ({reason}); {kept}. "
+                                  "The built-in default scenario was opened instead.")
+
+    def _set_aside(self) -> Path | None:
+        stamp = time.strftime("%Y%m%d-%H%M%S")
+        for n in range(100):
+            aside = self.current_path.with_name(f"current.damaged-{stamp}{'-' + str(n) if n else ''}.json")
+            if os.path.lexists(aside):
+                continue
+            try:
+                os.replace(self.current_path, aside)
+            except OSError:
+                return None
+            return aside
+        return None
 
     # ---------------------------------------------------------------- named
     def saved_path(self, name: str) -> Path:
@@ -146,6 +165,19 @@ class ScenarioStore:
                 description = f"(cannot be loaded: {err})"
             builtin.append({"name": name, "description": description})
         return {"builtin": builtin, "saved": [{"name": n} for n in self.saved_names()]}
+
+
+def _plain_reason(err: BaseException) -> str:
+    """A sentence for a file that could not even be read as JSON, without Python's wording."""
+    if isinstance(err, UnicodeDecodeError):
+        return "it is not UTF-8 text"
+    if isinstance(err, RecursionError):
+        return "its brackets are nested too deeply"
+    if isinstance(err, ValueError) and "digits" in str(err):
+        return "it holds a number with too many digits"
+    if isinstance(err, OSError):
+        return f"it could not be read: {err.strerror or 'input/output error'}"
+    return "it is not a readable scenario file"
 
 
 def scenario_from_argument(value: str, store: ScenarioStore) -> scn.Scenario:

@@ -66,8 +66,39 @@ def test_a_broken_current_file_is_set_aside_not_lost(tmp_path):
     store.current_path.write_text('{"name": "broken"}')
     restored = store.restore_current()
     assert restored.scenario is None and "could not be restored" in restored.warning
-    kept = [p for p in tmp_path.iterdir() if p.name.startswith("current.rejected-")]
+    kept = [p for p in tmp_path.iterdir() if p.name.startswith("current.damaged-")]
     assert len(kept) == 1 and kept[0].read_text() == '{"name": "broken"}'
+    assert kept[0].name in restored.warning
+
+
+DAMAGE = {
+    "not UTF-8": b'{"name": "\xff\xfe"}',
+    "nested too deeply": b"[" * 100_000 + b"]" * 100_000,
+    "a 5,000-digit number": b'{"name": "x", "end_time_s": ' + b"9" * 5000 + b"}",
+    "not JSON": b"\x00\x01 hello",
+}
+
+
+@pytest.mark.parametrize("damage", sorted(DAMAGE))
+def test_any_damage_to_the_autosave_is_set_aside_with_a_plain_reason(tmp_path, damage):
+    store = ScenarioStore(tmp_path)
+    store.current_path.write_bytes(DAMAGE[damage])
+    restored = store.restore_current()
+    assert restored.scenario is None
+    assert "Traceback" not in restored.warning and "Error" not in restored.warning
+    kept = [p for p in tmp_path.iterdir() if p.name.startswith("current.damaged-")]
+    assert len(kept) == 1 and kept[0].read_bytes() == DAMAGE[damage]
+    assert not store.current_path.exists()
+
+
+def test_a_folder_in_place_of_the_autosave_is_set_aside(tmp_path):
+    store = ScenarioStore(tmp_path)
+    store.current_path.mkdir()
+    (store.current_path / "inside.txt").write_text("kept")
+    restored = store.restore_current()
+    assert restored.scenario is None and "not a file" in restored.warning
+    kept = [p for p in tmp_path.iterdir() if p.name.startswith("current.damaged-")]
+    assert len(kept) == 1 and (kept[0] / "inside.txt").read_text() == "kept"
 
 
 def test_named_saves_stay_in_saved_and_builtins_load(tmp_path):
