@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import asyncio
 import contextlib
+import json
 import logging
 import re
 import sys
@@ -29,7 +30,7 @@ from . import protocol as p
 from .dispatch import Dispatcher, hello_message
 from .errors import RequestError
 from .exports import Exports
-from .hub import Hub
+from .hub import MAX_CLIENTS, Hub
 from .persistence import ScenarioStore
 from .runner import Runner
 from .security import Access, RateLimiter
@@ -41,6 +42,8 @@ log = logging.getLogger("shockslate")
 WEB_DIR = Path(str(resources.files("shockslate.web")))
 #: Close code for a refused connection (RFC 6455 'policy violation').
 POLICY_VIOLATION = 1008
+#: Close code for a connection refused because the server is full (RFC 6455 registry 'try again later').
+TRY_AGAIN_LATER = 1013
 
 
 @dataclass
@@ -165,6 +168,8 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
 
     @app.get("/health")
     async def health(request: Request) -> dict:
+        if not access.token_ok(request.query_params.get("token")):
+            raise HTTPException(status_code=403, detail="token required")
         parts: ServerParts = request.app.state.parts
         s, r = parts.session, parts.runner
         return {"status": "ok", "protocol": p.PROTOCOL_VERSION, "state": s.state.value, "time_s": s.sim.time_s,
@@ -206,6 +211,13 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
         return
     await websocket.accept()
     hub, runner = parts.hub, parts.runner
+    if len(hub.clients) >= MAX_CLIENTS:
+        err = RequestError("connection", len(hub.clients) + 1, f"at most {MAX_CLIENTS} tabs at once",
+                           f"This server already has {MAX_CLIENTS} tabs connected, the most it serves at once; "
+                           "close another tab and reload this one.")
+        await websocket.send_text(json.dumps(p.error_message("hello", err)))
+        await websocket.close(code=TRY_AGAIN_LATER, reason="too many tabs")
+        return
     client = hub.new_client(websocket)
     sender = asyncio.create_task(_run_sender(hub, client), name=f"sender-{client.id}")
     hub.send(client, hello_message(client, runner))

@@ -30,8 +30,11 @@ MAX_FRAMES_PER_S = 30.0
 #: Frames a tab may receive back to back after a late one (token bucket); the average stays at most 30/s.
 FRAME_BURST = 2.0
 OVERLAYS_PER_S = 4.0
-#: A client whose replies pile up beyond this is not reading; it is disconnected.
+#: A client whose replies pile up beyond this many messages or bytes is not reading; it is disconnected.
 MAX_QUEUED_MESSAGES = 2000
+MAX_QUEUED_BYTES = 16 * 1024 * 1024
+#: Tabs connected at once; one more is told so and closed (each tab costs frames and memory).
+MAX_CLIENTS = 32
 DEFAULT_VIEW = "mach"
 
 
@@ -61,6 +64,7 @@ class Client:
     last_overlay_t: float = 0.0
     frame_times: collections.deque = field(default_factory=lambda: collections.deque(maxlen=64))
     frames_sent: int = 0
+    queued_bytes: int = 0
     closed: bool = False
 
     def frames_per_s(self, now: float) -> float:
@@ -70,11 +74,18 @@ class Client:
         return (len(recent) - 1) / max(recent[-1] - recent[0], 1e-6)
 
     def queue(self, text: str) -> None:
-        if len(self.outbox) >= MAX_QUEUED_MESSAGES:
+        size = len(text)
+        if len(self.outbox) >= MAX_QUEUED_MESSAGES or self.queued_bytes + size > MAX_QUEUED_BYTES:
             self.closed = True
         else:
             self.outbox.append(text)
+            self.queued_bytes += size
         self.wake.set()
+
+    def next_queued(self) -> str:
+        text = self.outbox.popleft()
+        self.queued_bytes -= len(text)
+        return text
 
 
 class Hub:
@@ -192,7 +203,7 @@ class Hub:
             if client.closed:
                 break
             while client.outbox:
-                await ws.send_text(client.outbox.popleft())
+                await ws.send_text(client.next_queued())
             now = time.monotonic()
             if client.status is not None:
                 status, client.status = client.status, None

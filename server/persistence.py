@@ -26,6 +26,8 @@ CURRENT_FILE = "current.json"
 SAVED_DIR = "saved"
 EXPORTS_DIR = "exports"
 NAME_PATTERN = re.compile(r"[A-Za-z0-9_\- ]{1,64}")
+#: Kept (named) scenarios in one data folder: listing them is sent to every tab, so their number is bounded.
+MAX_SAVED = 500
 NAME_RULE = "1 to 64 characters: letters, digits, '-', '_' and spaces (not only spaces, no leading or trailing space)"
 
 
@@ -134,6 +136,10 @@ class ScenarioStore:
             raise ScenarioNameError("name", name, "a name that is not a built-in scenario's",
                              f"name = {name!r} is not allowed: it is the name of a built-in scenario")
         path = self.saved_path(name)
+        if not path.exists() and len(self.saved_names()) >= MAX_SAVED:
+            raise ScenarioNameError("name", name, f"at most {MAX_SAVED} kept scenarios",
+                                    f"There are already {MAX_SAVED} kept scenarios, the most this folder holds; "
+                                    "delete one or save over an existing name.")
         data = scn.scenario_to_dict(scenario)
         data["name"] = name
         write_atomically(path, json.dumps(data, indent=2) + "\n")

@@ -159,3 +159,18 @@ def test_first_start_uses_the_builtin_default(tmp_path):
         with client.websocket_connect(WS) as sock:
             assert sock.receive_json()["scenario"]["name"] == scn.DEFAULT_SCENARIO
         assert os.path.isfile(tmp_path / "current.json")
+
+
+def test_kept_scenarios_are_capped_but_an_existing_name_can_be_saved_over(tmp_path, monkeypatch):
+    from shockslate.server import persistence
+
+    monkeypatch.setattr(persistence, "MAX_SAVED", 2)
+    store = ScenarioStore(tmp_path)
+    s = scn.parse_scenario(doc())
+    store.save_named("one", s)
+    store.save_named("two", s)
+    with pytest.raises(RequestError) as info:
+        store.save_named("three", s)
+    assert info.value.field == "name" and "at most 2" in info.value.allowed
+    store.save_named("two", s)  # saving over a kept name is still allowed
+    assert store.saved_names() == ["one", "two"]

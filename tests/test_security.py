@@ -129,6 +129,40 @@ def test_token_required_off_loopback(tmp_path):
         with client.websocket_connect(f"ws://192.0.2.7:8765/ws?token={access.token}") as sock:
             assert sock.receive_json()["type"] == "hello"
         assert client.get("/exports/x-aaaaaaaaaaaaaaaaaaaa.npz").status_code == 403
+        # /health tells the state, the client count and file names: off loopback it needs the token too
+        assert client.get("/health").status_code == 403
+        assert client.get("/health?token=wrong").status_code == 403
+        assert client.get(f"/health?token={access.token}").json()["status"] == "ok"
+
+
+def test_one_tab_too_many_is_told_why_and_closed(tmp_path, monkeypatch):
+    from shockslate.server import app as app_module
+
+    monkeypatch.setattr(app_module, "MAX_CLIENTS", 2)
+    with make_client(tmp_path) as client, client.websocket_connect(WS) as a, client.websocket_connect(WS) as b:
+        a.receive_json(), b.receive_json()
+        with client.websocket_connect(WS) as c:
+            err = c.receive_json()
+            assert err["type"] == "error" and err["field"] == "connection" and "at most 2 tabs" in err["allowed"]
+            with pytest.raises(WebSocketDisconnect) as info:
+                c.receive_json()
+            assert info.value.code == 1013
+        assert_alive(a)
+
+
+def test_a_tab_that_does_not_read_is_capped_by_queued_bytes():
+    from shockslate.server.hub import MAX_QUEUED_BYTES, Client
+
+    client = Client("c1", websocket=None)
+    chunk = "x" * (1024 * 1024)
+    for _ in range(MAX_QUEUED_BYTES // len(chunk)):
+        client.queue(chunk)
+    assert not client.closed and client.queued_bytes == MAX_QUEUED_BYTES
+    client.next_queued()
+    assert client.queued_bytes == MAX_QUEUED_BYTES - len(chunk)
+    client.queue(chunk)
+    client.queue("one byte more than the cap")
+    assert client.closed
 
 
 def test_oversized_message_gets_an_error_and_the_connection_stays(tmp_path):
