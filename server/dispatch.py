@@ -20,7 +20,7 @@ from .hub import Client, Hub, ViewChoice
 from .persistence import ScenarioStore
 from .runner import Runner
 from .security import Access
-from .session import request_error_from_scenario
+from .session import SessionState, request_error_from_scenario
 
 
 def hello_message(client: Client, runner: Runner) -> dict:
@@ -32,6 +32,10 @@ def hello_message(client: Client, runner: Runner) -> dict:
                        "max_frames_per_s": runner.hub.max_frames_per_s},
             "view": {"view": client.view.view, "width": client.view.width, "height": client.view.height,
                      "range": "auto" if client.view.fixed_range is None else list(client.view.fixed_range)}}
+
+
+#: Wall time of one slice of a `step N` request; between slices the other tabs get frames and requests.
+STEP_SLICE_S = 0.05
 
 
 class Dispatcher:
@@ -106,9 +110,20 @@ class Dispatcher:
             self._reply(client, message, self.runner.last_status)
 
     async def _step(self, client: Client, message: p.Step) -> None:
-        advanced = await self.runner.call(self.session.step, message.count, fresh_status=True)
-        if advanced.divergence is not None:
-            self.hub.broadcast(advanced.divergence.to_message())
+        """`step N` in slices of about STEP_SLICE_S, each its own locked call that publishes a snapshot: other
+        tabs keep getting frames meanwhile, and a run started by another tab ends the stepping."""
+        remaining = message.count
+        while remaining > 0:
+            if remaining < message.count and self.session.state is not SessionState.PAUSED:
+                break  # another tab started the run (or reset the flow) between slices
+            advanced = await self.runner.call(self.session.step, remaining, max_wall_s=STEP_SLICE_S,
+                                              fresh_status=True)
+            remaining -= advanced.steps
+            if advanced.divergence is not None:
+                self.hub.broadcast(advanced.divergence.to_message())
+                break
+            if advanced.steps == 0:
+                break
         if self.runner.last_status is not None:
             self._reply(client, message, self.runner.last_status)
 

@@ -215,8 +215,9 @@ class Session:
         return self.state is RUNNING
 
     # ------------------------------------------------------------------ stepping
-    def step(self, count: int = 1) -> Advanced:
-        """Advance `count` steps while paused (or after a divergence); stops early on divergence."""
+    def step(self, count: int = 1, max_wall_s: float = math.inf) -> Advanced:
+        """Advance `count` steps while paused (or after a divergence); stops early on divergence, and after
+        max_wall_s seconds of work (at least one step), so that a long request can be served in slices."""
         if not (isinstance(count, int) and 1 <= count <= 1000):
             raise RequestError("count", count, "an integer from 1 to 1000")
         if (("step", self.state)) not in TRANSITIONS:
@@ -230,6 +231,8 @@ class Session:
             except SolverDiverged as err:
                 return self._diverged(err, done, start)
             done += 1
+            if time.perf_counter() - start >= max_wall_s:
+                break
         self._transition("step")
         self.flow_version += 1
         return Advanced(done, time.perf_counter() - start)

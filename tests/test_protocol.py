@@ -453,3 +453,16 @@ def test_a_failing_status_figure_neither_drops_tabs_nor_stops_requests(server, m
         still_alive(sock)
         sc = ask(sock, {"type": "add_shape", "shape": SHAPE}, "scenario")
         assert sc["revision"] == 1
+
+
+def test_a_long_step_request_runs_in_slices_and_still_does_every_step(server, ws, monkeypatch):
+    # Issue 'bounded work per message': `step N` must not hold the solver for its whole length; each slice is
+    # its own locked call, so other tabs get frames and requests between slices.
+    from shockslate.server import dispatch
+
+    monkeypatch.setattr(dispatch, "STEP_SLICE_S", 0.0)  # one step per slice: the most slices possible
+    session = server.app.state.parts.session
+    before = session.flow_version
+    status = ask(ws, {"type": "step", "count": 40}, "status")
+    assert status["steps"] == 40 and status["state"] == "paused"
+    assert session.flow_version - before == 40  # forty separate slices, not one

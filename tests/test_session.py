@@ -349,3 +349,10 @@ def test_geometric_throat_and_ideal_figures():
     x = np.array(axis["x_m"])
     assert np.nanmax(ideal_mach[x < 0.055]) < 1.0 < np.nanmin(ideal_mach[(x > 0.065) & (x < 0.1)])
     assert np.isnan(ideal_mach[x > 0.12]).all()
+
+
+def test_step_stops_after_its_wall_time_budget_but_always_takes_one_step(session):
+    advanced = session.step(50, max_wall_s=0.0)
+    assert advanced.steps == 1 and session.sim.steps == 1
+    advanced = session.step(5)
+    assert advanced.steps == 5 and session.sim.steps == 6
