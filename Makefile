@@ -16,10 +16,12 @@ $(BIN)/python:
 
 $(STAMP): pyproject.toml | $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e .
+	$(BIN)/shockslate warm
 	touch $(STAMP)
 
 $(TEST_STAMP): pyproject.toml | $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e '.[test]'
+	$(BIN)/shockslate warm
 	touch $(STAMP) $(TEST_STAMP)
 
 run: $(STAMP)

@@ -156,8 +156,10 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
 
             await parts.runner.in_worker(numba.set_num_threads, config.solver_threads)
         if config.warm:
+            print("shockslate: loading the solver kernels (compiled once per user; a first start compiles them, "
+                  "which takes one to three minutes)", flush=True)
             seconds = await parts.runner.in_worker(warm_kernels)
-            log.info("numba kernels ready in %.1f s", seconds)
+            print(f"shockslate: solver kernels ready in {seconds:.1f} s", flush=True)
         if config.start_running:
             await parts.runner.call(parts.session.run)
         if config.open_browser:

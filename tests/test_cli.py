@@ -12,7 +12,26 @@ from shockslate.server.cli import build_parser, main
 
 def test_every_documented_command_is_there():
     sub = next(a for a in build_parser()._actions if a.dest == "command")
-    assert {"serve", "bench", "run", "scenarios", "check", "sweep"} <= set(sub.choices)
+    assert {"serve", "bench", "run", "scenarios", "check", "sweep", "warm"} <= set(sub.choices)
+
+
+def test_every_entry_point_shares_one_kernel_cache(tmp_path):
+    # `make test` and `make run` call `shockslate warm` after installing; the server, the batch commands and
+    # the tests must then read the same cache: the package sets numba's cache folder before numba is imported.
+    env = {**__import__("os").environ, "SHOCKSLATE_CACHE_DIR": str(tmp_path / "cache")}
+    env.pop("NUMBA_CACHE_DIR", None)
+    code = "import shockslate.solver.kernels, numba; print(numba.config.CACHE_DIR)"
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300, env=env)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == str(tmp_path / "cache" / "numba")
+
+
+def test_warm_says_where_the_kernels_go(capsys):
+    from shockslate.solver import cache_dir
+
+    assert main(["warm"]) == 0
+    out = capsys.readouterr().out
+    assert str(cache_dir()) in out and "kernels ready in" in out
 
 
 def test_scenarios_lists_the_built_ins(capsys):

@@ -31,6 +31,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Local browser sandbox for 2D planar and axisymmetric compressible flow.")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
     add_serve_command(sub)
+    add_warm_command(sub)
     bench = solver_bench.add_bench_command(sub)
     serve_bench.add_serve_bench(bench)
     batch.add_batch_commands(sub)
@@ -55,6 +56,27 @@ def add_serve_command(sub) -> argparse.ArgumentParser:
                    help="solver threads (default: all cores; 1 is kinder to a machine shared with other work)")
     p.set_defaults(func=serve)
     return p
+
+
+def add_warm_command(sub) -> argparse.ArgumentParser:
+    p = sub.add_parser("warm", help="compile the solver kernels now (set-up does this; later starts are quick)",
+                       description="Compile every solver kernel into the per-user cache shared by the server, the "
+                                   "batch commands and the tests. `make run` and `make test` call this once after "
+                                   "installing, so that the first start of the page does not wait for it.")
+    p.set_defaults(func=warm)
+    return p
+
+
+def warm(args: argparse.Namespace) -> int:
+    from shockslate.solver import cache_dir
+
+    from ..session import warm_kernels
+
+    print(f"shockslate: compiling the solver kernels into {cache_dir()} "
+          "(the first time takes one to three minutes; later starts load them in about a second)", flush=True)
+    seconds = warm_kernels()
+    print(f"shockslate: kernels ready in {seconds:.1f} s", flush=True)
+    return EXIT_OK
 
 
 def serve(args: argparse.Namespace) -> int:
