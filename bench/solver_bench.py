@@ -2,8 +2,9 @@
 
 Speed is cell updates per second (one full time step of one cell = one update), the median of
 several timed bursts on a developed flow (a blast in a closed box of walls; planar, HLLC,
-MUSCL van Leer, SSP-RK2, CFL 0.4). The NumPy baseline in bench/numpy_baseline.py runs the same
-scheme in the same process and the same run, so ratios are fair on a noisy shared machine.
+MUSCL van Leer, SSP-RK2, CFL 0.4). Beside it, in the same process and run so that ratios are fair on a
+noisy shared machine: the bare kernel (bench/bare_kernel.py, the same scheme with nothing else, timed in
+alternating bursts with the product: `product_over_bare`) and the NumPy baseline (bench/numpy_baseline.py).
 """
 from __future__ import annotations
 
@@ -25,6 +26,7 @@ GOALS = {
     "cell_updates_per_s_1_thread_512x256": 10e6,
     "warm_start_s": 2.0,
     "bytes_per_cell_2048x1024": 300.0,
+    "product_over_bare_2_threads_512x256": 0.85,
 }
 
 
@@ -69,13 +71,25 @@ def _steps_for(cells: int) -> int:
     return max(2, int(4e6 // cells))
 
 
-def measure_solver(nx: int, ny: int, threads: int, repeats: int) -> float:
+def measure_solver(nx: int, ny: int, threads: int, repeats: int) -> tuple[float, float]:
+    """(product, bare kernel) cell updates per second, timed in alternating bursts so noise hits both alike."""
     import numba
+
+    from .bare_kernel import BareBox
 
     numba.set_num_threads(threads)
     sim = build_box(nx, ny)
-    sim.advance(max(3, _steps_for(nx * ny) // 2))  # develop the flow before timing
-    return _median_rate(sim.step, nx * ny, _steps_for(nx * ny), repeats)
+    bare = BareBox(*blast_initial(nx, ny), dx_m=2.0 / nx)
+    develop = max(3, _steps_for(nx * ny) // 2)
+    sim.advance(develop)  # develop the flow before timing
+    for _ in range(develop):
+        bare.step()
+    steps = _steps_for(nx * ny)
+    product, bare_rates = [], []
+    for _ in range(repeats):
+        product.append(_median_rate(sim.step, nx * ny, steps, 1))
+        bare_rates.append(_median_rate(bare.step, nx * ny, steps, 1))
+    return statistics.median(product), statistics.median(bare_rates)
 
 
 def measure_numpy(nx: int, ny: int, repeats: int) -> float:
@@ -122,13 +136,18 @@ def run_benchmark(repeats: int = 5, grids=GRIDS) -> dict:
     for nx, ny in grids:
         np_rate = measure_numpy(nx, ny, max(1, repeats // 2))
         for threads in sorted({1, all_threads}):
-            rate = measure_solver(nx, ny, threads, repeats)
+            rate, bare = measure_solver(nx, ny, threads, repeats)
             results.append({"nx": nx, "ny": ny, "threads": threads, "cell_updates_per_s": rate,
+                            "bare_cell_updates_per_s": bare, "product_over_bare": rate / bare,
                             "numpy_cell_updates_per_s": np_rate, "ratio_to_numpy": rate / np_rate})
     numba.set_num_threads(all_threads)
     array_bytes, rss_bytes = measure_memory(2048, 1024)
+    key = next((g for g in results if (g["nx"], g["ny"], g["threads"]) == (512, 256, all_threads)), results[-1])
     return {
         "scheme": "planar, closed box of walls, HLLC, MUSCL van Leer, SSP-RK2, CFL 0.4",
+        "bare_cell_updates_per_s": key["bare_cell_updates_per_s"],
+        "product_over_bare": key["product_over_bare"],
+        "headline_grid": f"{key['nx']}x{key['ny']}, {key['threads']} threads",
         "threading_layer": numba.threading_layer(),
         "cpu_count": os.cpu_count(),
         "repeats": repeats,
@@ -144,9 +163,10 @@ def _print_table(report: dict) -> None:
     print(f"shockslate solver benchmark: {report['scheme']}")
     print(f"threading layer {report['threading_layer']}, {report['cpu_count']} cores, "
           f"median of {report['repeats']} bursts")
-    print(f"{'grid':>11} {'threads':>7} {'Mcell-updates/s':>16} {'NumPy':>8} {'ratio':>7}")
+    print(f"{'grid':>11} {'threads':>7} {'Mcell-updates/s':>16} {'bare':>7} {'/bare':>6} {'NumPy':>8} {'ratio':>7}")
     for g in report["grids"]:
         print(f"{g['nx']:>5}x{g['ny']:<5} {g['threads']:>7} {g['cell_updates_per_s'] / 1e6:>16.1f} "
+              f"{g['bare_cell_updates_per_s'] / 1e6:>7.1f} {g['product_over_bare']:>6.2f} "
               f"{g['numpy_cell_updates_per_s'] / 1e6:>8.2f} {g['ratio_to_numpy']:>7.1f}")
     print(f"warm start to first step: {report['warm_start_s']:.2f} s")
     print(f"memory at 2048x1024: {report['bytes_per_cell_2048x1024']:.0f} bytes/cell in arrays, "
