@@ -31,7 +31,7 @@ from .dispatch import Dispatcher, hello_message
 from .errors import RequestError
 from .exports import Exports
 from .hub import MAX_CLIENTS, Hub
-from .persistence import ScenarioStore
+from .persistence import AutosaveFailed, ScenarioStore
 from .runner import Runner
 from .security import Access, RateLimiter
 from .session import Session, warm_kernels
@@ -131,7 +131,11 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
         store = ScenarioStore(config.data_dir)
         scenario, warnings = await asyncio.to_thread(starting_scenario, config, store)
         session = await asyncio.to_thread(Session, scenario, store.save_current)
-        await asyncio.to_thread(store.save_current, scenario)
+        try:
+            await asyncio.to_thread(store.save_current, scenario)
+        except AutosaveFailed as err:  # start anyway: the page says why changes are refused
+            warnings.append(err.message)
+            print(f"shockslate: {err.message}", file=sys.stderr, flush=True)
         hub = Hub()
         runner = Runner(session, hub, **config.runner_options)
         exports = Exports(store.exports_dir)
@@ -269,6 +273,8 @@ async def _handle_text(parts: ServerParts, client, text: str) -> None:
         raw = p.parse_json(text)
         message = p.parse_message(raw)
         await parts.dispatcher.handle(client, message)
+    except AutosaveFailed as err:  # nothing changed, but the folder is every tab's: all of them are told
+        parts.hub.broadcast(p.error_message(p.request_type(raw), err), reply_to=client, request_id=p.request_id(raw))
     except RequestError as err:
         parts.hub.send(client, p.error_message(p.request_type(raw), err, p.request_id(raw)))
     except Exception as err:  # a bug: keep the connection, log it, and say so

@@ -35,6 +35,11 @@ class ScenarioNameError(RequestError):
     """A scenario name that is not allowed, or that names no scenario."""
 
 
+class AutosaveFailed(RequestError):
+    """The scenario could not be written to the data folder, so the change that asked for it was not made.
+    Every tab is told: the folder is shared by all of them."""
+
+
 def default_data_dir() -> Path:
     """$SHOCKSLATE_DATA_DIR, else $XDG_DATA_HOME/shockslate, else ~/.local/share/shockslate."""
     env = os.environ.get(ENV_DATA_DIR)
@@ -92,7 +97,15 @@ class ScenarioStore:
 
     # -------------------------------------------------------------- current
     def save_current(self, scenario: scn.Scenario) -> None:
-        write_atomically(self.current_path, scn.scenario_to_json(scenario))
+        """Write the current scenario; AutosaveFailed (a plain sentence, no Python wording) when it cannot be."""
+        try:
+            write_atomically(self.current_path, scn.scenario_to_json(scenario))
+        except OSError as err:
+            reason = err.strerror or "the file could not be written"
+            raise AutosaveFailed(
+                "autosave", str(self.current_path), "a data folder the server can write to",
+                f"The change was not made because it could not be saved to {self.current_path} ({reason}). "
+                "Free some disk space or fix the folder's permissions, then try again.") from None
 
     def restore_current(self) -> Restored:
         """The scenario of the last session. Any damage to the file (bad bytes, nesting too deep, numbers too

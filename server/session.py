@@ -280,16 +280,19 @@ class Session:
             raise request_error_from_scenario(err, doc, prefix_map) from None
 
     def _commit(self, new: scn.Scenario, apply: Callable[[scn.Scenario], None]) -> None:
-        """Apply a validated scenario to the flow, then make it current (and tell the store)."""
+        """Keep a validated scenario (tell the store first: a change that cannot be saved is not made), then
+        apply it to the flow and make it current. If the flow refuses it, the saved file is put back."""
+        if self._on_change is not None:
+            self._on_change(new)
         try:
             apply(new)
         except ValueError as err:
+            if self._on_change is not None:
+                self._on_change(self.scenario)
             raise RequestError("scenario", None, str(err), str(err)) from None
         self.scenario = new
         self.revision += 1
         self.flow_version += 1
-        if self._on_change is not None:
-            self._on_change(new)
 
     def _apply_mask(self, new: scn.Scenario) -> None:
         self.sim.set_mask(rasterise(scn.to_sketch(new), self.sim.domain))

@@ -466,3 +466,30 @@ def test_a_long_step_request_runs_in_slices_and_still_does_every_step(server, ws
     status = ask(ws, {"type": "step", "count": 40}, "status")
     assert status["steps"] == 40 and status["state"] == "paused"
     assert session.flow_version - before == 40  # forty separate slices, not one
+
+
+def test_a_change_that_cannot_be_saved_is_not_made_and_every_tab_is_told(server, ws):
+    # Issue 'nothing lost silently': a change is acknowledged only once applied and saved. The autosave is
+    # made impossible by putting a folder where its temporary file's directory must be writable: the data
+    # folder is replaced by a file, so every write fails with an OSError, as a full or read-only disk would.
+    import shutil
+
+    store = server.app.state.parts.store
+    session = server.app.state.parts.session
+    with server.websocket_connect(WS) as other:
+        other.receive_json()
+        before = (session.revision, len(session.scenario.sketch.shapes), session.undo_depth)
+        shutil.rmtree(store.data_dir)
+        store.data_dir.write_text("not a folder")
+        try:
+            err = refused(ws, {"type": "add_shape", "shape": SHAPE})
+            assert err["field"] == "autosave" and "could not be saved" in err["message"]
+            assert "Error" not in err["message"]
+            told = receive(other, "error")
+            assert told["field"] == "autosave"
+            assert (session.revision, len(session.scenario.sketch.shapes), session.undo_depth) == before
+        finally:
+            store.data_dir.unlink()
+        sc = ask(ws, {"type": "add_shape", "shape": SHAPE}, "scenario")  # the folder is back: it works again
+        assert sc["revision"] == before[0] + 1
+        assert json.loads(store.current_path.read_text())["sketch"]["shapes"][-1]["kind"] == "segment"
