@@ -313,9 +313,15 @@ def parse_json(text: str) -> Any:
     """The JSON value of one text frame; RequestError when it is not JSON."""
     try:
         return json.loads(text)
-    except (json.JSONDecodeError, RecursionError) as err:
+    except json.JSONDecodeError as err:
         raise RequestError("message", _short(text), "a JSON object with a 'type' field",
                            f"message is not valid JSON: {err}") from None
+    except RecursionError:
+        raise RequestError("message", _short(text), "JSON nested at most a few hundred levels deep",
+                           "The message is nested too deeply to read.") from None
+    except ValueError:  # an integer with more digits than Python converts (over 4,300)
+        raise RequestError("message", _short(text), "numbers of at most 4,300 digits",
+                           "The message holds a number with too many digits to read.") from None
 
 
 def parse_text(text: str) -> tuple[Any, _Message]:

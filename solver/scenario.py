@@ -366,6 +366,10 @@ def parse_scenario(data: dict | str) -> Scenario:
             data = json.loads(data)
         except json.JSONDecodeError as err:
             raise ScenarioError(f"scenario is not valid JSON: {err}") from None
+        except RecursionError:
+            raise ScenarioError("scenario is nested too deeply to read") from None
+        except ValueError:  # an integer of more than 4,300 digits
+            raise ScenarioError("scenario holds a number with too many digits to read (at most 4,300)") from None
     if not isinstance(data, dict):
         raise ScenarioError(f"scenario = {_show(data)} is not allowed: must be a JSON object")
     try:
@@ -379,6 +383,8 @@ def load_scenario(path: str | Path) -> Scenario:
     p = Path(path)
     try:
         text = p.read_text(encoding="utf-8")
+    except UnicodeDecodeError as err:
+        raise ScenarioError(f"scenario file {str(p)!r} is not UTF-8 text (byte {err.start} cannot be read)") from None
     except OSError as err:
         raise ScenarioError(f"scenario file {str(p)!r} cannot be read: {err.strerror}") from None
     try:
