@@ -5,7 +5,8 @@ domain at 512 x 256 cells, lets the flow develop, then measures, in interleaved 
 noise hits both sides alike:
   - solver cell updates per second with no client attached and with one client streaming,
   - frames per second delivered to that client at 512 x 256,
-  - latency from sending a shape to the first frame that shows it (a wall disc on a gas pixel).
+  - latency from sending a shape to the first frame that shows it (a wall disc on a gas pixel),
+  - a load phase: several tabs at once (8 by default), frames per second each and the server's memory growth.
 Goals from the issue: 30 frames/s, latency under 150 ms, solver slowdown under 10 %.
 """
 from __future__ import annotations
@@ -36,6 +37,8 @@ def add_serve_bench(parser: argparse.ArgumentParser) -> None:
                         help="length of each measuring phase of --serve (default 5)")
     parser.add_argument("--latency-samples", type=int, default=8, metavar="N",
                         help="shapes sent for the latency figure of --serve (default 8)")
+    parser.add_argument("--load-clients", type=int, default=8, metavar="N",
+                        help="tabs connected at once in the load phase of --serve (default 8; 0 skips it)")
     parser.add_argument("--serve-threads", type=int, metavar="N",
                         help="solver threads of the server under test (default: all cores)")
     for key in ("handler", "func"):
@@ -59,7 +62,7 @@ def _either(previous):
 
 def main(args: argparse.Namespace) -> int:
     report = run_serve_bench(phase_s=args.phase_seconds, latency_samples=args.latency_samples,
-                             threads=args.serve_threads)
+                             threads=args.serve_threads, load_clients=args.load_clients)
     if getattr(args, "json", False):
         print(json.dumps(report, indent=2))
     else:
@@ -227,8 +230,57 @@ def latency_phase(url: str, scenario: dict, samples: int) -> list[float]:
     return out
 
 
+def _rss_bytes(pid: int) -> int:
+    with open(f"/proc/{pid}/statm") as f:
+        return int(f.read().split()[1]) * os.sysconf("SC_PAGE_SIZE")
+
+
+def load_phase(server: "ServerProcess", clients: int, seconds: float) -> dict:
+    """Several tabs at once, each in its own thread: frames per second each, and the server's memory growth."""
+    import threading
+
+    rss_before = _rss_bytes(server.proc.pid)
+    counts = [0] * clients
+    errors: list[str] = []
+    start = threading.Barrier(clients + 1)
+
+    def tab(k: int) -> None:
+        try:
+            sock, _ = _connect(server.url)
+        except Exception as err:  # noqa: BLE001 - reported, not raised: the figure says how many tabs worked
+            errors.append(f"{type(err).__name__}: {err}")
+            start.wait()
+            return
+        try:
+            start.wait()
+            t0 = time.monotonic()
+            while (now := time.monotonic()) - t0 < seconds:
+                try:
+                    msg = sock.recv(timeout=max(0.01, seconds - (now - t0)))
+                except TimeoutError:
+                    break
+                if isinstance(msg, bytes):
+                    counts[k] += 1
+        finally:
+            sock.close()
+
+    threads = [threading.Thread(target=tab, args=(k,), daemon=True) for k in range(clients)]
+    for th in threads:
+        th.start()
+    start.wait()
+    for th in threads:
+        th.join(seconds + 30)
+    time.sleep(1.0)
+    rss_after = _rss_bytes(server.proc.pid)
+    fps = [c / seconds for c in counts]
+    return {"clients": clients, "frames_per_s_each": fps, "frames_per_s_min": min(fps),
+            "frames_per_s_median": statistics.median(fps), "connect_errors": errors,
+            "server_rss_mb_before": rss_before / 2 ** 20, "server_rss_mb_after": rss_after / 2 ** 20,
+            "server_rss_growth_percent": 100.0 * (rss_after / rss_before - 1.0)}
+
+
 def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: float = 3.0,
-                    threads: int | None = None) -> dict:
+                    threads: int | None = None, load_clients: int = 8) -> dict:
     scenario = bench_scenario()
     server = ServerProcess(scenario, threads)
     try:
@@ -245,6 +297,7 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
             streaming.append(rate)
             time.sleep(1.0)  # let the server notice the client left
         latencies = latency_phase(server.url, scenario, latency_samples)
+        load = load_phase(server, load_clients, 2 * phase_s) if load_clients > 0 else None
         health = _health(server.url)
     finally:
         server.stop()
@@ -263,6 +316,8 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
         "phases_without_client": alone,
         "phases_with_client": streaming,
         "solver_slowdown_percent": 100.0 * (1.0 - mean_streaming / mean_alone) if mean_alone > 0 else None,
+        "serve_slowdown_fraction": (1.0 - mean_streaming / mean_alone) if mean_alone > 0 else None,
+        "load": load,
         "numba_threading_layer": health.get("threading_layer"),
         "solver_threads": threads or "all cores",
         "cpu_count": os.cpu_count(),
@@ -287,3 +342,9 @@ def print_report(r: dict) -> None:
     if r["solver_slowdown_percent"] is not None:
         print(f"  slowdown from streaming {r['solver_slowdown_percent']:6.1f} %        (goal < 10 %)")
     print(f"  start to running        {r['start_to_running_s']:6.1f} s")
+    load = r.get("load")
+    if load:
+        print(f"  load: {load['clients']} tabs at once  {load['frames_per_s_min']:6.1f} frames/s for the slowest, "
+              f"{load['frames_per_s_median']:.1f} median; server memory {load['server_rss_mb_before']:.0f} -> "
+              f"{load['server_rss_mb_after']:.0f} MB ({load['server_rss_growth_percent']:+.1f} %)"
+              + (f"; {len(load['connect_errors'])} tabs could not connect" if load["connect_errors"] else ""))
