@@ -25,6 +25,7 @@ from starlette.staticfiles import StaticFiles
 from starlette.types import ASGIApp, Receive, Scope, Send
 
 from shockslate.solver import scenario as scn
+from shockslate.solver.warm import warm_kernels
 
 from . import protocol as p
 from .dispatch import Dispatcher, hello_message
@@ -34,7 +35,7 @@ from .hub import MAX_CLIENTS, Hub
 from .persistence import AutosaveFailed, ScenarioStore
 from .runner import Runner
 from .security import Access, RateLimiter
-from .session import Session, warm_kernels
+from .session import Session
 
 log = logging.getLogger("shockslate")
 

@@ -522,22 +522,3 @@ class Session:
         rho, u, v, p = self.sim.primitive()
         return FlowSnapshot(self.flow_version, self.sim.time_s, self.sim.steps, rho, u, v, p,
                             self.sim.mask.copy(), self.sim.setup.gas, self.sim.domain)
-
-
-def warm_kernels() -> float:
-    """Compile (or load from the numba cache) every kernel once, on a tiny flow; returns the seconds taken.
-
-    Called at server start in a worker thread, so the first real burst does not stall for compilation.
-    """
-    from shockslate.solver.kinds import CellKind
-    from shockslate.solver.shapes import Segment, Sketch
-    from shockslate.solver.simulation import Setup
-
-    start = time.perf_counter()
-    domain = Domain(0.0, 1.0, 0.0, 0.25, 16)
-    mask = rasterise(Sketch((Segment((0.5, 0.0), (0.5, 0.1), 0.05, "wall"),)), domain)
-    mask[:, :2] = CellKind.RESERVOIR
-    sim = Simulation(Setup(domain), mask)
-    sim.step()
-    sim.step()
-    return time.perf_counter() - start

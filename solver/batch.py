@@ -53,20 +53,30 @@ class Progress:
     steps_per_s: float
     eta_s: float
     fraction: float
+    #: "running" while it goes, then the run's status: finished, interrupted, diverged, stalled.
+    status: str = "running"
+
+
+#: Below this much wall time or this fraction of the run, an estimate of the time left says nothing.
+ETA_MIN_WALL_S = 3.0
+ETA_MIN_FRACTION = 0.01
 
 
 def progress_line(pr: Progress) -> str:
-    eta = "-" if not math.isfinite(pr.eta_s) else f"{pr.eta_s:.0f} s"
+    if pr.status not in ("running", "finished"):
+        return (f"stopped at t = {pr.sim_time_s * 1e3:.4g} ms of {pr.until_s * 1e3:.4g} ms (step {pr.steps}, "
+                f"{pr.status}); figures below are from an unfinished run")
+    eta = "estimating" if not math.isfinite(pr.eta_s) else f"{pr.eta_s:.0f} s"
     width = 24
     filled = int(round(width * min(max(pr.fraction, 0.0), 1.0)))
     return (f"[{'#' * filled}{'.' * (width - filled)}] {100 * pr.fraction:5.1f}%  t = {pr.sim_time_s * 1e3:.4g} ms "
-            f"of {pr.until_s * 1e3:.4g} ms  step {pr.steps}  {pr.steps_per_s:.0f} steps/s  ETA {eta}")
+            f"of {pr.until_s * 1e3:.4g} ms  step {pr.steps}  {pr.steps_per_s:.0f} steps/s  time left {eta}")
 
 
 def print_progress(pr: Progress) -> None:
     """Default progress: one line on stderr, rewritten in place."""
     sys.stderr.write("\r" + progress_line(pr) + "  ")
-    if pr.fraction >= 1.0:
+    if pr.status != "running":
         sys.stderr.write("\n")
     sys.stderr.flush()
 
@@ -225,7 +235,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         report.write_report(out / "report.html", summary, s.description, sim, view,
                             export.read_history(out / "history.csv"), axis)
     if progress is not None:
-        progress(_progress(sim, until, steps, wall, done=True))
+        progress(_progress(sim, until, steps, wall, status=status))
     return summary
 
 
@@ -253,11 +263,17 @@ class _StopFlag:
             self._old = None
 
 
-def _progress(sim, until: float, max_steps: Optional[int], wall: float, done: bool = False) -> Progress:
+def _progress(sim, until: float, max_steps: Optional[int], wall: float, status: str = "running") -> Progress:
+    """Where the run stands. The fraction reaches 1 only for a finished run; the time left is estimated only once
+    the run has gone on long enough for the rate to mean something."""
     frac = sim.time_s / until
     if max_steps is not None:
         frac = max(frac, sim.steps / max_steps)
-    frac = 1.0 if done else min(frac, 1.0)
+    frac = 1.0 if status == "finished" else min(frac, 1.0)
     rate = sim.steps / wall if wall > 0 else 0.0
-    eta = wall * (1.0 - frac) / frac if frac > 0 else float("inf")
-    return Progress(sim.time_s, until, sim.steps, max_steps, rate, 0.0 if done else eta, frac)
+    eta = float("inf")
+    if status == "finished":
+        eta = 0.0
+    elif wall >= ETA_MIN_WALL_S and frac >= ETA_MIN_FRACTION:
+        eta = wall * (1.0 - frac) / frac
+    return Progress(sim.time_s, until, sim.steps, max_steps, rate, eta, frac, status)

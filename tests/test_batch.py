@@ -101,7 +101,8 @@ def test_station_csv_and_report(tube_run):
     assert text.count("data:image/png;base64,") >= 2
     assert "src='http" not in text and 'src="http' not in text  # self-contained
     assert calls and calls[-1].fraction == 1.0 and calls[-1].steps == summary["steps"]
-    assert "steps/s" in batch.progress_line(calls[-1]) and "ETA" in batch.progress_line(calls[-1])
+    assert calls[-1].status == "finished"
+    assert "steps/s" in batch.progress_line(calls[-1]) and "time left 0 s" in batch.progress_line(calls[-1])
 
 
 def test_steps_limit_and_bad_arguments(tmp_path):
@@ -290,3 +291,22 @@ def test_over_expanded_nozzle_thrust_coefficient(nozzle_240):
     cf_ratio = float(np.mean([x.thrust_coefficient_ratio_with_divergence for x in samples]))
     # [SB] ch. 3: ideal C_F with the conical divergence factor (1 + cos a)/2 on the momentum term, within 5 %
     assert cf_ratio == pytest.approx(1.0, abs=0.05)
+
+
+def test_progress_is_honest_early_on_and_after_a_stop(tmp_path):
+    # Issue 'the first hour': no time-left figure from a rate that means nothing yet, and a stopped run says it
+    # stopped (no full bar) and that its figures are from an unfinished run.
+    seen = []
+
+    def stop_after_two(progress):
+        seen.append(progress)
+        if len(seen) == 2:
+            os.kill(os.getpid(), signal.SIGINT)
+
+    batch.run_scenario("shock_tube_reflection", tmp_path, nx=80, progress=stop_after_two, progress_interval_s=0.0,
+                       write_pictures=False, write_fields=False)
+    first, last = seen[0], seen[-1]
+    assert first.status == "running" and "time left estimating" in batch.progress_line(first)
+    assert last.status == "interrupted" and last.fraction < 1.0
+    line = batch.progress_line(last)
+    assert line.startswith("stopped at t = ") and "unfinished run" in line and "#" not in line

@@ -70,7 +70,7 @@ def add_warm_command(sub) -> argparse.ArgumentParser:
 def warm(args: argparse.Namespace) -> int:
     from shockslate.solver import cache_dir
 
-    from ..session import warm_kernels
+    from shockslate.solver.warm import warm_kernels
 
     print(f"shockslate: compiling the solver kernels into {cache_dir()} "
           "(the first time takes one to three minutes; later starts load them in about a second)", flush=True)

@@ -64,7 +64,12 @@ def add_batch_commands(subparsers) -> None:
 
 def cmd_run(args: argparse.Namespace) -> int:
     from shockslate.solver.batch import run_scenario  # matplotlib and friends only when running
+    from shockslate.solver.warm import warm_kernels
 
+    # Before the clock starts: a first run compiles the kernels, which would otherwise look like a stuck step 1.
+    print("shockslate run: loading the solver kernels (a first run compiles them: one to three minutes)",
+          file=sys.stderr, flush=True)
+    warm_kernels()
     try:
         summary = run_scenario(args.scenario, Path(args.out), until_s=args.until, steps=args.steps,
                                nx=args.resolution, every_s=args.every, view=args.view)
@@ -76,7 +81,10 @@ def cmd_run(args: argparse.Namespace) -> int:
     if summary["message"]:
         print(summary["message"], file=sys.stderr)
     nozzle = summary.get("nozzle")
-    if nozzle:
+    if nozzle and summary["status"] != "finished":
+        print(f"nozzle figures are from an unfinished run (stopped at t = {summary['sim_time_s']:.6g} s of "
+              f"{summary['end_time_s']:.6g} s); see summary.json", file=sys.stderr)
+    elif nozzle:
         print(f"nozzle ({nozzle['regime']}): mass flow {nozzle['mass_flow_ratio']:.4f} of choked, C_F "
               f"{nozzle['thrust_coefficient_ratio']:.4f} of ideal ({nozzle['thrust_coefficient_ratio_with_divergence']:.4f} "
               f"with divergence factor), Isp {nozzle['specific_impulse_s']:.1f} s")
