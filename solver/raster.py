@@ -197,7 +197,12 @@ def _path_footprint(points, width_m: float, xs: np.ndarray, ys: np.ndarray, dx_m
     if ys.size == 0 or xs.size == 0:
         return inside
     pts = np.asarray(points, dtype=np.float64)
-    a, b = pts[:-1], pts[1:]
+    # Only the part of each piece near the sampled points can paint: clip the pieces to that box first, so a
+    # piece kilometres long costs what its part over the domain costs.
+    margin = half + (xs[-1] - xs[0]) * 1e-12 + 1e-300
+    a, b = _clip_pieces(pts[:-1], pts[1:], xs[0] - margin, xs[-1] + margin, ys[0] - margin, ys[-1] + margin)
+    if a.shape[0] == 0:
+        return inside
     # Cut long pieces so each is scanned over a small box, not the whole diagonal's box.
     # Collinear pieces: their capsules together are exactly the capsule of the whole line.
     piece_max_m = max(_PIECE_CELLS * dx_m, 4.0 * half)
@@ -210,6 +215,26 @@ def _path_footprint(points, width_m: float, xs: np.ndarray, ys: np.ndarray, dx_m
     ends = a[owner] + (b[owner] - a[owner]) * f1
     _capsules_kernel(inside, xs, ys, starts[:, 0].copy(), starts[:, 1].copy(), ends[:, 0].copy(), ends[:, 1].copy(), half)
     return inside
+
+
+def _clip_pieces(a: np.ndarray, b: np.ndarray, x0: float, x1: float, y0: float, y1: float):
+    """The parts of the pieces a-b inside the box [x0, x1] x [y0, y1] (Liang and Barsky 1984); pieces that miss it
+    are dropped. A capsule's points within the box lie within its half-width of the clipped piece when the box
+    was grown by that half-width, so the painted cells do not change."""
+    d = b - a
+    t0 = np.zeros(a.shape[0])
+    t1 = np.ones(a.shape[0])
+    keep = np.ones(a.shape[0], dtype=bool)
+    for p, q in ((-d[:, 0], a[:, 0] - x0), (d[:, 0], x1 - a[:, 0]), (-d[:, 1], a[:, 1] - y0), (d[:, 1], y1 - a[:, 1])):
+        parallel = p == 0.0
+        keep &= ~(parallel & (q < 0.0))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = np.where(parallel, 0.0, q / np.where(parallel, 1.0, p))
+        t0 = np.where(~parallel & (p < 0.0), np.maximum(t0, r), t0)
+        t1 = np.where(~parallel & (p > 0.0), np.minimum(t1, r), t1)
+    keep &= t0 <= t1
+    a, d, t0, t1 = a[keep], d[keep], t0[keep, None], t1[keep, None]
+    return a + t0 * d, a + t1 * d
 
 
 @njit(cache=True)
