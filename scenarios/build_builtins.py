@@ -1,4 +1,4 @@
-"""Writes the built-in scenario files of this folder (run: python scenarios/build_builtins.py).
+"""Writes the built-in scenario files of this folder (run: python -m shockslate.scenarios.build_builtins).
 
 The geometry of the nozzles (arcs, cones) is easier to keep right as code than as hand-typed
 polygons, so the JSON files are generated here and committed; the files are what the product reads.
@@ -8,15 +8,13 @@ from __future__ import annotations
 
 import json
 import math
-import sys
 from pathlib import Path
 
-HERE = Path(__file__).resolve().parent
-sys.path.insert(0, str(HERE.parent))
+from shockslate.solver import relations
+from shockslate.solver.gas import AIR, HOT_PRODUCTS
+from shockslate.solver.scenario import parse_scenario, scenario_to_dict, write_schema
 
-from shockslate.solver import relations  # noqa: E402
-from shockslate.solver.gas import AIR, HOT_PRODUCTS  # noqa: E402
-from shockslate.solver.scenario import parse_scenario, scenario_to_dict, write_schema  # noqa: E402
+HERE = Path(__file__).resolve().parent
 
 ILLUSTRATIVE = "All numbers are illustrative choices, plausible for the trade, not data of a real engine or rig."
 SEA_LEVEL = {"p_pa": 101325.0, "t_k": 288.15}  # ISA sea level (common practice)
@@ -117,7 +115,8 @@ def nozzle_scenarios() -> list[dict]:
                "the thrust coefficient against ideal 1D theory in the nozzle report. " + ILLUSTRATIVE,
                dict(SEA_LEVEL), start, 0.003),
         nozzle("nozzle_high_altitude",
-               "The same nozzle at about 12 km altitude (ISA 19.4 kPa, 216.65 K, from memory): under-expanded. "
+               "The same nozzle at about 12 km altitude (International Standard Atmosphere: 19.4 kPa, 216.65 K): "
+               "under-expanded. "
                + common +
                "Look for: the plume ballooning out past the exit lip through a fan of expansion waves, the "
                "barrel shock forming inside the plume, and a higher thrust coefficient than at sea level. "
@@ -251,7 +250,7 @@ def ramp(name: str, angle_deg: float, kind: str) -> dict:
                        "ambient": dict(SEA_LEVEL)},
         "initial": {"kind": "ambient"},
         "stations": [],
-        "probes": [{"name": "ramp foot", "x_m": x0 + 0.02, "y_m": 0.01}],
+        "probes": [{"name": "ramp foot", "x_m": x0 - 0.02, "y_m": 0.01}],  # on the floor just ahead of the ramp
         "numerics": numerics(),
         "end_time_s": 0.0012,
     }
