@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from shockslate.solver import scenario as scn
+from shockslate.solver.suggest import did_you_mean
 
 from .errors import RequestError
 
@@ -166,8 +167,9 @@ class ScenarioStore:
             return scn.load_scenario(path)
         if name in scn.builtin_names():
             return scn.load_builtin(name)
+        known = scn.builtin_names() + self.saved_names()
         raise ScenarioNameError("name", name, "the name of a built-in or saved scenario (see list_scenarios)",
-                         f"name = {name!r} is not a built-in or saved scenario")
+                                f"There is no built-in or saved scenario named {name!r}{did_you_mean(name, known)}")
 
     def saved_names(self) -> list[str]:
         if not self.saved_dir.is_dir():

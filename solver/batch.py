@@ -29,7 +29,9 @@ from . import export, nozzle_report, report
 from .diagnostics import read_probe, read_station, station_profile
 from .errors import SolverDiverged
 from .fields import VIEWS
-from .scenario import Scenario, build_simulation, builtin_names, load_builtin, load_scenario, station_by_role, to_stations
+from .scenario import (Scenario, ScenarioError, build_simulation, builtin_names, load_builtin, load_scenario,
+                       station_by_role, to_stations)
+from .suggest import did_you_mean
 
 #: Keys every summary.json has (the nozzle block is null unless the scenario is a reservoir-fed nozzle).
 SUMMARY_KEYS = ("scenario", "description", "status", "message", "sim_time_s", "end_time_s", "steps", "wall_s",
@@ -88,6 +90,9 @@ def resolve_scenario(scenario: Scenario | str | Path) -> Scenario:
     text = str(scenario)
     if not text.endswith(".json") and text in builtin_names():
         return load_builtin(text)
+    if not text.endswith(".json") and not Path(text).exists():
+        raise ScenarioError(f"there is no built-in scenario or file named {text!r}{did_you_mean(text, builtin_names())}"
+                            " (`shockslate scenarios` lists the built-ins)")
     return load_scenario(text)
 
 

@@ -74,3 +74,20 @@ def test_usage_errors_exit_2(argv):
     with pytest.raises(SystemExit) as info:
         main(argv)
     assert info.value.code == 2
+
+
+def test_a_misspelt_built_in_name_gets_a_suggestion(capsys, tmp_path):
+    assert main(["run", "nozle_sea_level", "--steps", "1", "--out", str(tmp_path)]) == 2
+    err = capsys.readouterr().err
+    assert "did you mean 'nozzle_sea_level'?" in err and "Traceback" not in err
+    assert main(["run", "completely_different", "--steps", "1", "--out", str(tmp_path)]) == 2
+    assert "did you mean" not in capsys.readouterr().err
+
+
+def test_a_misspelt_saved_or_built_in_name_from_the_page_gets_a_suggestion(tmp_path):
+    from shockslate.server.errors import RequestError
+    from shockslate.server.persistence import ScenarioStore
+
+    with pytest.raises(RequestError) as info:
+        ScenarioStore(tmp_path).load_named("shock_tube_reflektion")
+    assert "did you mean 'shock_tube_reflection'?" in info.value.message
