@@ -3,6 +3,7 @@
     shockslate serve [--host 127.0.0.1] [--port 8765] [--scenario NAME_OR_PATH] [--open]   (this module)
     shockslate run | scenarios | check                                                    (cli/batch.py)
     shockslate sweep                                                                      (cli/sweep.py)
+    shockslate nozzle                                                                     (cli/nozzle.py)
     shockslate bench [--serve]              (bench/solver_bench.py; --serve: bench/serve_bench.py)
 
 Sub-commands set `func` (or `handler`) to a function of the parsed arguments returning the exit code.
@@ -17,7 +18,7 @@ from shockslate.bench import serve_bench, solver_bench
 
 from ..protocol import MAX_MESSAGE_BYTES
 from ..security import DEFAULT_HOST, DEFAULT_PORT, Access
-from . import batch, sweep
+from . import batch, nozzle, sweep
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 #: uvicorn closes a connection (code 1009) above this size; below it, oversized messages get an error reply.
@@ -36,6 +37,7 @@ def build_parser() -> argparse.ArgumentParser:
     serve_bench.add_serve_bench(bench)
     batch.add_batch_commands(sub)
     sweep.add_sweep_command(sub)
+    nozzle.add_nozzle_command(sub)
     return parser
 
 
