@@ -1,5 +1,5 @@
 # Two commands do all set-up on a fresh machine: `make run` and `make test`.
-# `make run` installs only what the product needs; `make test` adds the test extras.
+# `make run` installs only what the product needs; `make test` adds the test and design extras.
 # Compiled kernels go to one per-user cache (~/.cache/shockslate, see solver/__init__.py) that the command line,
 # the server and the tests share.
 PY ?= python3.11
@@ -20,7 +20,7 @@ $(STAMP): pyproject.toml | $(BIN)/python
 	touch $(STAMP)
 
 $(TEST_STAMP): pyproject.toml | $(BIN)/python
-	$(BIN)/python -m pip install --quiet -e '.[test]'
+	$(BIN)/python -m pip install --quiet -e '.[test,design]'
 	$(BIN)/shockslate warm
 	touch $(STAMP) $(TEST_STAMP)
 

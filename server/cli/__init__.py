@@ -4,6 +4,7 @@
     shockslate run | scenarios | check                                                    (cli/batch.py)
     shockslate sweep                                                                      (cli/sweep.py)
     shockslate nozzle                                                                     (cli/nozzle.py)
+    shockslate gas                                                                        (cli/gas.py)
     shockslate bench [--serve]              (bench/solver_bench.py; --serve: bench/serve_bench.py)
 
 Sub-commands set `func` (or `handler`) to a function of the parsed arguments returning the exit code.
@@ -18,7 +19,7 @@ from shockslate.bench import serve_bench, solver_bench
 
 from ..protocol import MAX_MESSAGE_BYTES
 from ..security import DEFAULT_HOST, DEFAULT_PORT, Access
-from . import batch, nozzle, sweep
+from . import batch, gas, nozzle, sweep
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 #: uvicorn closes a connection (code 1009) above this size; below it, oversized messages get an error reply.
@@ -38,6 +39,7 @@ def build_parser() -> argparse.ArgumentParser:
     batch.add_batch_commands(sub)
     sweep.add_sweep_command(sub)
     nozzle.add_nozzle_command(sub)
+    gas.add_gas_command(sub)
     return parser
 
 
