@@ -5,6 +5,7 @@
     shockslate sweep                                                                      (cli/sweep.py)
     shockslate nozzle                                                                     (cli/nozzle.py)
     shockslate gas                                                                        (cli/gas.py)
+    shockslate contour                                                                    (cli/contour.py)
     shockslate bench [--serve]              (bench/solver_bench.py; --serve: bench/serve_bench.py)
 
 Sub-commands set `func` (or `handler`) to a function of the parsed arguments returning the exit code.
@@ -19,7 +20,7 @@ from shockslate.bench import serve_bench, solver_bench
 
 from ..protocol import MAX_MESSAGE_BYTES
 from ..security import DEFAULT_HOST, DEFAULT_PORT, Access
-from . import batch, gas, nozzle, sweep
+from . import batch, contour, gas, nozzle, sweep
 
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 #: uvicorn closes a connection (code 1009) above this size; below it, oversized messages get an error reply.
@@ -40,6 +41,7 @@ def build_parser() -> argparse.ArgumentParser:
     sweep.add_sweep_command(sub)
     nozzle.add_nozzle_command(sub)
     gas.add_gas_command(sub)
+    contour.add_contour_command(sub)
     return parser
 
 
