@@ -25,7 +25,7 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Callable, Optional
 
-from . import export, nozzle_report, report
+from . import export, nozzle_report, report, separation
 from .diagnostics import read_probe, read_station, station_profile
 from .errors import SolverDiverged
 from .fields import VIEWS
@@ -232,6 +232,8 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         fig = nozzle_report.figures(sim, throat, exit_, geo)
         summary["nozzle"] = {k: (_finite(v) if isinstance(v, float) else v) for k, v in fig.as_dict().items()}
         summary["nozzle"]["throat_x_m"] = geo.throat_x_m
+        # hook (solver/separation.py): where the wall pressure falls below Summerfield's criterion
+        summary["nozzle"]["wall_separation"] = separation.nozzle_wall_separation(sim, throat, exit_).as_dict()
         axis = nozzle_report.axis_distribution(sim, geo)
     if not write_pictures:
         files.remove("report.html")

@@ -224,6 +224,10 @@ def write_report(path: str | Path, summary: dict, description: str, sim: Simulat
                      "relation and regime limits: J. D. Anderson, Modern Compressible Flow, ch. 5. Areas are those "
                      "of the rasterised cells. Thrust is integrated over the exit station; C_F and c* use the "
                      "reservoir p0 and the mask's throat area.</p>")
+        if nozzle.get("wall_separation"):  # hook: solver/separation.py writes its own small section
+            from .separation import report_html
+
+            parts.append(report_html(nozzle["wall_separation"]))
         if axis is not None:
             parts.append(f"<img alt='axis distributions' src='data:image/png;base64,"
                          f"{_png_base64(axis_figure(axis, nozzle['throat_x_m']))}'>")

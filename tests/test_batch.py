@@ -165,6 +165,10 @@ def test_nozzle_summary_carries_the_theory_block(tmp_path):
         assert key in nozzle, key
     assert nozzle["regime"] == "over-expanded"
     assert "Nozzle performance against ideal 1D theory" in (tmp_path / "report.html").read_text()
+    # separation marks along the divergent wall (solver/separation.py; Summerfield, Foster, Swan 1954)
+    sep = nozzle["wall_separation"]
+    assert sep["ratio"] == 0.4 and len(sep["x_m"]) == len(sep["below"]) > 0
+    assert "Flow separation (Summerfield's criterion)" in (tmp_path / "report.html").read_text()
 
 
 # ----------------------------------------------------------------------------- command line
