@@ -1,7 +1,7 @@
 """`shockslate nozzle`: write a scenario file for a chamber and nozzle given by its numbers.
 
     shockslate nozzle --throat-radius 0.01 --contraction-ratio 4 --chamber-length 0.03 --area-ratio 10 \
-        [--half-angle 15 | --bell [--bell-length 0.8] [--inflection-angle 25 --exit-angle 10]] \
+        [--half-angle 15 | --bell [--bell-length 0.8] [--inflection-angle 25 --exit-angle 10] | --moc] \
         [--planar] [--p0 7e6] [--t0 3500] [--gas products.json] --out my_nozzle.json
 """
 from __future__ import annotations
@@ -22,7 +22,7 @@ FLAGS = {
     "inflection_angle_deg": "--inflection-angle", "exit_angle_deg": "--exit-angle", "p0_pa": "--p0",
     "t0_k": "--t0", "ambient_p_pa": "--p-ambient", "ambient_t_k": "--t-ambient",
     "cells_per_throat_radius": "--cells-per-throat-radius", "plume_length_m": "--plume-length",
-    "end_time_s": "--end-time", "mode": "--planar", "shape": "--bell",
+    "end_time_s": "--end-time", "mode": "--planar", "shape": "--bell/--moc", "design_gamma": "--gas",
 }
 
 
@@ -57,8 +57,12 @@ def add_nozzle_command(sub) -> argparse.ArgumentParser:
     g.add_argument("--area-ratio", type=_number, required=True, metavar="RATIO", help="exit area / throat area (> 1)")
     g.add_argument("--half-angle", type=_number, default=15.0, metavar="DEG",
                    help="conical divergent half angle (default 15)")
-    g.add_argument("--bell", action="store_true",
-                   help="a bell instead of a cone: Rao's parabolic approximation of a thrust-optimised contour")
+    kind = g.add_mutually_exclusive_group()
+    kind.add_argument("--bell", action="store_true",
+                      help="a bell instead of a cone: Rao's parabolic approximation of a thrust-optimised contour")
+    kind.add_argument("--moc", action="store_true",
+                      help="planar only: the minimum-length contour by the method of characteristics for the gas's "
+                           "gamma (sharp throat corner)")
     g.add_argument("--bell-length", type=_number, default=0.8, metavar="FRACTION",
                    help="bell length as a fraction of the 15 degree cone's (default 0.8)")
     g.add_argument("--inflection-angle", type=_number, metavar="DEG",
@@ -140,7 +144,8 @@ def cmd_nozzle(args: argparse.Namespace) -> int:
         spec = nd.NozzleSpec(
             throat_radius_m=args.throat_radius, contraction_ratio=args.contraction_ratio,
             chamber_length_m=args.chamber_length, exit_area_ratio=args.area_ratio,
-            mode="planar" if args.planar else "axisymmetric", shape="bell" if args.bell else "cone",
+            mode="planar" if args.planar else "axisymmetric",
+            shape="bell" if args.bell else "moc" if args.moc else "cone", design_gamma=gas.gamma if args.moc else None,
             half_angle_deg=args.half_angle, convergent_half_angle_deg=args.convergent_angle,
             upstream_rounding=args.upstream_rounding, downstream_rounding=args.downstream_rounding,
             bell_fraction=args.bell_length, inflection_angle_deg=args.inflection_angle,
@@ -151,8 +156,9 @@ def cmd_nozzle(args: argparse.Namespace) -> int:
         doc = nd.nozzle_scenario(spec, run, name=args.name)
     except nd.DesignError as err:
         flag = FLAGS.get(err.field, err.field)
-        value = err.value if err.value is not None else "(not given)"
-        return _bad(f"{flag} = {value} is not allowed: {err.allowed}")
+        if err.value is None:
+            return _bad(f"{flag} is missing: {err.allowed}")
+        return _bad(f"{flag} = {err.value} is not allowed: {err.allowed}")
     try:
         scenario = parse_scenario(doc)
     except ScenarioError as err:
