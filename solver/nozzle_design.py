@@ -7,7 +7,8 @@ stations) that `shockslate.solver.scenario` validates and runs.
 
 Geometry, from the closed chamber end at x = 0: a cylinder of radius r_c and length L_c, a straight convergent
 cone at the convergent half angle, an upstream throat arc of radius R_u, the throat (radius r_t), a downstream
-throat arc of radius R_d, then either a straight cone at the divergent half angle or a bell. In axisymmetric mode
+throat arc of radius R_d, then either a straight cone at the divergent half angle or a bell; or, after a sharp
+throat corner, the minimum-length contour by the method of characteristics. In axisymmetric mode
 "radius" is a radius and areas go with its square; in planar mode it is the half height above a symmetry line
 (the domain's bottom edge, a slip wall), areas go with it linearly and are per metre of depth.
 
@@ -20,10 +21,8 @@ Sources:
      angle theta_e), here drawn as the quadratic Bezier curve through N and E whose control point is where the
      two tangents meet. Downstream throat rounding 0.382 r_t and upstream 1.5 r_t are the values commonly used
      with it (common practice; from memory).
-[AM] J. D. Anderson, Modern Compressible Flow, ch. 11 (method of characteristics; the minimum-length nozzle of a
-     planar supersonic nozzle: a sharp throat corner turning the wall through half the Prandtl-Meyer angle of the
-     exit Mach number, the centred fan's characteristics reflected off the symmetry line and cancelled at the
-     wall; from memory).
+[AM] J. D. Anderson, Modern Compressible Flow, ch. 11, and M. J. Zucrow and J. D. Hoffman, Gas Dynamics ch. 12:
+     the minimum-length contour by the method of characteristics (solver/characteristics.py; from memory).
 [HH] D. K. Huzel and D. H. Huang, Modern Engineering for Design of Liquid-Propellant Rocket Engines (1992),
      fig. 4-16: theta_n and theta_e against area ratio for bells of 60 to 100 % of the cone length (from memory).
 """
@@ -31,17 +30,16 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Optional
 
 import numpy as np
 
-from . import relations
+from .characteristics import axisymmetric_minimum_length_wall, planar_minimum_length_wall
 from .gas import GAMMA_MAX, GAMMA_MIN, HOT_PRODUCTS, PRESETS, Gas
 
 MODES = ("axisymmetric", "planar")
 SHAPES = ("cone", "bell", "moc")
-#: Characteristics in the centred fan of a minimum-length contour.
-MOC_CHARACTERISTICS = 200
 #: Reference length of a bell: a cone of this half angle with the same throat and exit [SB], [R].
 REFERENCE_CONE_DEG = 15.0
 
@@ -105,9 +103,9 @@ class NozzleSpec:
     shape "cone": straight divergent wall at half_angle_deg. shape "bell": parabolic approximation of a
     thrust-optimised contour [R] of length bell_fraction x the 15 degree cone, leaving the downstream arc at
     inflection_angle_deg and reaching the exit at exit_angle_deg (defaults for an 80 % bell from a table, see
-    bell80_angles_deg; other lengths need both angles). shape "moc" (planar only): the minimum-length contour
-    by the method of characteristics [AM] for the exit Mach number of the area ratio at design_gamma; its throat
-    has a sharp corner (downstream_rounding is not used).
+    bell80_angles_deg; other lengths need both angles). shape "moc": the minimum-length contour by the method
+    of characteristics (solver/characteristics.py), planar or axisymmetric, for the exit Mach number of the area
+    ratio at design_gamma; its throat has a sharp corner (downstream_rounding is not used).
     """
 
     throat_radius_m: float
@@ -141,9 +139,6 @@ class NozzleSpec:
         _positive("upstream_rounding", self.upstream_rounding, "throat radii")
         _positive("downstream_rounding", self.downstream_rounding, "throat radii")
         if self.shape == "moc":
-            if self.mode != "planar":
-                raise DesignError("shape", self.shape, "the method-of-characteristics contour is built for planar "
-                                  "nozzles only; use bell (Rao's parabola) for an axisymmetric nozzle")
             if self.design_gamma is None:
                 raise DesignError("design_gamma", None, "the method-of-characteristics contour needs the gas's "
                                   f"gamma ({GAMMA_MIN} to {GAMMA_MAX})")
@@ -221,8 +216,10 @@ def _arc(centre: tuple[float, float], radius: float, a0_deg: float, a1_deg: floa
     return out
 
 
+@lru_cache(maxsize=32)
 def build_contour(spec: NozzleSpec) -> NozzleContour:
-    """The wall contour for the spec; raises DesignError when the numbers cannot make a wall."""
+    """The wall contour for the spec; raises DesignError when the numbers cannot make a wall. Cached: a
+    characteristics net takes about a second."""
     rt = spec.throat_radius_m
     rc, re = spec.chamber_radius_m, spec.exit_radius_m
     ru, rd = spec.upstream_rounding * rt, spec.downstream_rounding * rt
@@ -238,7 +235,13 @@ def build_contour(spec: NozzleSpec) -> NozzleContour:
     pts = [(0.0, rc), (spec.chamber_length_m, rc)]
     pts += _arc((x_t, rt + ru), ru, -ac, 0.0)
     if spec.shape == "moc":
-        wall = minimum_length_wall(spec.exit_area_ratio, float(spec.design_gamma), rt)
+        build = planar_minimum_length_wall if spec.mode == "planar" else axisymmetric_minimum_length_wall
+        try:
+            wall = build(spec.exit_area_ratio, float(spec.design_gamma), rt)
+        except (ValueError, ZeroDivisionError) as err:
+            raise DesignError("exit_area_ratio", spec.exit_area_ratio, "the method of characteristics found no "
+                              f"contour for it at gamma {spec.design_gamma:g} ({err}); the axisymmetric contour "
+                              "needs an area ratio of about 3 or more (1.5 or more for gamma up to 1.4)") from None
         pts += [(x_t + x, r) for x, r in wall]
         return NozzleContour(tuple((float(x), float(r)) for x, r in pts), float(x_t), float(pts[-1][0]), spec)
     turn = spec.half_angle_deg if spec.shape == "cone" else spec.bell_angles_deg()[0]
@@ -268,65 +271,6 @@ def build_contour(spec: NozzleSpec) -> NozzleContour:
             a, b, c = (1 - t) ** 2, 2 * t * (1 - t), t * t
             pts.append((a * xn + b * xq + c * x_e, a * rn + b * rq + c * re))
     return NozzleContour(tuple((float(x), float(r)) for x, r in pts), float(x_t), float(x_e), spec)
-
-
-def minimum_length_wall(area_ratio: float, gamma: float, throat_half_height_m: float,
-                        characteristics: int = MOC_CHARACTERISTICS) -> list[tuple[float, float]]:
-    """Wall points (x from the throat, half height) of a planar minimum-length nozzle [AM] ch. 11.
-
-    A centred Prandtl-Meyer fan at the sharp throat corner turns the flow to theta_max = nu(M_e)/2. Its n
-    characteristics (C-, carrying K- = theta + nu = 2 theta_i) reflect off the symmetry line (theta = 0) as C+
-    (K+ = theta - nu = -K-), cross the later C- ones, and are cancelled where they meet the wall, which is
-    turned to the flow angle there. Points join by straight pieces at the mean slope of their ends (theta - mu
-    for C-, theta + mu for C+). The exit half height approaches h_t A/A*(M_e) as n grows. The first point is
-    the throat corner (0, h_t); the last has theta = 0 and the exit Mach number.
-    """
-    me = float(relations.mach_from_area_ratio(area_ratio, gamma, supersonic=True))
-    theta_max = 0.5 * math.radians(float(relations.prandtl_meyer_deg(me, gamma)))
-    n = int(characteristics)
-    theta_i = [theta_max * (i + 1) / n for i in range(n)]
-    k_minus = [2.0 * t for t in theta_i]
-
-    # every nu on the net is theta_max * k / n for a whole k from 1 to 2n: one vectorised inversion for all
-    step = theta_max / n
-    machs = np.asarray(relations.mach_from_prandtl_meyer_deg(np.degrees(step * np.arange(1, 2 * n + 1)), gamma))
-    mach_angles = np.arcsin(1.0 / machs)
-
-    def mu(nu: float) -> float:
-        """Mach angle at Prandtl-Meyer angle nu (radians)."""
-        return float(mach_angles[int(round(nu / step)) - 1])
-
-    def meet(p, slope_p, q, slope_q):
-        """Intersection of the line through p with slope_p and the line through q with slope_q."""
-        x = (q[1] - p[1] + slope_p * p[0] - slope_q * q[0]) / (slope_p - slope_q)
-        return (x, p[1] + slope_p * (x - p[0]))
-
-    corner = (0.0, throat_half_height_m)
-    # state at the corner along each fan characteristic: theta_i, nu_i = theta_i
-    prev_col: list[tuple[tuple[float, float], float, float]] = [(corner, t, t) for t in theta_i]  # (point, theta, nu)
-    wall = [corner]
-    wall_theta = theta_max
-    for j in range(n):  # the C+ characteristic that starts on the axis where C-_j lands
-        col: list[tuple[tuple[float, float], float, float]] = []
-        k_plus = -k_minus[j]
-        for i in range(j, n):
-            th, nu = 0.5 * (k_minus[i] + k_plus), 0.5 * (k_minus[i] - k_plus)
-            p_minus, th_m, nu_m = prev_col[i] if j == 0 else prev_col[i - j + 1]  # C-_i's previous point
-            slope_minus = math.tan(0.5 * ((th_m - mu(nu_m)) + (th - mu(nu))))
-            if i == j:
-                x = p_minus[0] - p_minus[1] / slope_minus  # down to the symmetry line
-                col.append(((x, 0.0), 0.0, nu))
-            else:
-                q, th_q, nu_q = col[-1]
-                slope_plus = math.tan(0.5 * ((th_q + mu(nu_q)) + (th + mu(nu))))
-                col.append((meet(p_minus, slope_minus, q, slope_plus), th, nu))
-        last, th_l, nu_l = col[-1]
-        slope_wall = math.tan(0.5 * (wall_theta + th_l))
-        slope_c = math.tan(th_l + mu(nu_l))
-        wall.append(meet(wall[-1], slope_wall, last, slope_c))
-        wall_theta = th_l
-        prev_col = col
-    return wall
 
 
 # ----------------------------------------------------------------------------- the scenario

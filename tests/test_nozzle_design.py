@@ -9,6 +9,8 @@ Sources:
 [AM] J. D. Anderson, Modern Compressible Flow, ch. 11: the planar minimum-length nozzle by the method of
      characteristics: the wall leaves the sharp throat corner at nu(M_e)/2, ends parallel to the axis, and its exit
      height tends to the area-Mach value as the characteristics multiply (from memory).
+[ZH] M. J. Zucrow and J. D. Hoffman, Gas Dynamics, vol. 1, ch. 12: axisymmetric compatibility relations, used for
+     the axisymmetric minimum-length contour (from memory).
 [N]  NACA Report 1135 (1953): the choked-flow relation behind solver.relations.choked_mass_flow_kg_s (checked
      against the report's tables in tests/test_relations.py).
 """
@@ -21,6 +23,7 @@ import numpy as np
 import pytest
 
 from shockslate.server.cli import main
+from shockslate.solver import characteristics as mc
 from shockslate.solver import nozzle_design as nd
 from shockslate.solver import relations
 from shockslate.solver.diagnostics import read_station
@@ -93,19 +96,41 @@ def test_minimum_length_contour_by_characteristics():
     # [AM] + [N]: the exit height tends to h_t A/A*(M_e); with 200 characteristics within 0.05 %
     assert r[-1] / RT == pytest.approx(2.0, rel=5e-4)
     me = float(relations.mach_from_area_ratio(2.0, 1.4, supersonic=True))
-    wall = nd.minimum_length_wall(2.0, 1.4, RT)
+    wall = mc.planar_minimum_length_wall(2.0, 1.4, RT)
     # [AM]: the wall leaves the corner at theta_max = nu(M_e)/2 (the first piece's slope is the mean of theta_max
     # and the first reflected angle) and is parallel to the axis at the exit
     theta_max = 0.5 * float(relations.prandtl_meyer_deg(me, 1.4))
     assert _slope_deg(wall[0], wall[1]) == pytest.approx(theta_max, abs=theta_max / 100)
     assert _slope_deg(wall[-2], wall[-1]) == pytest.approx(0.0, abs=theta_max / 100)
     # more characteristics, closer to the area-Mach value [N]
-    errors = [abs(nd.minimum_length_wall(2.0, 1.4, 1.0, n)[-1][1] / 2.0 - 1.0) for n in (7, 30, 120)]
+    errors = [abs(mc.planar_minimum_length_wall(2.0, 1.4, 1.0, n)[-1][1] / 2.0 - 1.0) for n in (7, 30, 120)]
     assert errors[0] > errors[1] > errors[2] and errors[0] < 0.03
-    with pytest.raises(nd.DesignError, match="built for planar nozzles only"):
-        nd.NozzleSpec(RT, 2.5, 0.02, 2.0, shape="moc", design_gamma=1.4)
     with pytest.raises(nd.DesignError, match="design_gamma is missing"):
         nd.NozzleSpec(RT, 2.5, 0.02, 2.0, mode="planar", shape="moc")
+
+
+def test_axisymmetric_minimum_length_contour():
+    spec = nd.NozzleSpec(RT, 3.0, 0.02, 4.0, shape="moc", design_gamma=1.4)
+    c = nd.build_contour(spec)
+    pts = np.array(c.points_m)
+    r = pts[:, 1]
+    # the exit radius comes from the throat's mass flow carried along the last characteristic: the area ratio
+    # asked for when the exit flow is uniform at the area-Mach exit Mach number [N]
+    assert r.min() == pytest.approx(RT, rel=1e-12) and (r[-1] / RT) ** 2 == pytest.approx(4.0, rel=1e-6)
+    k_t = int(np.argmin(r))
+    assert np.all(np.diff(r[k_t:]) > 0.0) and np.all(np.diff(pts[:, 0]) >= 0.0)
+    # [AM]/[ZH]: the wall turns back towards the axis direction: the last pieces are flatter than the first
+    wall = mc.axisymmetric_minimum_length_wall(4.0, 1.4, 1.0)
+    assert _slope_deg(wall[-2], wall[-1]) < 0.5 * _slope_deg(wall[0], wall[1])
+    # an axisymmetric nozzle reaches a Mach number in a shorter length than a planar one (its area grows with
+    # r^2; common practice, no source)
+    planar = mc.planar_minimum_length_wall(float(relations.area_ratio(
+        float(relations.mach_from_area_ratio(4.0, 1.4, supersonic=True)), 1.4)), 1.4, 1.0)
+    assert wall[-1][0] < planar[-1][0]
+    # where the net cannot reach the exit Mach number the contour is refused, not drawn wrong
+    with pytest.raises(nd.DesignError, match=r"exit_area_ratio = 1.05 is not allowed: the method of characteristics "
+                                             r"found no contour"):
+        nd.build_contour(nd.NozzleSpec(RT, 3.0, 0.02, 1.05, shape="moc", design_gamma=1.4))
 
 
 @pytest.mark.parametrize("key", [*SPECS, "planar moc"])
@@ -177,20 +202,25 @@ def test_a_built_nozzle_passes_the_choked_mass_flow(key, spec):
 
 
 @pytest.mark.slow
-def test_a_minimum_length_nozzle_passes_the_choked_mass_flow_and_reaches_its_exit_mach():
+@pytest.mark.parametrize("spec, cells, end_time_s", [
+    (MOC, 8, 0.002),
+    (nd.NozzleSpec(RT, 3.0, 0.02, 4.0, shape="moc", design_gamma=1.4), 10, 0.0015),
+], ids=["planar", "axisymmetric"])
+def test_a_minimum_length_nozzle_passes_the_choked_mass_flow_and_reaches_its_exit_mach(spec, cells, end_time_s):
     # [SB] eq. 3-24 / [N] choked mass flow for the drawn throat (README: the solver is within about 2 %); [N]
-    # area-Mach: the exit Mach number of area ratio 2 at gamma 1.4 is 2.197. First honest run at 8 cells per
-    # throat half height: mass flow 0.994, exit-station mean Mach 2.171 (1.2 % low).
+    # area-Mach: the exit Mach number of the area ratio at gamma 1.4 (2.197 for 2, 2.940 for 4). First honest
+    # runs: planar at 8 cells per throat half height, mass flow 0.994 and exit-station mean Mach 1.2 % low;
+    # axisymmetric at 10 cells per throat radius, 0.988 and 2.2 % low (at 8 cells: 0.982 and 0.9 % low).
     from shockslate.solver.gas import AIR
 
-    run = nd.RunChoices(p0_pa=1.0e6, t0_k=300.0, ambient_p_pa=1.0e4, gas=AIR, cells_per_throat_radius=8,
-                        plume_length_m=0.01, end_time_s=0.002)
-    s = parse_scenario(nd.nozzle_scenario(MOC, run))
+    run = nd.RunChoices(p0_pa=1.0e6, t0_k=300.0, ambient_p_pa=1.0e4, gas=AIR, cells_per_throat_radius=cells,
+                        plume_length_m=0.01, end_time_s=end_time_s)
+    s = parse_scenario(nd.nozzle_scenario(spec, run))
     sim = build_simulation(s)
     sim.run_until(s.end_time_s)
-    ideal = relations.choked_mass_flow_kg_s(1.0e6, 300.0, RT, 1.4, AIR.r_j_kg_k)
+    ideal = relations.choked_mass_flow_kg_s(1.0e6, 300.0, spec.area_m2(RT), 1.4, AIR.r_j_kg_k)
     assert read_station(sim, station_by_role(s, "throat")).mass_flow_kg_s == pytest.approx(ideal, rel=0.02)
-    me = float(relations.mach_from_area_ratio(2.0, 1.4, supersonic=True))
+    me = float(relations.mach_from_area_ratio(spec.exit_area_ratio, 1.4, supersonic=True))
     assert read_station(sim, station_by_role(s, "exit")).mean_mach == pytest.approx(me, rel=0.03)
 
 
@@ -213,7 +243,7 @@ def test_cli_writes_a_scenario_that_check_accepts(tmp_path, capsys):
     (["--area-ratio", "0.5"], "--area-ratio = 0.5 is not allowed: must be a ratio of areas greater than 1"),
     (["--half-angle", "60"], "--half-angle = 60.0 is not allowed: must be an angle"),
     (["--p0", "0"], "--p0 = 0.0 is not allowed"),
-    (["--moc", ""], "--bell/--moc = moc is not allowed: the method-of-characteristics contour is built for planar"),
+    (["--downstream-rounding", "0"], "--downstream-rounding = 0.0 is not allowed: must be a number greater than 0"),
 ])
 def test_cli_refuses_bad_numbers_with_exit_code_2(tmp_path, capsys, argv, says):
     base = {"--throat-radius": "0.01", "--contraction-ratio": "4", "--chamber-length": "0.03", "--area-ratio": "4"}

@@ -22,7 +22,7 @@ FLAGS = {
     "inflection_angle_deg": "--inflection-angle", "exit_angle_deg": "--exit-angle", "p0_pa": "--p0",
     "t0_k": "--t0", "ambient_p_pa": "--p-ambient", "ambient_t_k": "--t-ambient",
     "cells_per_throat_radius": "--cells-per-throat-radius", "plume_length_m": "--plume-length",
-    "end_time_s": "--end-time", "mode": "--planar", "shape": "--bell/--moc", "design_gamma": "--gas",
+    "end_time_s": "--end-time", "mode": "--planar", "shape": "--bell", "design_gamma": "--gas",
 }
 
 
@@ -61,8 +61,8 @@ def add_nozzle_command(sub) -> argparse.ArgumentParser:
     kind.add_argument("--bell", action="store_true",
                       help="a bell instead of a cone: Rao's parabolic approximation of a thrust-optimised contour")
     kind.add_argument("--moc", action="store_true",
-                      help="planar only: the minimum-length contour by the method of characteristics for the gas's "
-                           "gamma (sharp throat corner)")
+                      help="the minimum-length contour by the method of characteristics for the gas's gamma "
+                           "(sharp throat corner), planar or axisymmetric")
     g.add_argument("--bell-length", type=_number, default=0.8, metavar="FRACTION",
                    help="bell length as a fraction of the 15 degree cone's (default 0.8)")
     g.add_argument("--inflection-angle", type=_number, metavar="DEG",
