@@ -25,7 +25,7 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Callable, Optional
 
-from . import export, nozzle_report, report
+from . import export, nozzle, nozzle_report, report
 from .diagnostics import read_probe, read_station, station_profile
 from .errors import SolverDiverged
 from .fields import VIEWS
@@ -120,7 +120,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     history = export.HistoryWriter(out / "history.csv", [st.name for st in stations], [p.name for p in probes])
     throat, exit_ = station_by_role(s, "throat"), station_by_role(s, "exit")
     is_nozzle = throat is not None and exit_ is not None and (sim.mask == 2).any()
-    geo = nozzle_report.geometry(sim, throat, exit_) if is_nozzle else None
+    noz = nozzle.drawn_nozzle(s) if is_nozzle else None
 
     snapshots: list[dict] = []
     files: list[str] = ["summary.json", "history.csv", "report.html"]
@@ -213,11 +213,10 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         "files": files,
     }
     axis = None
-    if geo is not None:
-        fig = nozzle_report.figures(sim, throat, exit_, geo)
+    if noz is not None:
+        fig = nozzle_report.figures(sim, s, noz, throat, exit_)
         summary["nozzle"] = {k: (_finite(v) if isinstance(v, float) else v) for k, v in fig.as_dict().items()}
-        summary["nozzle"]["throat_x_m"] = geo.throat_x_m
-        axis = nozzle_report.axis_distribution(sim, geo)
+        axis = nozzle_report.axis_distribution(sim, s, noz)
     if not write_pictures:
         files.remove("report.html")
     (out / "summary.json").write_text(json.dumps(summary, indent=2) + "\n", encoding="utf-8")

@@ -152,10 +152,14 @@ def _table(rows: list[tuple[str, Any]]) -> str:
 
 NOZZLE_ROWS = [
     ("flow regime (1D limits)", "regime", ""),
-    ("throat area (mask)", "throat_area_m2", "m^2"),
-    ("exit area (mask)", "exit_area_m2", "m^2"),
-    ("area ratio Ae/A*", "area_ratio", "-"),
-    ("divergence half angle (mask, near exit)", "divergence_half_angle_deg", "deg"),
+    ("throat area A* (drawn)", "throat_area_m2", "m^2"),
+    ("throat position (drawn)", "throat_x_m", "m"),
+    ("exit area (drawn, exit station line)", "exit_area_m2", "m^2"),
+    ("area ratio Ae/A* (drawn)", "area_ratio", "-"),
+    ("throat area (resolved on the cells, for comparison)", "throat_area_resolved_m2", "m^2"),
+    ("exit area (resolved on the cells, for comparison)", "exit_area_resolved_m2", "m^2"),
+    ("area ratio (resolved on the cells, for comparison)", "area_ratio_resolved", "-"),
+    ("divergence half angle (drawn wall, near exit)", "divergence_half_angle_deg", "deg"),
     ("divergence factor lambda", "divergence_factor", "-"),
     ("choked mass flow (theory)", "choked_mass_flow_kg_s", "kg/s"),
     ("mass flow at throat (simulated)", "mass_flow_throat_kg_s", "kg/s"),
@@ -222,8 +226,9 @@ def write_report(path: str | Path, summary: dict, description: str, sim: Simulat
                      "flow, c*, C_F at the ideal exit pressure and the actual ambient pressure); divergence factor "
                      "(1 + cos a)/2 for a cone (Malina 1940, quoted there) or sin(a)/a for a planar nozzle; area-Mach "
                      "relation and regime limits: J. D. Anderson, Modern Compressible Flow, ch. 5. Areas are those "
-                     "of the rasterised cells. Thrust is integrated over the exit station; C_F and c* use the "
-                     "reservoir p0 and the mask's throat area.</p>")
+                     "of the drawn shapes (the same figures the page and the sweep report show); the areas the "
+                     "cells resolve are listed beside them. Thrust is integrated over the exit station; C_F and c* "
+                     "use the reservoir p0 and the drawn throat area.</p>")
         if axis is not None:
             parts.append(f"<img alt='axis distributions' src='data:image/png;base64,"
                          f"{_png_base64(axis_figure(axis, nozzle['throat_x_m']))}'>")

@@ -51,7 +51,7 @@ from typing import Any, Callable, Literal, Optional, get_args, get_origin
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 
-from . import relations
+from . import nozzle
 from .gas import Gas
 from .report import CAUTION
 from .scenario import (
@@ -912,14 +912,12 @@ def _figure_groups(columns: list[str]) -> dict[str, list[str]]:
 
 def ideal_nozzle_figures(p0_pa: float, t0_k: float, p_amb_pa: float, gamma: float, r_j_kg_k: float,
                          throat_area_m2: float, area_ratio: float, divergence_factor: float) -> dict[str, float]:
-    """Ideal 1D C_F (with and without the divergence factor) and choked mass flow; [SB] ch. 3 via solver.relations."""
-    eps = max(area_ratio, 1.0)
-    pe_p0 = float(relations.exit_pressure_ratio(eps, gamma)) if eps > 1.0 else float(relations.p_p0(1.0, gamma))
-    pa_p0 = min(max(p_amb_pa / p0_pa, 0.0), 1.0)
-    cf = relations.thrust_coefficient(pe_p0, pa_p0, eps, gamma)
-    cf_div = divergence_factor * relations.momentum_thrust_coefficient(pe_p0, gamma) + (pe_p0 - pa_p0) * eps
-    mdot = relations.choked_mass_flow_kg_s(p0_pa, t0_k, throat_area_m2, gamma, r_j_kg_k)
-    return {"cf": cf, "cf_div": cf_div, "mdot": mdot, "pe_pa": pe_p0 * p0_pa}
+    """Ideal 1D C_F (with and without the divergence factor), choked mass flow and exit pressure for a point of
+    a report curve: solver.nozzle.ideal_figures, the same function behind summary.json and the page."""
+    fig = nozzle.ideal_figures(p0_pa, t0_k, p_amb_pa, gamma, r_j_kg_k, throat_area_m2, area_ratio,
+                               divergence_factor)
+    return {"cf": fig.ideal_thrust_coefficient, "cf_div": fig.ideal_thrust_coefficient_with_divergence,
+            "mdot": fig.choked_mass_flow_kg_s, "pe_pa": fig.ideal_exit_pressure_pa}
 
 
 def _case_gas(case: Case) -> tuple[float, float]:
