@@ -29,7 +29,8 @@ from . import export, nozzle, nozzle_report, report
 from .diagnostics import read_probe, read_station, station_profile
 from .errors import SolverDiverged
 from .fields import VIEWS
-from .scenario import Scenario, build_simulation, builtin_names, load_builtin, load_scenario, station_by_role, to_stations
+from .scenario import (Scenario, build_simulation, builtin_names, load_builtin, load_scenario, scenario_to_json,
+                       station_by_role, to_stations)
 
 #: Keys every summary.json has (the nozzle block is null unless the scenario is a reservoir-fed nozzle).
 SUMMARY_KEYS = ("scenario", "description", "status", "message", "sim_time_s", "end_time_s", "steps", "wall_s",
@@ -115,6 +116,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     out.mkdir(parents=True, exist_ok=True)
 
     sim = build_simulation(s, nx)
+    scenario_json = scenario_to_json(s)
     stations = to_stations(s)
     probes = list(s.probes)
     history = export.HistoryWriter(out / "history.csv", [st.name for st in stations], [p.name for p in probes])
@@ -136,8 +138,9 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         k = len(snapshots)
         entry = {"index": k, "time_s": sim.time_s, "steps": sim.steps}
         if write_fields:
-            entry["npz"] = export.write_npz(out / f"fields_{k:04d}.npz", sim).name
-            entry["vti"] = export.write_vti(out / f"fields_{k:04d}.vti", sim).name
+            arrays = export.field_arrays(sim, scenario_json)
+            entry["npz"] = export.write_npz(out / f"fields_{k:04d}.npz", arrays).name
+            entry["vti"] = export.write_vti(out / f"fields_{k:04d}.vti", arrays, sim.domain).name
         if write_pictures:
             entry["png"] = report.save_snapshot_png(out / f"snapshot_{k:04d}.png", sim, view).name
         snapshots.append(entry)
@@ -187,7 +190,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     history.close()
     for st in stations:
         name = f"station_{_safe(st.name)}.csv"
-        export.write_profile_csv(out / name, station_profile(sim, st))
+        export.write_station_csv(out / name, [(st.name, station_profile(sim, st))])
         files.append(name)
 
     summary = {
