@@ -95,7 +95,7 @@ def test_history_csv_columns_and_samples(tube_run):
 def test_station_csv_and_report(tube_run):
     out, summary, calls = tube_run
     with (out / "station_mid_tube.csv").open() as fh:
-        assert fh.readline().strip().split(",") == list(export.PROFILE_COLUMNS)
+        assert fh.readline().strip().split(",") == list(export.STATION_CSV_COLUMNS)
     text = (out / "report.html").read_text()
     assert CAUTION in text
     assert text.count("data:image/png;base64,") >= 2

@@ -25,7 +25,8 @@ from shockslate.server import readings
 from shockslate.solver import nozzle, sweep
 from shockslate.solver.batch import run_scenario
 from shockslate.solver.gas import PRESETS
-from shockslate.solver.scenario import build_simulation, builtin_names, has_reservoir, load_builtin, parse_scenario
+from shockslate.solver.scenario import (build_simulation, builtin_names, has_reservoir, load_builtin, parse_scenario,
+                                        to_gas)
 
 
 @pytest.fixture(scope="module", autouse=True)
@@ -168,7 +169,8 @@ def test_page_summary_report_and_sweep_show_the_same_ideal_figures(name, tmp_pat
         out = tmp_path / f"run{nx}"
         summary = run_scenario(s, out, nx=nx, steps=1, progress=None, write_fields=False,
                                write_pictures=(n == 0))["nozzle"]
-        g, r = sweep._case_gas(sweep.Case(0, {}, {"gas": s.gas.model_dump()}, nx, 1.0, ""))
+        gas = to_gas(s)
+        g, r = gas.gamma, gas.r_j_kg_k
         curve = sweep.ideal_nozzle_figures(summary["p0_pa"], summary["t0_k"], summary["p_amb_pa"], g, r,
                                            summary["throat_area_m2"], summary["area_ratio"],
                                            summary["divergence_factor"])
