@@ -7,7 +7,6 @@ relation along the axis).
 """
 from __future__ import annotations
 
-import math
 from dataclasses import asdict, dataclass
 
 import numpy as np
