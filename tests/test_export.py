@@ -161,3 +161,17 @@ def test_page_download_and_batch_files_have_one_layout(tmp_path):
     with (tmp_path / "run" / "station_exit.csv").open() as fh:
         assert tuple(next(csv.reader(fh))) == export.STATION_CSV_COLUMNS
     assert page_csv.read_text().splitlines()[0] == ",".join(export.STATION_CSV_COLUMNS)
+
+
+def test_readme_file_formats_lists_every_array_with_unit_shape_and_dtype():
+    """README.md, "File formats", is the user's reference for the layout: it must match NPZ_ARRAYS row by row."""
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parent.parent / "README.md").read_text(encoding="utf-8")
+    section = text.split("## File formats", 1)[1].split("\n## ", 1)[0]
+    for name, (meaning, unit, shape, dtype) in export.NPZ_ARRAYS.items():
+        assert f"| `{name}` | {meaning} | {unit} | {shape} | {dtype} |" in section, name
+    for name in export.VTI_ARRAYS:
+        assert f"`{name}`" in section, name
+    for column in export.STATION_CSV_COLUMNS:
+        assert f"`{column}`" in section, column
