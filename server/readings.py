@@ -33,15 +33,14 @@ def _station_x_m(st: scn.StationModel) -> float:
     return 0.5 * (st.start_m[0] + st.end_m[0])
 
 
-def station_ideal(sim: Simulation, scenario: scn.Scenario, noz: nozzle.DrawnNozzle,
-                  st: scn.StationModel) -> dict | None:
+def station_ideal(scenario: scn.Scenario, noz: nozzle.DrawnNozzle, st: scn.StationModel,
+                  resolved: nozzle.ResolvedAreas) -> dict | None:
     """Ideal 1D figures at a station's line: drawn section over the drawn throat (solver.nozzle), with the
     resolved (cell mask) throat area beside them; None where the section is narrower than the throat."""
-    section = nozzle.drawn_area_m2(scenario, _station_x_m(st))
+    section = nozzle.drawing(scenario).area_m2(_station_x_m(st))
     fig = nozzle.scenario_ideal(scenario, noz, section) if math.isfinite(section) else None
     if fig is None:
         return None
-    resolved = nozzle.resolved_areas(noz, scenario, sim.mask, sim.domain)
     return {"throat_area_m2": fig.throat_area_m2, "section_area_m2": section, "area_ratio": fig.area_ratio,
             "choked_mass_flow_kg_s": fig.choked_mass_flow_kg_s, "ideal_exit_mach": fig.ideal_exit_mach,
             "ideal_thrust_n": fig.ideal_thrust_n, "regime": fig.regime,
@@ -55,10 +54,13 @@ def _finite(value: float) -> float | None:
 def station_figures(sim: Simulation, scenario: scn.Scenario, noz: nozzle.DrawnNozzle | None) -> list[dict]:
     """Each station's reading, with the ideal 1D figures where they apply (each station read once)."""
     out = []
+    resolved = None
     for st in scenario.stations:
         r = read_station(sim, Station(tuple(st.start_m), tuple(st.end_m), st.name))
-        in_nozzle = noz is not None and (st.role is not None or noz.run_m[0] <= _station_x_m(st) <= noz.run_m[1])
-        ideal = station_ideal(sim, scenario, noz, st) if in_nozzle else None
+        ideal = None
+        if noz is not None and (st.role is not None or noz.run_m[0] <= _station_x_m(st) <= noz.run_m[1]):
+            resolved = resolved or nozzle.resolved_areas(noz, scenario, sim.mask, sim.domain)
+            ideal = station_ideal(scenario, noz, st, resolved)
         out.append({"name": st.name, "role": st.role, "mass_flow_kg_s": r.mass_flow_kg_s, "thrust_n": r.thrust_n,
                     "mean_mach": r.mean_mach, "mean_pressure_pa": r.mean_pressure_pa, "area_m2": r.area_m2,
                     "ideal": ideal})

@@ -21,10 +21,11 @@ Ideal figures (isentropic, calorically perfect gas; all through shockslate.solve
 """
 from __future__ import annotations
 
+import functools
 import json
 import math
 from collections import OrderedDict
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, field
 from typing import Optional
 
 import numpy as np
@@ -47,16 +48,14 @@ HALF_ANGLE_TAIL = 0.4
 
 # ----------------------------------------------------------------------------- the drawing along one line
 
-def _polygon_crossings(points: tuple, x: float) -> list[float]:
+def _polygon_crossings(points, x: float) -> list[float]:
     """y where the closed polygon's edges cross the line x (half-open rule: a vertex on the line counts once)."""
-    ys = []
-    n = len(points)
-    for k in range(n):
-        (x1, y1), (x2, y2) = points[k], points[(k + 1) % n]
-        if (x1 > x) != (x2 > x):
-            ys.append(y1 + (x - x1) * (y2 - y1) / (x2 - x1))
-    ys.sort()
-    return ys
+    pts = np.asarray(points, dtype=np.float64)
+    x1, y1 = pts[:, 0], pts[:, 1]
+    x2, y2 = np.roll(x1, -1), np.roll(y1, -1)
+    hit = (x1 > x) != (x2 > x)
+    ys = y1[hit] + (x - x1[hit]) * (y2[hit] - y1[hit]) / (x2[hit] - x1[hit])
+    return sorted(ys.tolist())
 
 
 def _capsule_interval(a: tuple, b: tuple, half: float, x: float) -> Optional[tuple[float, float]]:
@@ -136,12 +135,41 @@ class Drawing:
     axis_y_m: float
     mode: str
     vertex_x_m: tuple[float, ...]
+    #: per shape, the x range it can cover, and for a stroke its pieces (ax, ay, bx, by, x_lo, x_hi), so a line
+    #: only looks at the shapes and pieces it crosses (a freehand stroke has hundreds of pieces)
+    x_ranges: tuple[tuple[float, float], ...] = field(default=(), repr=False, compare=False)
+    pieces: tuple[Optional[np.ndarray], ...] = field(default=(), repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        ranges, pieces = [], []
+        for shape in self.shapes:
+            x0, _, x1, _ = shape.bounds_m()
+            ranges.append((x0, x1))
+            if isinstance(shape, Stroke):
+                pts = np.asarray(shape.points_m, dtype=np.float64)
+                a, b, h = pts[:-1], pts[1:], 0.5 * shape.width_m
+                pieces.append(np.column_stack([a, b, np.minimum(a[:, 0], b[:, 0]) - h, np.maximum(a[:, 0], b[:, 0]) + h]))
+            else:
+                pieces.append(None)
+        object.__setattr__(self, "x_ranges", tuple(ranges))
+        object.__setattr__(self, "pieces", tuple(pieces))
+
+    def _intervals(self, k: int, x: float) -> list[tuple[float, float]]:
+        shape, pieces = self.shapes[k], self.pieces[k]
+        if pieces is None:
+            return shape_intervals(shape, x)
+        near = pieces[(pieces[:, 4] <= x) & (x <= pieces[:, 5])]
+        found = (_capsule_interval((p[0], p[1]), (p[2], p[3]), 0.5 * shape.width_m, x) for p in near)
+        return [f for f in found if f]
 
     def painted(self, x: float) -> list[tuple[float, float, str]]:
         """The painted intervals of the line x, clipped to the domain height, in order of y."""
         line: list[tuple[float, float, str]] = []
-        for shape in self.shapes:
-            for lo, hi in shape_intervals(shape, x):
+        for k, shape in enumerate(self.shapes):
+            x0, x1 = self.x_ranges[k]
+            if x < x0 or x > x1:
+                continue
+            for lo, hi in self._intervals(k, x):
                 lo, hi = max(lo, self.y_min_m), min(hi, self.y_max_m)
                 if hi >= lo:
                     line = _paint(line, lo, hi, shape.paints)
@@ -197,8 +225,7 @@ def _vertices_x(shape: Shape) -> list[float]:
     return [shape.centre_m[0]]
 
 
-def drawing(scenario) -> Drawing:
-    """The Drawing of a scenario (solver.scenario.Scenario)."""
+def _drawing(scenario) -> Drawing:
     from .scenario import to_sketch
 
     sketch = to_sketch(scenario)
@@ -284,23 +311,43 @@ def exit_line_x_m(scenario) -> Optional[float]:
     return None
 
 
-def drawn_nozzle(scenario) -> Optional[DrawnNozzle]:
-    """The drawn nozzle of a scenario, or None when the gas column is walled nowhere. Kept for the last few
-    drawings (keyed by sketch, domain, mode and stations), since the page asks at every status."""
-    key = json.dumps({"sketch": scenario.sketch.model_dump(mode="json"),
-                      "domain": scenario.domain.model_dump(mode="json"), "mode": scenario.mode,
-                      "stations": [st.model_dump(mode="json") for st in scenario.stations]}, sort_keys=True)
+def _key(scenario) -> str:
+    return json.dumps({"sketch": scenario.sketch.model_dump(mode="json"),
+                       "domain": scenario.domain.model_dump(mode="json"), "mode": scenario.mode,
+                       "stations": [st.model_dump(mode="json") for st in scenario.stations]}, sort_keys=True)
+
+
+def _kept(scenario) -> dict:
+    """What has been worked out for this drawing (the Drawing, the DrawnNozzle), kept for the last few drawings
+    (keyed by sketch, domain, mode and stations), since the page asks at every status."""
+    key = _key(scenario)
     if key in _KEPT:
         _KEPT.move_to_end(key)
         return _KEPT[key]
-    value = _drawn_nozzle(scenario)
-    _KEPT[key] = value
+    box: dict = {}
+    _KEPT[key] = box
     while len(_KEPT) > 32:
         _KEPT.popitem(last=False)
-    return value
+    return box
 
 
-_KEPT: "OrderedDict[str, Optional[DrawnNozzle]]" = OrderedDict()
+_KEPT: "OrderedDict[str, dict]" = OrderedDict()
+
+
+def drawing(scenario) -> Drawing:
+    """The Drawing of a scenario (solver.scenario.Scenario)."""
+    box = _kept(scenario)
+    if "drawing" not in box:
+        box["drawing"] = _drawing(scenario)
+    return box["drawing"]
+
+
+def drawn_nozzle(scenario) -> Optional[DrawnNozzle]:
+    """The drawn nozzle of a scenario, or None when the gas column is walled nowhere."""
+    box = _kept(scenario)
+    if "nozzle" not in box:
+        box["nozzle"] = _drawn_nozzle(scenario)
+    return box["nozzle"]
 
 
 def _drawn_nozzle(scenario) -> Optional[DrawnNozzle]:
@@ -437,7 +484,15 @@ def ideal_figures(p0_pa: float, t0_k: float, p_amb_pa: float, gamma: float, r_j_
                   throat_area_m2: float, area_ratio: float, divergence_factor: float = 1.0) -> IdealFigures:
     """Choked mass flow, c*, exit Mach and pressure, C_F (with and without the divergence factor), Isp and
     thrust of the ideal nozzle at the ambient pressure ([SB] ch. 3; area-Mach [N]; regimes [A] ch. 5).
-    An area ratio below 1 is taken as 1 (the exit is the throat)."""
+    An area ratio below 1 is taken as 1 (the exit is the throat). Remembered for the last few inputs: the page
+    asks for the same figures at every status, and the area-Mach inversions are iterative."""
+    return _ideal_figures(float(p0_pa), float(t0_k), float(p_amb_pa), float(gamma), float(r_j_kg_k),
+                          float(throat_area_m2), float(area_ratio), float(divergence_factor))
+
+
+@functools.lru_cache(maxsize=1024)
+def _ideal_figures(p0_pa: float, t0_k: float, p_amb_pa: float, gamma: float, r_j_kg_k: float,
+                   throat_area_m2: float, area_ratio: float, divergence_factor: float) -> IdealFigures:
     eps = max(float(area_ratio), 1.0)
     me = float(relations.mach_from_area_ratio(eps, gamma, supersonic=True)) if eps > 1.0 else 1.0
     pe_p0 = float(relations.p_p0(me, gamma))
