@@ -192,3 +192,14 @@ def test_page_summary_report_and_sweep_show_the_same_ideal_figures(name, tmp_pat
     # the drawn figures do not move with the resolution; the resolved area does, and is labelled as such
     assert seen[0][:2] == seen[1][:2]
     assert seen[0][2] != seen[1][2]
+
+
+def test_freehand_stroke_wall_is_read_piece_by_piece():
+    # a 300-point stroke along y = 30 mm, 4 mm wide, over a straight run: the section is 30 - 2 = 28 mm
+    # (exact geometry), and a dip of the stroke to 20 mm between x = 90 and 110 mm narrows it to 18 mm
+    pts = [[0.2 * k / 299, 0.02 if 0.09 <= 0.2 * k / 299 <= 0.11 else 0.03] for k in range(300)]
+    s = parse_scenario(doc([{"kind": "stroke", "points_m": pts, "width_m": 0.004, "paints": "wall"}, RESERVOIR]))
+    d = nozzle.drawing(s)
+    assert d.area_m2(0.05) == pytest.approx(0.028, rel=1e-12)
+    assert d.area_m2(0.1) == pytest.approx(0.018, rel=1e-12)
+    assert nozzle.drawn_nozzle(s).throat_area_m2 == pytest.approx(0.018, rel=1e-12)
