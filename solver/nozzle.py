@@ -49,13 +49,21 @@ HALF_ANGLE_TAIL = 0.4
 # ----------------------------------------------------------------------------- the drawing along one line
 
 def _polygon_crossings(points, x: float) -> list[float]:
-    """y where the closed polygon's edges cross the line x (half-open rule: a vertex on the line counts once)."""
+    """y where the closed polygon's edges cross the line x (half-open rule: a vertex on the line counts once).
+    A plain loop for the usual few dozen vertices; numpy for long outlines (an imported contour)."""
+    n = len(points)
+    if n <= 64:
+        ys = []
+        for k in range(n):
+            (x1, y1), (x2, y2) = points[k], points[(k + 1) % n]
+            if (x1 > x) != (x2 > x):
+                ys.append(y1 + (x - x1) * (y2 - y1) / (x2 - x1))
+        return sorted(ys)
     pts = np.asarray(points, dtype=np.float64)
     x1, y1 = pts[:, 0], pts[:, 1]
     x2, y2 = np.roll(x1, -1), np.roll(y1, -1)
     hit = (x1 > x) != (x2 > x)
-    ys = y1[hit] + (x - x1[hit]) * (y2[hit] - y1[hit]) / (x2[hit] - x1[hit])
-    return sorted(ys.tolist())
+    return sorted((y1[hit] + (x - x1[hit]) * (y2[hit] - y1[hit]) / (x2[hit] - x1[hit])).tolist())
 
 
 def _capsule_interval(a: tuple, b: tuple, half: float, x: float) -> Optional[tuple[float, float]]:
@@ -254,7 +262,7 @@ class DrawnNozzle:
     exit_x_m: float
     area_ratio: float
     divergence_half_angle_deg: float
-    #: first and last x of the fed, walled run of the gas column
+    #: first and last line of the fed, walled run of the gas column (it may go on past the exit line)
     run_m: tuple[float, float]
     #: the lines where the drawing was read (within the run) and the drawn area there
     section_x_m: tuple[float, ...]
@@ -362,16 +370,17 @@ def _drawn_nozzle(scenario) -> Optional[DrawnNozzle]:
     fed = [r for r in runs if fed_line[max(r[0] - 1, 0): r[1] + 2].any()]
     i0, i1 = max(fed or runs, key=lambda r: xs[r[1]] - xs[r[0]])
     x_exit = exit_line_x_m(scenario)
+    j1 = i1  # the throat is looked for between the start of the run and the exit
     if x_exit is not None and xs[i0] <= x_exit <= xs[i1]:
-        i1 = int(np.searchsorted(xs, x_exit, side="right")) - 1
+        j1 = int(np.searchsorted(xs, x_exit, side="right")) - 1
         exit_x, exit_area = float(x_exit), d.area_m2(float(x_exit))
         if not (math.isfinite(exit_area) and exit_area > 0.0):
-            exit_x, exit_area = float(xs[i1]), float(area[i1])
+            exit_x, exit_area = float(xs[j1]), float(area[j1])
     else:
         exit_x, exit_area = float(xs[i1]), float(area[i1])
-    k = i0 + int(np.argmin(area[i0: i1 + 1]))
+    k = i0 + int(np.argmin(area[i0: j1 + 1]))
     throat_x, throat_area = float(xs[k]), float(area[k])
-    lo, hi = float(xs[max(k - 1, i0)]), float(xs[min(k + 1, i1)])
+    lo, hi = float(xs[max(k - 1, i0)]), float(xs[min(k + 1, j1)])
     if hi > lo:
         x_ref, a_ref = _golden_min(d.area_m2, lo, hi)
         if a_ref < throat_area:
@@ -381,7 +390,7 @@ def _drawn_nozzle(scenario) -> Optional[DrawnNozzle]:
     return DrawnNozzle(
         throat_area_m2=throat_area, throat_x_m=throat_x, exit_area_m2=exit_area, exit_x_m=exit_x,
         area_ratio=exit_area / throat_area, divergence_half_angle_deg=_half_angle_deg(d, throat_x, exit_x),
-        run_m=(float(xs[i0]), exit_x if exit_x > xs[i1] else float(xs[i1])),
+        run_m=(float(xs[i0]), float(xs[i1])),
         section_x_m=tuple(float(x) for x in xs[i0: i1 + 1]), section_area_m2=tuple(float(a) for a in area[i0: i1 + 1]))
 
 

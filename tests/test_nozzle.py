@@ -203,3 +203,13 @@ def test_freehand_stroke_wall_is_read_piece_by_piece():
     assert d.area_m2(0.05) == pytest.approx(0.028, rel=1e-12)
     assert d.area_m2(0.1) == pytest.approx(0.018, rel=1e-12)
     assert nozzle.drawn_nozzle(s).throat_area_m2 == pytest.approx(0.018, rel=1e-12)
+
+
+def test_long_outline_reads_like_a_short_one():
+    # the same flat wall at 30 mm as a 4-vertex and as a 202-vertex polygon (the numpy path): exact geometry
+    short = [[0.0, 0.03], [0.2, 0.03], [0.2, 0.05], [0.0, 0.05]]
+    long_ = [[0.2 * k / 199, 0.03] for k in range(200)] + [[0.2, 0.05], [0.0, 0.05]]
+    for outline in (short, long_):
+        s = parse_scenario(doc([{"kind": "polygon", "points_m": outline, "paints": "wall"}, RESERVOIR]))
+        assert nozzle.drawing(s).area_m2(0.1234) == pytest.approx(0.03, rel=1e-12)
+        assert nozzle.drawn_nozzle(s).throat_area_m2 == pytest.approx(0.03, rel=1e-12)
