@@ -20,7 +20,7 @@ from shockslate.solver.simulation import Simulation
 from .persistence import write_atomically
 from .session import FlowSnapshot
 
-EXPORT_NAME = re.compile(r"[a-z0-9_]{1,40}-[A-Za-z0-9_-]{16,40}\.(npz|csv|json)")
+EXPORT_NAME = re.compile(r"[a-z0-9_]{1,40}-[A-Za-z0-9_-]{16,40}\.(npz|vti|csv|json)")
 KEEP = 20
 KINDS = {"npz": "npz", "csv": "csv", "scenario": "json"}
 
@@ -48,6 +48,16 @@ class Exports:
                                   snap.steps, scn.scenario_to_json(scenario))
         with open(path, "wb") as f:
             export.write_npz(f, arrays)
+        self._prune()
+        return path
+
+    def write_vti(self, snap: FlowSnapshot, scenario: scn.Scenario) -> Path:
+        """The fields of a snapshot as VTK XML image data, the batch run's .vti layout (solver.export.VTI_ARRAYS).
+        Ready for a "vti" export request; the protocol does not offer it yet."""
+        path = self._new_path(scenario, "vti")
+        arrays = export.fields_of(snap.domain, snap.gas, snap.mask, snap.rho, snap.u, snap.v, snap.p, snap.time_s,
+                                  snap.steps, "")
+        write_atomically(path, export.vti_text(arrays, snap.domain))
         self._prune()
         return path
 

@@ -158,6 +158,9 @@ def test_page_download_and_batch_files_have_one_layout(tmp_path):
         wall = a["kind"] == CellKind.WALL
         assert wall.any() and np.isnan(a["p_pa"][wall]).all()  # walls are NaN on the page too
     assert page_csv.read_text() == batch_csv.read_text()
+    page_vti = page.write_vti(session.snapshot(), session.scenario)
+    assert page_vti.read_text() == export.vti_text(export.field_arrays(session.sim), session.sim.domain)
+    assert page.find(page_vti.name) == page_vti.resolve()
     with (tmp_path / "run" / "station_exit.csv").open() as fh:
         assert tuple(next(csv.reader(fh))) == export.STATION_CSV_COLUMNS
     assert page_csv.read_text().splitlines()[0] == ",".join(export.STATION_CSV_COLUMNS)
