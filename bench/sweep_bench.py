@@ -5,10 +5,10 @@
 
 Eight cases of the over-expanded nozzle (nozzle_sea_level) over ambient pressure, at the resolution and end time
 of the built-in sweep example (scenarios/sweeps/nozzle_ambient_sweep.json), each run through the same function
-(solver.sweep.run_case, one numba thread):
+(solver.sweep_run.run_case, one numba thread):
   sequential  a plain loop in this process;
-  cluster     solver.sweep.run_sweep on a fresh local cluster of --workers process workers (solver.sweep.
-              local_cluster), timed end to end: cluster start, worker warm-up (imports and JIT-cache load, one tiny
+  cluster     solver.sweep.run.run_sweep on a fresh local cluster of --workers process workers (solver.sweep.
+              run.local_cluster), timed end to end: cluster start, worker warm-up (imports and JIT-cache load, one tiny
               case on each worker), then the cases with their case folders and sweep.csv (no HTML report).
 The JIT cache on disk is warm for both (one tiny untimed run in this process first), and this process's imports
 are done before the sequential loop. The cluster's figure is also given with warm workers, the throughput a
@@ -24,48 +24,49 @@ import time
 from pathlib import Path
 
 
-from shockslate.solver import sweep
 from shockslate.solver.scenario import load_builtin
+from shockslate.solver.sweep import plan as sweep_plan
+from shockslate.solver.sweep import run as sweep_run
 
 
-def plan_for(cases: int, nx: int, until_s: float) -> sweep.SweepPlan:
-    return sweep.build_plan(load_builtin("nozzle_sea_level"),
-                            [sweep.parse_vary(f"conditions.ambient.p_pa=101325:1000:{cases}")], nx=nx, until_s=until_s)
+def plan_for(cases: int, nx: int, until_s: float) -> sweep_plan.SweepPlan:
+    return sweep_plan.build_plan(load_builtin("nozzle_sea_level"),
+                            [sweep_plan.parse_vary(f"conditions.ambient.p_pa=101325:1000:{cases}")], nx=nx, until_s=until_s)
 
 
-def warm(plan: sweep.SweepPlan) -> None:
+def warm(plan: sweep_plan.SweepPlan) -> None:
     """Imports and the JIT cache, not timed: after this the workers load compiled kernels instead of compiling."""
-    sweep.run_case(plan.cases[0].scenario, 40, 1e-5)
+    sweep_run.run_case(plan.cases[0].scenario, 40, 1e-5)
 
 
-def time_sequential(plan: sweep.SweepPlan) -> tuple[float, float, list[str]]:
+def time_sequential(plan: sweep_plan.SweepPlan) -> tuple[float, float, list[str]]:
     """(wall time, summed time-loop time of the cases) in seconds, and the case statuses."""
     start = time.perf_counter()
     statuses, loop_s = [], 0.0
     for case in plan.cases:
-        outcome = sweep.run_case(case.scenario, case.nx, case.until_s)
+        outcome = sweep_run.run_case(case.scenario, case.nx, case.until_s)
         statuses.append(outcome["summary"]["status"] if outcome["summary"] else outcome["error"])
         loop_s += outcome["summary"]["wall_s"] if outcome["summary"] else 0.0
     return time.perf_counter() - start, loop_s, statuses
 
 
-def time_cluster(plan: sweep.SweepPlan, workers: int) -> tuple[float, float, float, float, list[str]]:
+def time_cluster(plan: sweep_plan.SweepPlan, workers: int) -> tuple[float, float, float, float, list[str]]:
     """(cluster start, worker warm-up, the sweep itself, summed time-loop time of the cases) in seconds, and the
     case statuses."""
     from distributed import Client
 
     start = time.perf_counter()
-    cluster = sweep.local_cluster(workers)
+    cluster = sweep_run.local_cluster(workers)
     client = Client(cluster)
     try:
         client.wait_for_workers(workers)
         t_start = time.perf_counter() - start
         warm_start = time.perf_counter()
-        client.run(sweep.run_case, plan.cases[0].scenario, 40, 1e-5)  # imports and JIT-cache load on every worker
+        client.run(sweep_run.run_case, plan.cases[0].scenario, 40, 1e-5)  # imports and JIT-cache load on every worker
         t_warm = time.perf_counter() - warm_start
         with tempfile.TemporaryDirectory(prefix="sweep-bench-") as out:
             run_start = time.perf_counter()
-            result = sweep.run_sweep(plan, out, client=client, progress=None, write_report=False)
+            result = sweep_run.run_sweep(plan, out, client=client, progress=None, write_report=False)
             t_run = time.perf_counter() - run_start
     finally:
         client.close()

@@ -1,28 +1,26 @@
 """Files made for download: the fields as .npz, station distributions as CSV, the scenario as JSON.
 
+The .npz and the CSV are written by solver.export, the same writers a batch run uses, so a download and a
+batch file of the same state have the same layout (array names, dtypes, shapes; CSV columns).
+
 Each export is written under a fresh random name in the user data folder's exports/ and served by
 GET /exports/<name>; only names of that form are ever served, and only the newest few are kept.
 """
 from __future__ import annotations
 
-import csv
-import io
 import re
 import secrets
 from pathlib import Path
 
-import numpy as np
-
+from shockslate.solver import export
 from shockslate.solver import scenario as scn
 from shockslate.solver.diagnostics import Station, station_profile
-from shockslate.solver.fields import VIEWS
 from shockslate.solver.simulation import Simulation
 
-from .frames import view_field
 from .persistence import write_atomically
 from .session import FlowSnapshot
 
-EXPORT_NAME = re.compile(r"[a-z0-9_]{1,40}-[A-Za-z0-9_-]{16,40}\.(npz|csv|json)")
+EXPORT_NAME = re.compile(r"[a-z0-9_]{1,40}-[A-Za-z0-9_-]{16,40}\.(npz|vti|csv|json)")
 KEEP = 20
 KINDS = {"npz": "npz", "csv": "csv", "scenario": "json"}
 
@@ -44,30 +42,31 @@ class Exports:
             old.unlink(missing_ok=True)
 
     def write_npz(self, snap: FlowSnapshot, scenario: scn.Scenario) -> Path:
-        """rho, u, v, p, mask and every view on the cell grid, with x, y centres and the scenario JSON."""
+        """The fields of a snapshot in the documented .npz layout (solver.export.NPZ_ARRAYS)."""
         path = self._new_path(scenario, "npz")
-        views = {f"view_{name}": view_field(name, snap.gas, snap.rho, snap.u, snap.v, snap.p, snap.domain.dx_m,
-                                            snap.mask) for name in VIEWS}
+        arrays = export.fields_of(snap.domain, snap.gas, snap.mask, snap.rho, snap.u, snap.v, snap.p, snap.time_s,
+                                  snap.steps, scn.scenario_to_json(scenario))
         with open(path, "wb") as f:
-            np.savez_compressed(f, rho_kg_m3=snap.rho, u_m_s=snap.u, v_m_s=snap.v, p_pa=snap.p, mask=snap.mask,
-                                x_centres_m=snap.x_centres_m, y_centres_m=snap.y_centres_m,
-                                time_s=np.float64(snap.time_s), steps=np.int64(snap.steps),
-                                scenario_json=np.array(scn.scenario_to_json(scenario)), **views)
+            export.write_npz(f, arrays)
+        self._prune()
+        return path
+
+    def write_vti(self, snap: FlowSnapshot, scenario: scn.Scenario) -> Path:
+        """The fields of a snapshot as VTK XML image data, the batch run's .vti layout (solver.export.VTI_ARRAYS).
+        Ready for a "vti" export request; the protocol does not offer it yet."""
+        path = self._new_path(scenario, "vti")
+        arrays = export.fields_of(snap.domain, snap.gas, snap.mask, snap.rho, snap.u, snap.v, snap.p, snap.time_s,
+                                  snap.steps, "")
+        write_atomically(path, export.vti_text(arrays, snap.domain))
         self._prune()
         return path
 
     def write_csv(self, sim: Simulation, scenario: scn.Scenario) -> Path:
-        """One row per sample of every station: station, s_m, x_m, y_m, p_pa, rho_kg_m3, t_k, u_m_s, v_m_s, mach."""
-        buf = io.StringIO()
-        writer = csv.writer(buf)
-        columns = ["s_m", "x_m", "y_m", "p_pa", "rho_kg_m3", "t_k", "u_m_s", "v_m_s", "mach"]
-        writer.writerow(["station", *columns])
-        for st in scenario.stations:
-            prof = station_profile(sim, Station(tuple(st.start_m), tuple(st.end_m), st.name))
-            for k in range(len(prof["s_m"])):
-                writer.writerow([st.name, *(f"{float(prof[c][k]):.9g}" for c in columns)])
+        """Every station's distribution in the documented station CSV layout (solver.export.STATION_CSV_COLUMNS)."""
+        profiles = [(st.name, station_profile(sim, Station(tuple(st.start_m), tuple(st.end_m), st.name)))
+                    for st in scenario.stations]
         path = self._new_path(scenario, "csv")
-        write_atomically(path, buf.getvalue())
+        write_atomically(path, export.station_csv_text(profiles))
         self._prune()
         return path
 

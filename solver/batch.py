@@ -25,12 +25,12 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Callable, Optional
 
-from . import export, nozzle_report, report, separation
+from . import export, nozzle, nozzle_report, report, separation
 from .diagnostics import read_probe, read_station, station_profile
 from .errors import SolverDiverged
 from .fields import VIEWS
 from .scenario import (Scenario, ScenarioError, build_simulation, builtin_names, load_builtin, load_scenario,
-                       station_by_role, to_stations)
+                       scenario_to_json, station_by_role, to_stations)
 from .suggest import did_you_mean
 
 #: Keys every summary.json has (the nozzle block is null unless the scenario is a reservoir-fed nozzle).
@@ -130,12 +130,13 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     out.mkdir(parents=True, exist_ok=True)
 
     sim = build_simulation(s, nx)
+    scenario_json = scenario_to_json(s)
     stations = to_stations(s)
     probes = list(s.probes)
     history = export.HistoryWriter(out / "history.csv", [st.name for st in stations], [p.name for p in probes])
     throat, exit_ = station_by_role(s, "throat"), station_by_role(s, "exit")
     is_nozzle = throat is not None and exit_ is not None and (sim.mask == 2).any()
-    geo = nozzle_report.geometry(sim, throat, exit_) if is_nozzle else None
+    noz = nozzle.drawn_nozzle(s) if is_nozzle else None
 
     snapshots: list[dict] = []
     files: list[str] = ["summary.json", "history.csv", "report.html"]
@@ -151,8 +152,9 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         k = len(snapshots)
         entry = {"index": k, "time_s": sim.time_s, "steps": sim.steps}
         if write_fields:
-            entry["npz"] = export.write_npz(out / f"fields_{k:04d}.npz", sim).name
-            entry["vti"] = export.write_vti(out / f"fields_{k:04d}.vti", sim).name
+            arrays = export.field_arrays(sim, scenario_json)
+            entry["npz"] = export.write_npz(out / f"fields_{k:04d}.npz", arrays).name
+            entry["vti"] = export.write_vti(out / f"fields_{k:04d}.vti", arrays, sim.domain).name
         if write_pictures:
             entry["png"] = report.save_snapshot_png(out / f"snapshot_{k:04d}.png", sim, view).name
         snapshots.append(entry)
@@ -202,7 +204,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     history.close()
     for st in stations:
         name = f"station_{_safe(st.name)}.csv"
-        export.write_profile_csv(out / name, station_profile(sim, st))
+        export.write_station_csv(out / name, [(st.name, station_profile(sim, st))])
         files.append(name)
 
     summary = {
@@ -228,13 +230,12 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         "files": files,
     }
     axis = None
-    if geo is not None:
-        fig = nozzle_report.figures(sim, throat, exit_, geo)
+    if noz is not None:
+        fig = nozzle_report.figures(sim, s, noz, throat, exit_)
         summary["nozzle"] = {k: (_finite(v) if isinstance(v, float) else v) for k, v in fig.as_dict().items()}
-        summary["nozzle"]["throat_x_m"] = geo.throat_x_m
-        # hook (solver/separation.py): where the wall pressure falls below Summerfield's criterion
+        # where the wall pressure falls below Summerfield's criterion (solver/separation.py)
         summary["nozzle"]["wall_separation"] = separation.nozzle_wall_separation(sim, throat, exit_).as_dict()
-        axis = nozzle_report.axis_distribution(sim, geo)
+        axis = nozzle_report.axis_distribution(sim, s, noz)
     if not write_pictures:
         files.remove("report.html")
     (out / "summary.json").write_text(json.dumps(summary, indent=2) + "\n", encoding="utf-8")

@@ -1,13 +1,16 @@
-"""Writers for results in formats other tools read: NumPy .npz, VTK XML image data (.vti) and CSV.
+"""The one export layer: NumPy .npz, VTK XML image data (.vti) and CSV, written the same way for a batch run and
+for a download from the page (server/exports.py calls these writers with a copy of the live flow).
 
 Field arrays are cell-centred, shape (ny, nx), row j = y, column i = x, SI units; wall cells hold NaN.
 The .vti writer is our own small implementation of the open VTK XML ImageData format (cell data,
 base64-encoded little-endian binary with a UInt64 byte-count header), enough for general-purpose viewers.
+README.md, "File formats", lists every array with its unit, shape and dtype; keep it true.
 """
 from __future__ import annotations
 
 import base64
 import csv
+import io
 import math
 from pathlib import Path
 from typing import IO, Iterable, Sequence
@@ -15,25 +18,29 @@ from typing import IO, Iterable, Sequence
 import numpy as np
 
 from .diagnostics import ProbeReading, StationReading
+from .domain import Domain
 from .fields import mach, temperature_k
+from .gas import Gas
 from .kinds import CellKind
 from .simulation import Simulation
 
-#: Arrays of a fields .npz file: name -> (meaning, unit). Scalars are 0-d arrays.
-NPZ_ARRAYS: dict[str, tuple[str, str]] = {
-    "x_m": ("cell-centre x, length nx", "m"),
-    "y_m": ("cell-centre y (radius in axisymmetric mode), length ny", "m"),
-    "rho_kg_m3": ("density", "kg/m^3"),
-    "u_m_s": ("x velocity", "m/s"),
-    "v_m_s": ("y velocity", "m/s"),
-    "p_pa": ("static pressure", "Pa"),
-    "t_k": ("static temperature", "K"),
-    "mach": ("Mach number", "-"),
-    "kind": ("cell kind: 0 fluid, 1 wall, 2 reservoir, 3 stream, 4 ambient", "-"),
-    "time_s": ("simulated time", "s"),
-    "dx_m": ("cell size (cells are square)", "m"),
-    "gamma": ("ratio of specific heats", "-"),
-    "r_j_kg_k": ("specific gas constant", "J/(kg K)"),
+#: Arrays of a fields .npz file: name -> (meaning, unit, shape, dtype). Scalars are 0-d arrays.
+NPZ_ARRAYS: dict[str, tuple[str, str, str, str]] = {
+    "x_m": ("cell-centre x", "m", "(nx,)", "float64"),
+    "y_m": ("cell-centre y (radius in axisymmetric mode)", "m", "(ny,)", "float64"),
+    "rho_kg_m3": ("density, NaN on wall cells", "kg/m^3", "(ny, nx)", "float64"),
+    "u_m_s": ("x velocity, NaN on wall cells", "m/s", "(ny, nx)", "float64"),
+    "v_m_s": ("y velocity, NaN on wall cells", "m/s", "(ny, nx)", "float64"),
+    "p_pa": ("static pressure, NaN on wall cells", "Pa", "(ny, nx)", "float64"),
+    "t_k": ("static temperature, NaN on wall cells", "K", "(ny, nx)", "float64"),
+    "mach": ("Mach number, NaN on wall cells", "-", "(ny, nx)", "float64"),
+    "kind": ("cell kind: 0 fluid, 1 wall, 2 reservoir, 3 stream, 4 ambient", "-", "(ny, nx)", "uint8"),
+    "time_s": ("simulated time", "s", "()", "float64"),
+    "steps": ("steps taken", "-", "()", "int64"),
+    "dx_m": ("cell size (cells are square)", "m", "()", "float64"),
+    "gamma": ("ratio of specific heats", "-", "()", "float64"),
+    "r_j_kg_k": ("specific gas constant", "J/(kg K)", "()", "float64"),
+    "scenario_json": ("the scenario file that made the run (JSON text)", "-", "()", "unicode"),
 }
 
 #: Cell-data arrays of a .vti file: name -> (components, unit).
@@ -49,35 +56,45 @@ VTI_ARRAYS: dict[str, tuple[int, str]] = {
 #: Quantities written per station and per probe in history.csv (the column is "<name>:<quantity>").
 STATION_COLUMNS = ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa", "area_m2")
 PROBE_COLUMNS = ("p_pa", "rho_kg_m3", "t_k", "u_m_s", "v_m_s", "mach")
-#: Columns of a station profile CSV, in order.
+#: Columns of a station profile CSV, in order (values along the station; wall cells are empty).
 PROFILE_COLUMNS = ("s_m", "x_m", "y_m", "p_pa", "rho_kg_m3", "t_k", "u_m_s", "v_m_s", "mach")
+#: Columns of a station CSV file: the station's name, then PROFILE_COLUMNS (one row per sample).
+STATION_CSV_COLUMNS = ("station", *PROFILE_COLUMNS)
 
 
-def field_arrays(sim: Simulation) -> dict[str, np.ndarray]:
-    """The documented arrays of NPZ_ARRAYS for the current state (NaN on wall cells)."""
-    rho, u, v, p = sim.primitive()
-    gas = sim.setup.gas
-    wall = sim.mask == CellKind.WALL
+def fields_of(domain: Domain, gas: Gas, mask: np.ndarray, rho: np.ndarray, u: np.ndarray, v: np.ndarray,
+              p: np.ndarray, time_s: float, steps: int, scenario_json: str) -> dict[str, np.ndarray]:
+    """The documented arrays of NPZ_ARRAYS from primitive arrays (NaN on wall cells, fixed dtypes)."""
+    wall = mask == CellKind.WALL
 
     def masked(q: np.ndarray) -> np.ndarray:
-        return np.where(wall, np.nan, q)
+        return np.where(wall, np.nan, np.asarray(q, dtype=np.float64))
 
-    dom = sim.domain
     return {
-        "x_m": dom.x_centres_m(), "y_m": dom.y_centres_m(),
+        "x_m": domain.x_centres_m().astype(np.float64), "y_m": domain.y_centres_m().astype(np.float64),
         "rho_kg_m3": masked(rho), "u_m_s": masked(u), "v_m_s": masked(v), "p_pa": masked(p),
         "t_k": masked(temperature_k(gas, rho, p)), "mach": masked(mach(gas, rho, u, v, p)),
-        "kind": sim.mask.copy(),
-        "time_s": np.array(sim.time_s), "dx_m": np.array(dom.dx_m),
-        "gamma": np.array(gas.gamma), "r_j_kg_k": np.array(gas.r_j_kg_k),
+        "kind": np.asarray(mask, dtype=np.uint8).copy(),
+        "time_s": np.array(time_s, dtype=np.float64), "steps": np.array(steps, dtype=np.int64),
+        "dx_m": np.array(domain.dx_m, dtype=np.float64),
+        "gamma": np.array(gas.gamma, dtype=np.float64), "r_j_kg_k": np.array(gas.r_j_kg_k, dtype=np.float64),
+        "scenario_json": np.array(scenario_json, dtype=np.str_),
     }
 
 
-def write_npz(path: str | Path, sim: Simulation) -> Path:
-    """Compressed .npz with the arrays documented in NPZ_ARRAYS."""
-    path = Path(path)
-    np.savez_compressed(path, **field_arrays(sim))
-    return path
+def field_arrays(sim: Simulation, scenario_json: str = "") -> dict[str, np.ndarray]:
+    """The documented arrays of NPZ_ARRAYS for the current state of a simulation."""
+    rho, u, v, p = sim.primitive()
+    return fields_of(sim.domain, sim.setup.gas, sim.mask, rho, u, v, p, sim.time_s, sim.steps, scenario_json)
+
+
+def write_npz(path_or_file, arrays: dict[str, np.ndarray]):
+    """Compressed .npz with the arrays documented in NPZ_ARRAYS (from fields_of / field_arrays)."""
+    missing = set(NPZ_ARRAYS) ^ set(arrays)
+    if missing:
+        raise ValueError(f"arrays {sorted(missing)} do not match the documented .npz layout (NPZ_ARRAYS)")
+    np.savez_compressed(path_or_file, **{name: arrays[name] for name in NPZ_ARRAYS})
+    return Path(path_or_file) if isinstance(path_or_file, (str, Path)) else path_or_file
 
 
 # ----------------------------------------------------------------------------- VTK XML ImageData
@@ -88,17 +105,16 @@ def _vtk_binary(values: np.ndarray) -> str:
     return base64.b64encode(np.array([len(raw)], dtype="<u8").tobytes() + raw).decode("ascii")
 
 
-def vti_text(sim: Simulation) -> str:
-    """The .vti document for the current state.
+def vti_text(arrays: dict[str, np.ndarray], domain: Domain) -> str:
+    """The .vti document for the arrays of fields_of / field_arrays on their domain.
 
     The image has nx x ny cells (nx+1 x ny+1 points) and one layer of cells in z, so its WholeExtent
     is "0 nx 0 ny 0 0"; Origin is the lower-left corner (x_min, y_min, 0), Spacing (dx, dx, dx).
     Cell data run x fastest, then y, as VTK expects.
     """
-    arrays = field_arrays(sim)
-    dom = sim.domain
-    ny, nx = dom.shape
-    dx = dom.dx_m
+    ny, nx = arrays["kind"].shape
+    dx = float(arrays["dx_m"])
+    time_s = float(arrays["time_s"])
     data = {
         "density_kg_m3": arrays["rho_kg_m3"],
         "pressure_pa": arrays["p_pa"],
@@ -112,10 +128,10 @@ def vti_text(sim: Simulation) -> str:
     lines = [
         '<?xml version="1.0"?>',
         '<VTKFile type="ImageData" version="1.0" byte_order="LittleEndian" header_type="UInt64">',
-        f'  <ImageData WholeExtent="{extent}" Origin="{dom.x_min_m!r} {dom.y_min_m!r} 0" '
+        f'  <ImageData WholeExtent="{extent}" Origin="{domain.x_min_m!r} {domain.y_min_m!r} 0" '
         f'Spacing="{dx!r} {dx!r} {dx!r}">',
         f"    <FieldData>",
-        f'      <DataArray type="Float64" Name="time_s" NumberOfTuples="1" format="ascii">{sim.time_s!r}</DataArray>',
+        f'      <DataArray type="Float64" Name="time_s" NumberOfTuples="1" format="ascii">{time_s!r}</DataArray>',
         f"    </FieldData>",
         f'    <Piece Extent="{extent}">',
         '      <CellData Scalars="mach">',
@@ -128,9 +144,9 @@ def vti_text(sim: Simulation) -> str:
     return "\n".join(lines)
 
 
-def write_vti(path: str | Path, sim: Simulation) -> Path:
+def write_vti(path: str | Path, arrays: dict[str, np.ndarray], domain: Domain) -> Path:
     path = Path(path)
-    path.write_text(vti_text(sim), encoding="ascii")
+    path.write_text(vti_text(arrays, domain), encoding="ascii")
     return path
 
 
@@ -153,15 +169,21 @@ def _number(value: float) -> str:
     return "" if value is None or (isinstance(value, float) and math.isnan(value)) else repr(float(value))
 
 
-def write_profile_csv(path: str | Path, profile: dict[str, np.ndarray]) -> Path:
-    """A station profile (solver.diagnostics.station_profile) as CSV; header names carry the units."""
+def station_csv_text(profiles: Iterable[tuple[str, dict[str, np.ndarray]]]) -> str:
+    """Station CSV (STATION_CSV_COLUMNS): one row per sample of each (name, station_profile) given, in order;
+    numbers written in full (repr), wall cells empty. Header names carry the units."""
+    buf = io.StringIO()
+    out = csv.writer(buf, lineterminator="\n")
+    out.writerow(STATION_CSV_COLUMNS)
+    for name, profile in profiles:
+        for k in range(len(profile["s_m"])):
+            out.writerow([name, *(_number(profile[c][k]) for c in PROFILE_COLUMNS)])
+    return buf.getvalue()
+
+
+def write_station_csv(path: str | Path, profiles: Iterable[tuple[str, dict[str, np.ndarray]]]) -> Path:
     path = Path(path)
-    with path.open("w", newline="", encoding="utf-8") as fh:
-        out = csv.writer(fh)
-        out.writerow(PROFILE_COLUMNS)
-        n = len(profile["s_m"])
-        for k in range(n):
-            out.writerow([_number(profile[c][k]) for c in PROFILE_COLUMNS])
+    path.write_text(station_csv_text(profiles), encoding="utf-8", newline="")
     return path
 
 

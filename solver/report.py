@@ -1,12 +1,12 @@
 """Pictures and the self-contained HTML report of a batch run.
 
 Plots are drawn with matplotlib (Agg, no display needed) and embedded in the report as base64 PNG,
-so report.html is one file that can be mailed or attached to a review.
+so report.html is one file that can be mailed or attached to a review. The page itself is rendered from
+templates/report.html.j2 through solver.templating, the same path as the sweep report.
 """
 from __future__ import annotations
 
 import base64
-import html
 import io
 import math
 from pathlib import Path
@@ -139,23 +139,16 @@ def axis_figure(axis: dict[str, np.ndarray], throat_x_m: float):
     return fig
 
 
-def _fmt(value: Any) -> str:
-    if isinstance(value, float):
-        return "-" if math.isnan(value) else f"{value:.5g}"
-    return html.escape(str(value))
-
-
-def _table(rows: list[tuple[str, Any]]) -> str:
-    body = "".join(f"<tr><th>{html.escape(k)}</th><td>{_fmt(v)}</td></tr>" for k, v in rows)
-    return f"<table>{body}</table>"
-
-
 NOZZLE_ROWS = [
     ("flow regime (1D limits)", "regime", ""),
-    ("throat area (mask)", "throat_area_m2", "m^2"),
-    ("exit area (mask)", "exit_area_m2", "m^2"),
-    ("area ratio Ae/A*", "area_ratio", "-"),
-    ("divergence half angle (mask, near exit)", "divergence_half_angle_deg", "deg"),
+    ("throat area A* (drawn)", "throat_area_m2", "m^2"),
+    ("throat position (drawn)", "throat_x_m", "m"),
+    ("exit area (drawn, exit station line)", "exit_area_m2", "m^2"),
+    ("area ratio Ae/A* (drawn)", "area_ratio", "-"),
+    ("throat area (resolved on the cells, for comparison)", "throat_area_resolved_m2", "m^2"),
+    ("exit area (resolved on the cells, for comparison)", "exit_area_resolved_m2", "m^2"),
+    ("area ratio (resolved on the cells, for comparison)", "area_ratio_resolved", "-"),
+    ("divergence half angle (drawn wall, near exit)", "divergence_half_angle_deg", "deg"),
     ("divergence factor lambda", "divergence_factor", "-"),
     ("choked mass flow (theory)", "choked_mass_flow_kg_s", "kg/s"),
     ("mass flow at throat (simulated)", "mass_flow_throat_kg_s", "kg/s"),
@@ -178,67 +171,49 @@ NOZZLE_ROWS = [
     ("thrust (simulated, exit station)", "thrust_n", "N"),
 ]
 
-_STYLE = """
-body { font-family: sans-serif; max-width: 60em; margin: 1em auto; color: #222; }
-table { border-collapse: collapse; margin: 0.5em 0 1em; }
-th, td { border: 1px solid #ccc; padding: 0.2em 0.6em; text-align: left; font-size: 0.9em; }
-th { background: #f2f2f2; font-weight: normal; }
-.caution { border-left: 4px solid #b35900; background: #fff4e5; padding: 0.6em 1em; }
-img { max-width: 100%; }
-"""
+STATION_FIGURES = ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa", "area_m2")
+
+
+def _plot(fig, alt: str) -> dict[str, str]:
+    return {"alt": alt, "png": _png_base64(fig)}
+
+
+def _missing(value: Any) -> Any:
+    """None (a figure summary.json could not give) shown as NaN, i.e. "-"."""
+    return float("nan") if value is None else value
 
 
 def write_report(path: str | Path, summary: dict, description: str, sim: Simulation, view: str,
                  history: dict[str, np.ndarray] | None, axis: dict[str, np.ndarray] | None = None) -> Path:
-    """report.html: run figures, the last snapshot, history plots and, for a nozzle, theory beside simulation."""
-    parts = [f"<!DOCTYPE html><html><head><meta charset='utf-8'><title>{html.escape(summary['scenario'])} "
-             f"- shockslate run</title><style>{_STYLE}</style></head><body>",
-             f"<h1>{html.escape(summary['scenario'])}</h1>",
-             f"<p class='caution'>{html.escape(CAUTION)}</p>",
-             f"<p>{html.escape(description)}</p>",
-             "<h2>Run</h2>",
-             _table([("status", summary["status"]), ("simulated time [s]", summary["sim_time_s"]),
-                     ("steps", summary["steps"]), ("wall time [s]", summary["wall_s"]),
-                     ("cell updates per second", summary["cell_updates_per_s"]),
-                     ("resolution nx x ny", f"{summary['resolution']['nx']} x {summary['resolution']['ny']}"),
-                     ("cell size [m]", summary["resolution"]["dx_m"]), ("mode", summary["mode"])]),
-             f"<h2>Field: {html.escape(VIEWS[view][0])}</h2>",
-             f"<img alt='snapshot' src='data:image/png;base64,{_png_base64(snapshot_figure(sim, view))}'>"]
-    if summary.get("stations"):
-        parts.append("<h2>Stations (end of run)</h2><table><tr><th>station</th><th>mass flow [kg/s]</th>"
-                     "<th>thrust [N]</th><th>mean Mach [-]</th><th>mean pressure [Pa]</th><th>area [m^2]</th></tr>")
-        for name, s in summary["stations"].items():
-            parts.append(f"<tr><td>{html.escape(name)}</td>" + "".join(
-                f"<td>{_fmt(s[k])}</td>" for k in ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa",
-                                                  "area_m2")) + "</tr>")
-        parts.append("</table>")
-        if summary["mode"] == "planar":
-            parts.append("<p>Planar mode: mass flow, thrust and areas are per metre of depth.</p>")
-    nozzle = summary.get("nozzle")
-    if nozzle:
-        parts.append("<h2>Nozzle performance against ideal 1D theory</h2>")
-        parts.append(_table([(f"{label} [{unit}]" if unit else label, nozzle[key]) for label, key, unit in NOZZLE_ROWS]))
-        parts.append("<p>Ideal figures: G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, ch. 3 (choked mass "
-                     "flow, c*, C_F at the ideal exit pressure and the actual ambient pressure); divergence factor "
-                     "(1 + cos a)/2 for a cone (Malina 1940, quoted there) or sin(a)/a for a planar nozzle; area-Mach "
-                     "relation and regime limits: J. D. Anderson, Modern Compressible Flow, ch. 5. Areas are those "
-                     "of the rasterised cells. Thrust is integrated over the exit station; C_F and c* use the "
-                     "reservoir p0 and the mask's throat area.</p>")
-        if nozzle.get("wall_separation"):  # hook: solver/separation.py writes its own small section
-            from .separation import report_html
+    """report.html (templates/report.html.j2): run figures, the last snapshot, history plots and, for a nozzle,
+    theory beside simulation."""
+    from .templating import render
 
-            parts.append(report_html(nozzle["wall_separation"]))
+    res = summary["resolution"]
+    run_rows = [("status", summary["status"]), ("simulated time [s]", _missing(summary["sim_time_s"])),
+                ("steps", summary["steps"]), ("wall time [s]", _missing(summary["wall_s"])),
+                ("cell updates per second", _missing(summary["cell_updates_per_s"])),
+                ("resolution nx x ny", f"{res['nx']} x {res['ny']}"), ("cell size [m]", res["dx_m"]),
+                ("mode", summary["mode"])]
+    stations = [[name, *(_missing(s[k]) for k in STATION_FIGURES)] for name, s in (summary.get("stations") or {}).items()]
+    nozzle = summary.get("nozzle")
+    nozzle_rows, axis_plot = [], None
+    if nozzle:
+        nozzle_rows = [(f"{label} [{unit}]" if unit else label, _missing(nozzle.get(key)))
+                       for label, key, unit in NOZZLE_ROWS]
         if axis is not None:
-            parts.append(f"<img alt='axis distributions' src='data:image/png;base64,"
-                         f"{_png_base64(axis_figure(axis, nozzle['throat_x_m']))}'>")
+            axis_plot = _plot(axis_figure(axis, nozzle["throat_x_m"]), "axis distributions")
+    history_plots = []
     if history is not None and len(history.get("time_s", [])) > 1:
-        parts.append("<h2>Histories</h2>")
         for quantity, ylabel in (("mass_flow_kg_s", "mass flow [kg/s]"), ("thrust_n", "thrust [N]"),
                                  ("p_pa", "probe pressure [Pa]"), ("mach", "probe Mach [-]")):
             fig = history_figure(history, quantity, ylabel)
             if fig is not None:
-                parts.append(f"<img alt='{quantity}' src='data:image/png;base64,{_png_base64(fig)}'>")
-    parts.append(f"<p class='caution'>{html.escape(CAUTION)}</p></body></html>\n")
+                history_plots.append(_plot(fig, quantity))
+    text = render("report.html.j2", summary=summary, description=description, caution=CAUTION,
+                  run_rows=run_rows, view_label=VIEWS[view][0], snapshot=_plot(snapshot_figure(sim, view), "snapshot"),
+                  stations=stations, nozzle_rows=nozzle_rows, axis_plot=axis_plot, history_plots=history_plots,
+                  separation=(nozzle or {}).get("wall_separation"))
     path = Path(path)
-    path.write_text("".join(parts), encoding="utf-8")
+    path.write_text(text, encoding="utf-8")
     return path

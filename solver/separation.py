@@ -14,7 +14,6 @@ Criterion: separation where p_wall < k p_ambient, k about 0.35 to 0.4.
 """
 from __future__ import annotations
 
-import html
 import math
 from dataclasses import dataclass
 
@@ -116,15 +115,3 @@ def nozzle_wall_separation(sim: Simulation, throat: Station, exit_: Station,
 
 
 # ----------------------------------------------------------------------------- report hook
-
-def report_html(block: dict) -> str:
-    """A small HTML section for the batch report from `WallSeparation.as_dict()` (self-contained, escaped)."""
-    k, pa = block["ratio"], block["ambient_pa"]
-    head = "<h2>Flow separation (Summerfield's criterion)</h2>"
-    if not block["separates"]:
-        return (head + f"<p>The wall pressure stays above {k:g} x ambient ({k * pa / 1e3:.4g} kPa) along the whole "
-                "divergent wall: no separation is expected by Summerfield's criterion (Summerfield, Foster and "
-                "Swan 1954).</p>")
-    x_mm = block["first_x_m"] * 1e3
-    return (head + f"<p class='caution'>The wall pressure falls below {k:g} x ambient ({k * pa / 1e3:.4g} kPa) "
-            f"from x = {x_mm:.4g} mm to the exit. {html.escape(CAUTION)}</p>")

@@ -1,4 +1,4 @@
-"""Exports: .npz arrays, VTK XML image data (.vti), station and history CSV.
+"""Exports: .npz arrays, VTK XML image data (.vti), station and history CSV, one layout for page and batch.
 
 The .vti layout is checked against the VTK file-format documentation (VTK User's Guide, "VTK File Formats",
 XML ImageData: WholeExtent in point indices, Origin, Spacing, cell data x fastest; from memory).
@@ -15,7 +15,8 @@ import pytest
 from shockslate.solver import export
 from shockslate.solver.diagnostics import read_probe, read_station, station_profile
 from shockslate.solver.kinds import CellKind
-from shockslate.solver.scenario import build_simulation, parse_scenario, to_stations
+from shockslate.solver.scenario import (build_simulation, load_builtin, parse_scenario, scenario_to_dict,
+                                        scenario_to_json, to_stations)
 
 
 @pytest.fixture(scope="module")
@@ -41,9 +42,12 @@ def sim():
 
 
 def test_npz_holds_the_documented_arrays(sim, tmp_path):
-    path = export.write_npz(tmp_path / "f.npz", sim)
+    path = export.write_npz(tmp_path / "f.npz", export.field_arrays(sim, "{}"))
     with np.load(path) as data:
-        assert set(data.files) == set(export.NPZ_ARRAYS)
+        assert data.files == list(export.NPZ_ARRAYS)
+        for name, (_meaning, _unit, shape, dtype) in export.NPZ_ARRAYS.items():
+            assert str(data[name].shape) == shape.replace("ny", "15").replace("nx", "40"), name
+            assert data[name].dtype.kind == "U" if dtype == "unicode" else data[name].dtype == np.dtype(dtype), name
         ny, nx = sim.domain.shape
         assert (ny, nx) == (15, 40)
         for name in ("rho_kg_m3", "u_m_s", "v_m_s", "p_pa", "t_k", "mach", "kind"):
@@ -64,7 +68,7 @@ def test_npz_holds_the_documented_arrays(sim, tmp_path):
 
 
 def test_vti_parses_with_right_extent_spacing_and_data(sim, tmp_path):
-    path = export.write_vti(tmp_path / "f.vti", sim)
+    path = export.write_vti(tmp_path / "f.vti", export.field_arrays(sim), sim.domain)
     root = ET.parse(path).getroot()
     assert root.tag == "VTKFile" and root.get("type") == "ImageData"
     assert root.get("byte_order") == "LittleEndian" and root.get("header_type") == "UInt64"
@@ -93,15 +97,16 @@ def test_vti_parses_with_right_extent_spacing_and_data(sim, tmp_path):
     assert np.array_equal(velocity[..., 0][fluid], u[fluid])
 
 
-def test_profile_csv_columns_and_units(sim, tmp_path):
+def test_station_csv_columns_and_units(sim, tmp_path):
     st = to_stations(sim.scenario)[0]
     prof = station_profile(sim, st)
-    path = export.write_profile_csv(tmp_path / "s.csv", prof)
+    path = export.write_station_csv(tmp_path / "s.csv", [(st.name, prof)])
     with path.open() as fh:
         rows = list(csv.reader(fh))
-    assert tuple(rows[0]) == export.PROFILE_COLUMNS
-    assert all(c.endswith(("_m", "_pa", "_kg_m3", "_k", "_m_s")) or c == "mach" for c in rows[0])
+    assert tuple(rows[0]) == export.STATION_CSV_COLUMNS == ("station", *export.PROFILE_COLUMNS)
+    assert all(c.endswith(("_m", "_pa", "_kg_m3", "_k", "_m_s")) or c in ("mach", "station") for c in rows[0])
     assert len(rows) - 1 == len(prof["s_m"])
+    assert {r[0] for r in rows[1:]} == {"mid"}
     assert float(rows[1][rows[0].index("x_m")]) == pytest.approx(0.3)
     walls = [r for r in rows[1:] if r[rows[0].index("p_pa")] == ""]
     assert walls, "the station crosses the circle, whose cells are written empty"
@@ -119,3 +124,57 @@ def test_history_csv_round_trip(sim, tmp_path):
     assert len(hist["time_s"]) == 3
     assert hist["p:p_pa"][0] == pytest.approx(read_probe(sim, 0.1, 0.2).p_pa)
     assert hist["mid:area_m2"][0] == pytest.approx(read_station(sim, st[0]).area_m2)
+
+
+# ----------------------------------------------------------------------------- one layout for page and batch
+
+def test_page_download_and_batch_files_have_one_layout(tmp_path):
+    """The same state exported the page's way (server.exports from a session snapshot) and the batch way
+    (solver.export from the simulation, as solver.batch calls it): same array names, dtypes, shapes and
+    values, the same station CSV text; and a real batch run's files have that layout too."""
+    from shockslate.server.exports import Exports
+    from shockslate.server.session import Session
+    from shockslate.solver import batch
+    doc = scenario_to_dict(load_builtin("nozzle_sea_level"))
+    doc["domain"]["nx"] = 48
+    session = Session(parse_scenario(doc))
+    session.step(3)
+    page = Exports(tmp_path / "exports")
+    page_npz = page.write_npz(session.snapshot(), session.scenario)
+    page_csv = page.write_csv(session.sim, session.scenario)
+    batch_npz = export.write_npz(tmp_path / "batch.npz",
+                                 export.field_arrays(session.sim, scenario_to_json(session.scenario)))
+    stations = [(st.name, station_profile(session.sim, st)) for st in to_stations(session.scenario)]
+    batch_csv = export.write_station_csv(tmp_path / "batch.csv", stations)
+
+    run = batch.run_scenario(session.scenario, tmp_path / "run", steps=3, progress=None, write_pictures=False)
+    run_npz = tmp_path / "run" / run["snapshots"][-1]["npz"]
+    with np.load(page_npz) as a, np.load(batch_npz) as b, np.load(run_npz) as c:
+        assert a.files == b.files == c.files == list(export.NPZ_ARRAYS)
+        for name in a.files:
+            assert a[name].dtype == b[name].dtype == c[name].dtype, name
+            assert a[name].shape == b[name].shape == c[name].shape, name
+            assert np.array_equal(a[name], b[name], equal_nan=a[name].dtype.kind == "f"), name
+        wall = a["kind"] == CellKind.WALL
+        assert wall.any() and np.isnan(a["p_pa"][wall]).all()  # walls are NaN on the page too
+    assert page_csv.read_text() == batch_csv.read_text()
+    page_vti = page.write_vti(session.snapshot(), session.scenario)
+    assert page_vti.read_text() == export.vti_text(export.field_arrays(session.sim), session.sim.domain)
+    assert page.find(page_vti.name) == page_vti.resolve()
+    with (tmp_path / "run" / "station_exit.csv").open() as fh:
+        assert tuple(next(csv.reader(fh))) == export.STATION_CSV_COLUMNS
+    assert page_csv.read_text().splitlines()[0] == ",".join(export.STATION_CSV_COLUMNS)
+
+
+def test_readme_file_formats_lists_every_array_with_unit_shape_and_dtype():
+    """README.md, "File formats", is the user's reference for the layout: it must match NPZ_ARRAYS row by row."""
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parent.parent / "README.md").read_text(encoding="utf-8")
+    section = text.split("## File formats", 1)[1].split("\n## ", 1)[0]
+    for name, (meaning, unit, shape, dtype) in export.NPZ_ARRAYS.items():
+        assert f"| `{name}` | {meaning} | {unit} | {shape} | {dtype} |" in section, name
+    for name in export.VTI_ARRAYS:
+        assert f"`{name}`" in section, name
+    for column in export.STATION_CSV_COLUMNS:
+        assert f"`{column}`" in section, column

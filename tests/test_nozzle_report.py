@@ -1,4 +1,4 @@
-"""Nozzle report: areas read off the mask, the divergence factor and the theory block.
+"""Nozzle report: the drawn areas beside the resolved (mask) ones, the divergence factor and the theory block.
 
 Sources:
 [SB] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, ch. 3: conical divergence factor
@@ -13,6 +13,7 @@ import math
 import numpy as np
 import pytest
 
+from shockslate.solver import nozzle
 from shockslate.solver import nozzle_report as nr
 from shockslate.solver.scenario import build_simulation, parse_scenario, station_by_role
 
@@ -50,40 +51,46 @@ def setup(mode: str, **kw):
     return s, sim, station_by_role(s, "throat"), station_by_role(s, "exit")
 
 
-def test_throat_area_is_the_rasterised_one():
+def test_throat_area_is_the_drawn_one_and_the_resolved_one_is_beside_it():
     s, sim, th, ex = setup("axisymmetric")
-    geo = nr.geometry(sim, th, ex)
-    # 8 open cells of 1 mm at the throat: pi (8 mm)^2, the full revolution (exact geometry)
+    geo = nozzle.drawn_nozzle(s)
+    # a straight drawn throat of radius 8 mm: pi (8 mm)^2, the full revolution (exact geometry)
     assert geo.throat_area_m2 == pytest.approx(math.pi * 0.008 ** 2, rel=1e-12)
     assert 0.030 <= geo.throat_x_m <= 0.034
-    h_e = geo.column_height_m[-1]
-    assert geo.exit_area_m2 == pytest.approx(math.pi * h_e ** 2)
-    assert geo.area_ratio == pytest.approx((h_e / 0.008) ** 2)
+    # the exit station's line: the drawn cone's radius there (exact geometry)
+    r_e = 0.008 + (geo.exit_x_m - 0.034) * math.tan(math.radians(15.0))
+    assert geo.exit_area_m2 == pytest.approx(math.pi * r_e ** 2, rel=1e-12)
+    assert geo.area_ratio == pytest.approx((r_e / 0.008) ** 2, rel=1e-12)
+    # 8 open cells of 1 mm at the throat: the cells resolve the same throat exactly here
+    res = nozzle.resolved_areas(geo, s, sim.mask, sim.domain)
+    assert res.throat_area_resolved_m2 == pytest.approx(math.pi * 0.008 ** 2, rel=1e-12)
+    assert abs(math.sqrt(res.exit_area_resolved_m2 / math.pi) - r_e) <= DX
     s, sim, th, ex = setup("planar")
-    geo = nr.geometry(sim, th, ex)
+    geo = nozzle.drawn_nozzle(s)
     assert geo.throat_area_m2 == pytest.approx(0.008, rel=1e-12)  # per metre of depth
-    assert geo.area_ratio == pytest.approx(geo.column_height_m[-1] / 0.008)
+    r_e = 0.008 + (geo.exit_x_m - 0.034) * math.tan(math.radians(15.0))
+    assert geo.area_ratio == pytest.approx(r_e / 0.008, rel=1e-12)
 
 
 @pytest.mark.parametrize("angle", [10.0, 15.0, 20.0])
-def test_half_angle_is_read_off_the_staircase(angle):
+def test_half_angle_is_read_off_the_drawn_wall(angle):
     s, sim, th, ex = setup("axisymmetric", half_angle_deg=angle, nx=200)
-    geo = nr.geometry(sim, th, ex)
-    assert geo.divergence_half_angle_deg == pytest.approx(angle, abs=1.5)
+    geo = nozzle.drawn_nozzle(s)
+    assert geo.divergence_half_angle_deg == pytest.approx(angle, abs=1e-9)  # a straight drawn cone
 
 
 def test_divergence_factor_values():
     # [SB] ch. 3: lambda(15 deg) = 0.983 for a cone (printed to 3 figures in the book's table, from memory)
-    assert nr.divergence_factor(15.0, "axisymmetric") == pytest.approx(0.983, abs=5e-4)
-    assert nr.divergence_factor(0.0, "axisymmetric") == 1.0
-    assert nr.divergence_factor(15.0, "planar") == pytest.approx(math.sin(math.radians(15)) / math.radians(15))
-    assert nr.divergence_factor(15.0, "planar") > nr.divergence_factor(15.0, "axisymmetric")
+    assert nozzle.divergence_factor(15.0, "axisymmetric") == pytest.approx(0.983, abs=5e-4)
+    assert nozzle.divergence_factor(0.0, "axisymmetric") == 1.0
+    assert nozzle.divergence_factor(15.0, "planar") == pytest.approx(math.sin(math.radians(15)) / math.radians(15))
+    assert nozzle.divergence_factor(15.0, "planar") > nozzle.divergence_factor(15.0, "axisymmetric")
 
 
 def test_theory_block_against_published_numbers():
     s, sim, th, ex = setup("axisymmetric")
-    geo = nr.geometry(sim, th, ex)
-    f = nr.figures(sim, th, ex, geo)
+    geo = nozzle.drawn_nozzle(s)
+    f = nr.figures(sim, s, geo, th, ex)
     r = 8314.462618 / 28.965
     # [N]: mdot sqrt(R T0) / (p0 A*) = 0.6847 for gamma 1.4
     assert f.choked_mass_flow_kg_s * math.sqrt(r * 300.0) / (1.0e6 * geo.throat_area_m2) == pytest.approx(0.6847, abs=1e-4)
@@ -97,11 +104,11 @@ def test_theory_block_against_published_numbers():
 
 def test_axis_distribution_follows_area_mach_on_each_side_of_throat():
     s, sim, th, ex = setup("axisymmetric")
-    geo = nr.geometry(sim, th, ex)
-    ax = nr.axis_distribution(sim, geo)
+    geo = nozzle.drawn_nozzle(s)
+    ax = nr.axis_distribution(sim, s, geo)
     x = ax["x_m"]
     at_throat = ax["area_ratio"] == 1.0
-    assert np.allclose(ax["mach_1d"][at_throat], 1.0)
+    assert at_throat.any() and np.allclose(ax["mach_1d"][at_throat], 1.0)
     assert np.all(ax["mach_1d"][x < geo.throat_x_m] <= 1.0)
     assert np.all(ax["mach_1d"][(x > geo.throat_x_m) & (ax["area_ratio"] > 1.0)] > 1.0)
     # [N] isentropic table: A/A* = 1.6875 at M = 2 (gamma 1.4)

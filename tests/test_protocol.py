@@ -359,7 +359,7 @@ def test_exports_download(server, ws):
         assert body.status_code == 200
         if what == "npz":
             data = np.load(io.BytesIO(body.content))
-            assert data["p_pa"].shape == (16, 64) and data["view_mach"].shape == (16, 64)
+            assert data["p_pa"].shape == (16, 64) and data["mach"].shape == (16, 64) and data["kind"].dtype == np.uint8
         elif what == "csv":
             lines = body.text.strip().splitlines()
             assert lines[0].startswith("station,s_m,x_m,y_m,p_pa") and lines[1].startswith("mid,")

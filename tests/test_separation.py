@@ -57,7 +57,6 @@ def test_separation_point_agrees_with_the_isentropic_wall_pressure(over_expanded
     d = sep.as_dict()
     assert d["separates"] and d["first_x_m"] == sep.first_x_m and len(d["x_m"]) == len(d["below"])
     assert "not what a real" in d["caution"]
-    assert "from x = " in separation.report_html(d) and "Summerfield" in separation.report_html(d)
 
 
 def test_no_marks_when_the_ambient_is_low(over_expanded):
@@ -67,7 +66,6 @@ def test_no_marks_when_the_ambient_is_low(over_expanded):
     sep = separation.nozzle_wall_separation(sim, station_by_role(s, "throat"), station_by_role(s, "exit"))
     low = separation.wall_separation(sim, float(sep.x_m[0]), float(sep.x_m[-1]), ambient_pa=5000.0)
     assert not low.separates and not low.below.any() and low.first_x_m is None
-    assert "no separation is expected" in separation.report_html(low.as_dict())
     # the wall pressures are the same readings; only the criterion moved
     np.testing.assert_array_equal(low.wall_pressure_pa, sep.wall_pressure_pa)
 

@@ -327,23 +327,25 @@ def nozzle_doc() -> dict:
 def test_geometric_throat_and_ideal_figures():
     s = Session(scn.parse_scenario(nozzle_doc()))
     noz = readings.nozzle_geometry(s.sim.mask, s.sim.domain, s.scenario)
-    dx = s.sim.domain.dx_m
-    assert abs(s.sim.domain.x_centres_m()[noz.throat_index] - 0.06) <= dx
-    # The mask's throat radius is within a cell of the drawn 10 mm.
-    r_throat = (noz.throat_area_m2 / np.pi) ** 0.5
-    assert abs(r_throat - 0.01) <= dx
+    # The drawn throat: the polygon's vertex at x = 60 mm, radius 10 mm (exact geometry of the drawing).
+    assert noz.throat_x_m == pytest.approx(0.06, abs=1e-12)
+    assert noz.throat_area_m2 == pytest.approx(np.pi * 0.01 ** 2, rel=1e-12)
     status = readings.status_figures(s.sim, s.scenario, noz, 0)
     exit_fig, plume_fig = status["stations"]
     ideal = exit_fig["ideal"]
     assert plume_fig["ideal"] is None  # outside the nozzle: no 1D figure
-    assert ideal["throat_area_m2"] == pytest.approx(noz.throat_area_m2)
+    assert ideal["throat_area_m2"] == pytest.approx(noz.throat_area_m2, rel=1e-15)
+    # The resolved (mask) throat is reported beside it, within a cell of the drawn radius.
+    dx = s.sim.domain.dx_m
+    assert abs((ideal["throat_area_resolved_m2"] / np.pi) ** 0.5 - 0.01) <= dx
     gas = scn.to_gas(s.scenario)
     # Choked mass flow and exit Mach from the solver's relations (NACA Report 1135 isentropic relations).
     assert ideal["choked_mass_flow_kg_s"] == pytest.approx(
         relations.choked_mass_flow_kg_s(300000.0, 300.0, noz.throat_area_m2, 1.4, gas.r_j_kg_k))
     assert ideal["ideal_exit_mach"] == pytest.approx(
         relations.mach_from_area_ratio(ideal["area_ratio"], 1.4, supersonic=True))
-    assert 3.0 < ideal["area_ratio"] < 5.0  # drawn Ae/A* = 4, within the cell-size error of the mask
+    # drawn radius on the exit line x = 99 mm: 10 mm + 39 mm * (10 / 40) (exact geometry of the drawing)
+    assert ideal["area_ratio"] == pytest.approx((0.01 + 0.039 * 0.25) ** 2 / 0.01 ** 2, rel=1e-12)
     axis = s.profile(axis=True)
     ideal_mach = np.array([np.nan if m is None else m for m in axis["ideal_mach"]], float)
     x = np.array(axis["x_m"])

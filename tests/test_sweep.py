@@ -261,7 +261,7 @@ def test_starting_a_local_cluster_leaves_this_process_environment_alone():
 def test_diverging_case_is_a_row_with_its_error_and_the_others_finish(client, tmp_path):
     plan = blast_plan("numerics.cfl=0.4,1.9,0.6", until_s=None)  # the scenario's 20 ms
     seen: list[sweep.SweepProgress] = []
-    result = sweep.run_sweep(plan, tmp_path, client=client, progress=seen.append, progress_interval_s=0.2)
+    result = sweep.run_sweep(plan, tmp_path, client=client, progress=seen.append)
     by_cfl = {r["numerics.cfl"]: r for r in read_csv(tmp_path / "sweep.csv")}
     bad = by_cfl["1.9"]
     assert bad["status"] == "diverged"

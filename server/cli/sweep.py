@@ -60,7 +60,9 @@ def add_sweep_command(subparsers) -> argparse.ArgumentParser:
 
 
 def cmd_sweep(args: argparse.Namespace) -> int:
-    from shockslate.solver import sweep
+    from shockslate.solver.sweep import plan as sweep_plan
+    from shockslate.solver.sweep import run as sweep_run
+    from shockslate.solver.sweep import tables
 
     def refuse(err: Exception) -> int:
         print(f"shockslate sweep: {err}", file=sys.stderr)
@@ -69,8 +71,8 @@ def cmd_sweep(args: argparse.Namespace) -> int:
     if args.scheduler and args.workers:
         return refuse(ValueError("--workers sizes the local cluster; it cannot be given with --scheduler"))
     try:
-        if sweep.is_sweep_file(args.scenario):
-            spec, scenario = sweep.load_sweep_file(args.scenario)
+        if sweep_plan.is_sweep_file(args.scenario):
+            spec, scenario = sweep_plan.load_sweep_file(args.scenario)
             lines = args.vary or spec.vary
             zip_ = args.zip or spec.zip
             until = args.until if args.until is not None else spec.until_s
@@ -78,28 +80,28 @@ def cmd_sweep(args: argparse.Namespace) -> int:
             if spec.description:
                 print(f"sweep {spec.name}: {spec.description}")
         else:
-            scenario = sweep.resolve_scenario_ref(args.scenario)
+            scenario = sweep_plan.resolve_scenario_ref(args.scenario)
             lines, zip_, until, nx = args.vary, args.zip, args.until, args.resolution
         if args.scheduler:
-            sweep.check_scheduler_address(args.scheduler)
-        plan = sweep.build_plan(scenario, [sweep.parse_vary(text) for text in lines], zip_=zip_, nx=nx, until_s=until)
+            sweep_run.check_scheduler_address(args.scheduler)
+        plan = sweep_plan.build_plan(scenario, [sweep_plan.parse_vary(text) for text in lines], zip_=zip_, nx=nx, until_s=until)
     except (ScenarioError, ValueError) as err:
         return refuse(err)
 
     out = Path(args.out)
     try:
-        result = sweep.run_sweep(plan, out, scheduler=args.scheduler, workers=args.workers,
-                                 write_fields=args.full, write_pictures=args.full, announce=print)
+        result = sweep_run.run_sweep(plan, out, scheduler=args.scheduler, workers=args.workers,
+                                     write_fields=args.full, write_pictures=args.full, announce=print)
     except ScenarioError as err:
         return refuse(err)
     except KeyboardInterrupt:
         print("\nshockslate sweep: stopped", file=sys.stderr)
         return EXIT_INTERRUPTED
-    failed = result.count("diverged", "stalled", sweep.FAILED)
+    failed = result.count("diverged", "stalled", tables.FAILED)
     print(f"{len(result.rows)} cases: {result.count('finished')} finished, {failed} failed, "
-          f"{result.count(sweep.NOT_RUN)} not run ({len(result.ran)} ran now, {len(result.reused)} kept from before)")
+          f"{result.count(tables.NOT_RUN)} not run ({len(result.ran)} ran now, {len(result.reused)} kept from before)")
     for row in result.rows:
-        if row["status"] not in ("finished", sweep.NOT_RUN):
+        if row["status"] not in ("finished", tables.NOT_RUN):
             print(f"  case {row['case']} ({row['folder']}) {row['status']}: {row['error']}", file=sys.stderr)
     print(f"table: {(out / 'sweep.csv').resolve()}\nreport: {(out / 'sweep_report.html').resolve()}")
     if result.interrupted:
