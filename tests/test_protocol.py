@@ -96,6 +96,8 @@ def test_hello_lists_views_scenario_and_state(ws):
     assert all({"name", "label", "unit"} <= set(v) for v in h["views"])
     assert h["scenario"]["name"] == "protocol duct" and h["state"] == "paused" and h["revision"] == 0
     assert h["client_id"]
+    maps = {m["name"] for m in h["colour_maps"]["maps"]}
+    assert all(v["map"] in maps for v in h["views"])  # each view starts on one of the maps sent (solver/colourmaps.py)
 
 
 def test_every_choice_the_hello_offers_is_accepted(ws):
