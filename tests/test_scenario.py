@@ -283,3 +283,23 @@ def test_nozzle_builtins_are_light_enough_to_run_live():
             assert 300 <= s.domain.nx <= 400
         sim_cells = to_domain(s).shape[0] * to_domain(s).shape[1]
         assert sim_cells <= 200_000, name
+
+
+# ----------------------------------------------------------------------------- vocabulary
+
+def test_vocabulary_names_every_number_and_ties_the_tables():
+    """Every number of a scenario has a title and unit for the page and for error sentences, and the
+    solver's own lists agree with the vocabulary tables."""
+    from shockslate.solver import simulation
+    from shockslate.solver.kinds import EDGE_GHOST_KIND, EDGES, PAINTABLE, PAINTS
+    from shockslate.solver.scenario import MODES, vocabulary
+
+    voc = vocabulary()
+    for path, lim in voc["limits"].items():
+        assert lim["label"] and lim["label"] != path.split(".")[-1].replace("_", " "), path
+        assert "min" in lim or "max" in lim, path
+    assert voc["limits"]["conditions.ambient.p_pa"]["unit"] == "Pa"
+    assert voc["limits"]["conditions.reservoir.t0_k"]["unit"] == "K"
+    assert tuple(MODES) == simulation.MODES
+    assert list(PAINTABLE) == list(PAINTS) and list(EDGE_GHOST_KIND) == list(EDGES)
+    assert all(PAINTABLE[name] == choice.kernel_id for name, choice in PAINTS.items())
