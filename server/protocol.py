@@ -18,6 +18,7 @@ from pydantic import BaseModel, ConfigDict, Field, TypeAdapter, ValidationError,
 
 from shockslate.solver import scenario as scn
 from shockslate.solver.choices import literal
+from shockslate.solver.domain import MAX_NX
 from shockslate.solver.fields import VIEWS
 from shockslate.solver.gas import PRESET_CHOICES
 from shockslate.solver.kinds import EDGES
@@ -143,7 +144,7 @@ class SetNumerics(_Message):
 
 class SetResolution(_Message):
     type: Literal["set_resolution"]
-    nx: int = Field(ge=4, le=4096, description="an integer number of cells across x, 4 to 4096")
+    nx: int = Field(ge=4, le=MAX_NX, description=f"an integer number of cells across x, 4 to {MAX_NX}")
 
 
 class SetDomain(_Message):

@@ -152,11 +152,17 @@ function sendView() {
   const rect = app.place.flowRect();
   app.send("set_view", {
     view: app.viewName,
-    width: Math.min(4096, Math.max(16, Math.round(rect.width))),
-    height: Math.min(4096, Math.max(16, Math.round(rect.height))),
+    width: clampTo("view.width", Math.round(rect.width)),
+    height: clampTo("view.height", Math.round(rect.height)),
     range: app.range,
     overlays: [["sonic_line", "#ov-sonic"], ["arrows", "#ov-arrows"]].filter(([, id]) => $(id).checked).map(([name]) => name),
   });
+}
+
+/** A number kept within the limits the server gave for `path` (hello.vocabulary.limits). */
+function clampTo(path, value) {
+  const lim = (app.vocabulary && app.vocabulary.limits[path]) || {};
+  return Math.min(lim.max ?? value, Math.max(lim.min ?? value, value));
 }
 
 function viewInfo(index) {
