@@ -54,7 +54,8 @@ def default_data_dir() -> Path:
 def check_name(name: object, field: str = "name") -> str:
     """The name if it is allowed as a scenario name, else ScenarioNameError naming field, value and rule."""
     if (not isinstance(name, str) or not NAME_PATTERN.fullmatch(name) or name.strip() != name):
-        raise ScenarioNameError(field, name, NAME_RULE, f"The name {name!r} is not allowed; a name is {NAME_RULE}.", "name")
+        raise ScenarioNameError(field, name, NAME_RULE, f"The name {name!r} is not allowed; a name is {NAME_RULE}.",
+                                "name")
     return name
 
 
@@ -62,7 +63,8 @@ def _inside(path: Path, folder: Path) -> Path:
     """path, resolved, after checking it lies directly in folder (defence in depth behind check_name)."""
     resolved = path.resolve()
     if resolved.parent != folder.resolve():
-        raise ScenarioNameError("name", path.name, NAME_RULE, f"The name {path.stem!r} does not stay inside {folder}.", "name")
+        raise ScenarioNameError("name", path.name, NAME_RULE, f"The name {path.stem!r} does not stay inside {folder}.",
+                                "name")
     return resolved
 
 

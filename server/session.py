@@ -151,7 +151,7 @@ def request_error_from_scenario(err: ValueError, doc: dict | None = None,
         return RequestError("scenario", None, "a setup the solver accepts", str(err), "solver")
     problem = err.first
     field = problem.field
-    for prefix, replacement in (prefix_map or {}).items():
+    for prefix, replacement in (prefix_map or {}).items() if field else ():
         if field.startswith(prefix):
             field = replacement + field[len(prefix):]
             break

@@ -251,7 +251,8 @@ class Scenario(_Strict):
                           f"An axisymmetric domain needs the axis on its bottom edge; you gave {e.bottom}.")
         if self.mode == "axisymmetric" and self.domain.y_min_m != 0.0:
             raise Invalid("domain.y_min_m", self.domain.y_min_m, "axis_at_zero", "0 m (in axisymmetric mode)",
-                          f"An axisymmetric domain starts at radius 0 m; you gave {show_value(self.domain.y_min_m, 'm')}.")
+                          "An axisymmetric domain starts at radius 0 m; "
+                          f"you gave {show_value(self.domain.y_min_m, 'm')}.")
         if self.mode != "axisymmetric" and e.bottom == "axis":
             raise Invalid("edges.bottom", "axis", "axis_needs_axisymmetric", "wall, open, ambient or stream (planar)",
                           "The axis needs the axisymmetric mode; use a wall for a planar symmetry line.")
@@ -268,7 +269,8 @@ class Scenario(_Strict):
                                   f"Two {kind} are called {name}; names must be unique.")
         for n, st in enumerate(self.stations):
             if st.start_m == st.end_m:
-                raise Invalid(f"stations[{n}].end_m", list(st.end_m), "differs_from_start", "a point other than the start",
+                raise Invalid(f"stations[{n}].end_m", list(st.end_m), "differs_from_start",
+                              "a point other than the start",
                               f"Station {st.name} ends where it starts; a station needs two different points.")
             for label, (x, y) in (("start_m", st.start_m), ("end_m", st.end_m)):
                 if not _inside(dom, x, y):
@@ -297,13 +299,15 @@ def parse_scenario(data: dict | str) -> Scenario:
         try:
             data = json.loads(data)
         except json.JSONDecodeError as err:
-            raise ScenarioError.one("", None, "json", "a JSON object", f"The scenario is not valid JSON: {err}.") from None
+            raise ScenarioError.one("", None, "json", "a JSON object",
+                                    f"The scenario is not valid JSON: {err}.") from None
         except RecursionError:
             raise ScenarioError.one("", None, "depth", "JSON nested at most a few hundred levels deep",
                                     "The scenario is nested too deeply to read.") from None
         except ValueError:  # an integer of more than 4,300 digits
             raise ScenarioError.one("", None, "digits", "numbers of at most 4,300 digits",
-                                    "The scenario holds a number with too many digits to read (at most 4,300).") from None
+                                    "The scenario holds a number with too many digits to read (at most 4,300).") \
+                from None
     if not isinstance(data, dict):
         raise ScenarioError.one("", _show(data), "object", "a JSON object",
                                 f"A scenario must be a JSON object; you gave {_show(data)}.")

@@ -249,8 +249,9 @@ def problem_from_record(model: type[BaseModel], record: dict, prefix: str = "", 
         n = ctx.get("min_length" if kind == "too_short" else "max_length")
         words = "at least" if kind == "too_short" else "at most"
         what = "characters" if isinstance(value, str) else "items"
+        given = ctx.get("actual_length", len(value) if hasattr(value, "__len__") else "?")
         return Problem(field, value, "length", f"{words} {n} {what}",
-                       f"{Label} needs {words} {n} {what}; you gave {ctx.get('actual_length', len(value) if hasattr(value, '__len__') else '?')}.")
+                       f"{Label} needs {words} {n} {what}; you gave {given}.")
     if kind.startswith(("float", "int", "bool", "string", "list", "tuple", "dict", "model", "union", "is_instance")) \
             or kind.endswith("_type"):
         want = {"float": "a number", "int": "a whole number", "bool": "true or false", "string": "text",

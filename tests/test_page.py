@@ -449,7 +449,8 @@ def test_option_lists_and_limits_come_from_the_server(page):
     assert all(shown[side] == names("edge") for side in ("left", "right", "bottom", "top"))
     assert shown["gas-preset"] == names("preset") + [["", "custom"]]
     assert shown["station-role"] == [["", "(nothing)"]] + names("role")
-    paints = page.evaluate("() => Array.from(document.querySelectorAll('#paints [data-paint]')).map(b => b.dataset.paint)")
+    paints = page.evaluate(
+        "() => Array.from(document.querySelectorAll('#paints [data-paint]')).map(b => b.dataset.paint)")
     assert paints == [c["name"] for c in voc["choices"]["paint"]]
     gamma = page.locator("#gas-gamma")
     assert float(gamma.get_attribute("min")) == voc["limits"]["gas.gamma"]["min"]

@@ -153,7 +153,8 @@ def test_hello_limits_are_the_ones_validation_applies(ws):
             assert err["field"].split(".")[-1] == path.split(".")[-1], (path, err)
             if not lim[f"{side}_exclusive"] and kind != "step":  # (a step's reply is a status, checked elsewhere)
                 ask(ws, {"type": kind, **body(bound)}, "scenario")
-    assert limits["conditions.reservoir.p0_pa"]["unit"] == "Pa" and limits["conditions.reservoir.p0_pa"]["min_exclusive"]
+    p0 = limits["conditions.reservoir.p0_pa"]
+    assert p0["unit"] == "Pa" and p0["min_exclusive"]
 
 
 def test_status_has_the_documented_fields(ws):

@@ -81,8 +81,10 @@ BAD = [
     (edited("conditions.reservoir.p0_pa", -5.0), "conditions.reservoir.p0_pa", "above",
      "Reservoir pressure p0 must be above 0 Pa; you gave -5 Pa."),
     (edited("conditions.reservoir.t0_k", 0.5), "conditions.reservoir.t0_k", "at_least", "at least 1 K; you gave 0.5 K"),
-    (edited("conditions.ambient.p_pa", "101325"), "conditions.ambient.p_pa", "type", "Ambient pressure must be a number"),
-    (edited("conditions.stream.mach", 45.0), "conditions.stream.mach", "at_most", "Stream Mach number must be at most 30"),
+    (edited("conditions.ambient.p_pa", "101325"), "conditions.ambient.p_pa", "type",
+     "Ambient pressure must be a number"),
+    (edited("conditions.stream.mach", 45.0), "conditions.stream.mach", "at_most",
+     "Stream Mach number must be at most 30"),
     (edited("domain.nx", 2), "domain.nx", "at_least", "at least 4"),
     (edited("domain.nx", 100.5), "domain.nx", "type", "a whole number"),
     (edited("domain.x_max_m", -1.0), "domain.x_max_m", "greater_than_field", "right edge"),
@@ -95,7 +97,8 @@ BAD = [
     (edited("numerics.cfl", 50.0), "numerics.cfl", "at_most", "CFL number must be at most"),
     (edited("numerics.order", 3), "numerics.order", "one_of", "1, 2"),
     (edited("sketch.shapes[0].paints", "lava"), "sketch.shapes[0].paints", "one_of", "wall, reservoir"),
-    (edited("sketch.shapes[1].points_m", [[0.0, 0.0], [1.0, 1.0]]), "sketch.shapes[1].points_m", "length", "at least 3"),
+    (edited("sketch.shapes[1].points_m", [[0.0, 0.0], [1.0, 1.0]]), "sketch.shapes[1].points_m", "length",
+     "at least 3"),
     (edited("sketch.shapes[2].radius_m", 0.0), "sketch.shapes[2].radius_m", "above", "above 0 m"),
     (edited("sketch.shapes[2].kind", "star"), "sketch.shapes[2].kind", "one_of", "stroke, segment"),
     (edited("sketch.shapes[1].points_m[2][0]", float("nan")), "sketch.shapes[1].points_m[2][0]", "finite", "finite"),
@@ -149,7 +152,8 @@ def test_duplicate_roles_and_names_are_refused():
     doc["stations"].append({"name": "s1", "start_m": [0.7, 0.0], "end_m": [0.7, 0.5], "role": None})
     with pytest.raises(ScenarioError) as info:
         parse_scenario(doc)
-    assert (info.value.first.field, info.value.first.value, info.value.first.rule) == ("stations[1].name", "s1", "unique")
+    first = info.value.first
+    assert (first.field, first.value, first.rule) == ("stations[1].name", "s1", "unique")
     doc = good()
     doc["stations"] = [{"name": f"s{n}", "start_m": [0.7, 0.0], "end_m": [0.7, 0.5], "role": "exit"} for n in range(2)]
     with pytest.raises(ScenarioError) as info:

@@ -1,4 +1,5 @@
-"""Shapes of a sketch: validation of the dict form (once, by the shape models), normalisation, bounds, reflection and the plain-dict form.
+"""Shapes of a sketch: validation of the dict form (once, by the shape models), normalisation, bounds,
+reflection and the plain-dict form.
 
 Expected bounds and reflections below are exact geometry (no source needed).
 """
