@@ -171,7 +171,7 @@ class ScenarioStore:
             return scn.load_builtin(name)
         known = scn.builtin_names() + self.saved_names()
         raise ScenarioNameError("name", name, "the name of a built-in or saved scenario (see list_scenarios)",
-                                f"There is no built-in or saved scenario named {name!r}{did_you_mean(name, known)}",
+                                f"There is no built-in or saved scenario named {name!r}{did_you_mean(name, known) or '.'}",
                                 "one_of")
 
     def saved_names(self) -> list[str]:

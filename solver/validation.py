@@ -19,6 +19,8 @@ from typing import Any
 
 from pydantic import BaseModel, ValidationError
 
+from .suggest import did_you_mean
+
 #: Units named by the end of a field's name (SI inside; see DEVELOPERS.md).
 UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
     ("_kg_kmol", "kg/kmol"), ("_kg_m3", "kg/m³"), ("_pa", "Pa"), ("_k", "K"), ("_m", "m"), ("_s", "s"),
@@ -190,6 +192,12 @@ _BOUNDS = {
 }
 
 
+def _suggestion(word: Any, choices: list[str]) -> str:
+    """' Did you mean 'x'?' for a near miss (solver/suggest.py), else ''."""
+    hint = did_you_mean(str(word), choices) if isinstance(word, str) else ""
+    return " D" + hint[3:] if hint else ""
+
+
 def _one_of(expected: str) -> list[str]:
     """pydantic's "'a', 'b' or 'c'" as ['a', 'b', 'c']."""
     text = expected.replace(" or ", ", ")
@@ -224,7 +232,8 @@ def problem_from_record(model: type[BaseModel], record: dict, prefix: str = "", 
             known.extend(n for n in m.model_fields if n not in known)
         allowed = "one of the fields " + ", ".join(known) if known else "no other field"
         return Problem(field, value, "unknown_field", allowed,
-                       f"There is no field {loc[-1]} here; the fields are: {', '.join(known)}.")
+                       f"There is no field {loc[-1]} here; the fields are: {', '.join(known)}."
+                       + _suggestion(loc[-1], known))
     if kind in _BOUNDS:
         key, rule, words = _BOUNDS[kind]
         bound = ctx.get(key)
@@ -235,7 +244,8 @@ def problem_from_record(model: type[BaseModel], record: dict, prefix: str = "", 
         names = _one_of(str(ctx.get("expected", "")))
         allowed = "one of: " + ", ".join(names)
         return Problem(field, value, "one_of", allowed,
-                       f"{Label} must be one of {', '.join(names)}; you gave {show_value(value)}.")
+                       f"{Label} must be one of {', '.join(names)}; you gave {show_value(value)}."
+                       + _suggestion(value, names))
     if kind == "finite_number":
         return Problem(field, value, "finite", "a finite number",
                        f"{Label} must be a finite number; you gave {show_value(value)}.")

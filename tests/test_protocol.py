@@ -78,7 +78,7 @@ def refused(sock, message: dict) -> dict:
     err = ask(sock, message, "error")
     assert err["request"] == message.get("type", "unknown") or err["request"] == "unknown"
     assert {"field", "value", "rule", "allowed", "message"} <= set(err)
-    assert err["message"][:1].isupper() and err["message"].endswith((".", "!")), err["message"]
+    assert err["message"][:1].isupper() and err["message"].endswith((".", "?")), err["message"]
     return err
 
 

@@ -307,3 +307,12 @@ def test_vocabulary_names_every_number_and_ties_the_tables():
     assert tuple(MODES) == simulation.MODES
     assert list(PAINTABLE) == list(PAINTS) and list(EDGE_GHOST_KIND) == list(EDGES)
     assert all(PAINTABLE[name] == choice.kernel_id for name, choice in PAINTS.items())
+
+
+def test_a_near_miss_of_a_choice_gets_a_suggestion():
+    with pytest.raises(ScenarioError) as info:
+        parse_scenario(edited("numerics.limiter", "vanleer"))
+    assert info.value.first.message.endswith("Did you mean 'van_leer'?")
+    with pytest.raises(ScenarioError) as info:
+        parse_scenario(edited("conditions.ambient.t_kk", 300.0))
+    assert info.value.first.rule == "unknown_field" and "Did you mean 't_k'?" in info.value.first.message
