@@ -242,19 +242,20 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
                 if now - last_rate_error >= 1.0:
                     last_rate_error = now
                     err = RequestError("message", None, f"at most {access.max_messages_per_s:g} messages per second",
-                                       "too many messages: this one and others are dropped until the rate falls")
+                                       "Too many messages: this one and others are dropped until the rate falls.",
+                                       "rate")
                     hub.send(client, p.error_message(_peek_type(text), err))
                 continue
             if text is None:
                 err = RequestError("message", "binary", "text messages holding JSON objects",
-                                   "binary messages are not accepted")
+                                   "Binary messages are not accepted.", "text_only")
                 hub.send(client, p.error_message("unknown", err))
                 continue
             if len(text) > access.max_message_bytes or len(text.encode("utf-8")) > access.max_message_bytes:
                 err = RequestError("message", f"{len(text.encode('utf-8'))} bytes",
                                    f"at most {access.max_message_bytes} bytes",
-                                   f"message of {len(text.encode('utf-8'))} bytes is larger than the "
-                                   f"{access.max_message_bytes}-byte limit")
+                                   f"The message of {len(text.encode('utf-8'))} bytes is larger than the "
+                                   f"{access.max_message_bytes}-byte limit.", "size")
                 hub.send(client, p.error_message(_peek_type(text), err))
                 continue
             await _handle_text(parts, client, text)
@@ -281,7 +282,8 @@ async def _handle_text(parts: ServerParts, client, text: str) -> None:
     except Exception as err:  # a bug: keep the connection, log it, and say so
         log.exception("request failed: %.200s", text)
         bug = RequestError("server", None, "a request the server can carry out",
-                           f"internal error while handling {p.request_type(raw)}: {type(err).__name__}: {err}")
+                           f"Internal error while handling {p.request_type(raw)}: {type(err).__name__}: {err}",
+                           "internal")
         parts.hub.send(client, p.error_message(p.request_type(raw), bug, p.request_id(raw)))
 
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 import asyncio
 from typing import Any, Awaitable, Callable
 
+from shockslate.solver import colourmaps
 from shockslate.solver import scenario as scn
 from shockslate.solver.fields import VIEWS
 
@@ -26,7 +27,9 @@ from .session import SessionState, request_error_from_scenario
 def hello_message(client: Client, runner: Runner) -> dict:
     s = runner.session
     return {"type": "hello", "protocol": p.PROTOCOL_VERSION, "client_id": client.id,
-            "views": [{"name": n, "label": label, "unit": unit} for n, (label, unit) in VIEWS.items()],
+            "views": [{"name": n, "label": label, "unit": unit, "map": colourmaps.view_map(n)}
+                      for n, (label, unit) in VIEWS.items()],
+            "vocabulary": p.vocabulary(), "colour_maps": colourmaps.for_page(),
             "scenario": scn.scenario_to_dict(s.scenario), "state": s.state.value, "revision": s.revision,
             "limits": {"max_message_bytes": p.MAX_MESSAGE_BYTES, "max_messages_per_s": p.MAX_MESSAGES_PER_S,
                        "max_frames_per_s": runner.hub.max_frames_per_s},
@@ -165,7 +168,8 @@ class Dispatcher:
         elif message.what == "csv":
             if not s.scenario.stations:
                 raise RequestError("what", "csv", "npz or scenario (csv holds station distributions: add a station "
-                                   "first)")
+                                   "first)", "A CSV export holds station distributions; add a station first.",
+                                   "needs_station")
             path = await self.runner.read(lambda: self.exports.write_csv(s.sim, s.scenario))
         else:
             path = await asyncio.to_thread(self.exports.write_scenario, s.scenario)

@@ -54,7 +54,8 @@ def default_data_dir() -> Path:
 def check_name(name: object, field: str = "name") -> str:
     """The name if it is allowed as a scenario name, else ScenarioNameError naming field, value and rule."""
     if (not isinstance(name, str) or not NAME_PATTERN.fullmatch(name) or name.strip() != name):
-        raise ScenarioNameError(field, name, NAME_RULE, f"{field} = {name!r} is not allowed: {NAME_RULE}")
+        raise ScenarioNameError(field, name, NAME_RULE, f"The name {name!r} is not allowed; a name is {NAME_RULE}.",
+                                "name")
     return name
 
 
@@ -62,7 +63,8 @@ def _inside(path: Path, folder: Path) -> Path:
     """path, resolved, after checking it lies directly in folder (defence in depth behind check_name)."""
     resolved = path.resolve()
     if resolved.parent != folder.resolve():
-        raise ScenarioNameError("name", path.name, NAME_RULE, f"name = {path.stem!r} does not stay inside {folder}")
+        raise ScenarioNameError("name", path.name, NAME_RULE, f"The name {path.stem!r} does not stay inside {folder}.",
+                                "name")
     return resolved
 
 
@@ -148,7 +150,7 @@ class ScenarioStore:
         check_name(name)
         if name in scn.builtin_names():
             raise ScenarioNameError("name", name, "a name that is not a built-in scenario's",
-                             f"name = {name!r} is not allowed: it is the name of a built-in scenario")
+                             f"The name {name!r} belongs to a built-in scenario; pick another.", "not_builtin")
         path = self.saved_path(name)
         if not path.exists() and len(self.saved_names()) >= MAX_SAVED:
             raise ScenarioNameError("name", name, f"at most {MAX_SAVED} kept scenarios",
@@ -169,7 +171,8 @@ class ScenarioStore:
             return scn.load_builtin(name)
         known = scn.builtin_names() + self.saved_names()
         raise ScenarioNameError("name", name, "the name of a built-in or saved scenario (see list_scenarios)",
-                                f"There is no built-in or saved scenario named {name!r}{did_you_mean(name, known)}")
+                                f"There is no built-in or saved scenario named {name!r}{did_you_mean(name, known) or '.'}",
+                                "one_of")
 
     def saved_names(self) -> list[str]:
         if not self.saved_dir.is_dir():

@@ -3,7 +3,10 @@
 The models check shape and type (known fields only, finite numbers, named choices); ranges that
 belong to the scenario (pressures, gamma, CFL, domain size ...) are checked once more when the
 changed scenario document is validated by solver.scenario, so there is a single source of truth.
-Every refusal becomes an `error` message naming the field, the value and what is allowed.
+Every refusal becomes an `error` message naming the field, the value, the rule and what is allowed, with
+a plain sentence; pydantic's records are read as data (solver/validation.py), never parsed from prose.
+The choice tables (limiters, fluxes, edges, presets ...) are the solver's own, sent to the page by
+`vocabulary()` in the hello message.
 """
 from __future__ import annotations
 
@@ -13,7 +16,15 @@ from typing import Annotated, Any, Literal, Optional, Union
 
 from pydantic import BaseModel, ConfigDict, Field, TypeAdapter, ValidationError, model_validator
 
+from shockslate.solver import scenario as scn
+from shockslate.solver.choices import literal
+from shockslate.solver.domain import MAX_NX
 from shockslate.solver.fields import VIEWS
+from shockslate.solver.gas import PRESET_CHOICES
+from shockslate.solver.kinds import EDGES
+from shockslate.solver.numerics import FLUXES, INTEGRATOR_CHOICES, LIMITERS, ORDERS
+from shockslate.solver.shapes import MIRRORS
+from shockslate.solver.validation import numeric_limits, problem_from_record
 
 from .errors import RequestError
 
@@ -69,7 +80,7 @@ class ClearSketch(_Message):
 
 class SetMirror(_Message):
     type: Literal["set_mirror"]
-    mirror: Literal["none", "axis", "midline"]
+    mirror: literal(MIRRORS)  # type: ignore[valid-type]
 
 
 # ----------------------------------------------------------------------------- gas, conditions, numerics
@@ -78,7 +89,7 @@ class SetGas(_Message):
     """A preset, or gamma and/or molar mass for a custom gas (the other value is kept)."""
 
     type: Literal["set_gas"]
-    preset: Optional[Literal["air", "hot products"]] = None
+    preset: Optional[literal(PRESET_CHOICES)] = None  # type: ignore[valid-type]
     gamma: Optional[Finite] = None
     molar_mass_kg_kmol: Optional[Finite] = None
 
@@ -86,9 +97,11 @@ class SetGas(_Message):
     def _one_way(self) -> "SetGas":
         custom = self.gamma is not None or self.molar_mass_kg_kmol is not None
         if self.preset is not None and custom:
-            raise RequestError("preset", self.preset, "either preset, or gamma and/or molar_mass_kg_kmol, not both")
+            raise RequestError("preset", self.preset, "either preset, or gamma and/or molar_mass_kg_kmol, not both",
+                               "Give either a preset or gamma and molar mass, not both.", "one_way")
         if self.preset is None and not custom:
-            raise RequestError("preset", None, "a preset (air, hot products) or gamma and/or molar_mass_kg_kmol")
+            raise RequestError("preset", None, f"a preset ({', '.join(PRESET_CHOICES)}) or gamma and/or "
+                               "molar_mass_kg_kmol", "Give a preset, or gamma and/or molar mass.", "required")
         return self
 
 
@@ -120,18 +133,18 @@ class SetConditions(_Message):
 
 class SetNumerics(_Message):
     type: Literal["set_numerics"]
-    order: Optional[Literal[1, 2]] = None
-    limiter: Optional[Literal["minmod", "van_leer", "mc"]] = None
-    flux: Optional[Literal["hllc", "hll", "rusanov"]] = None
+    order: Optional[literal(ORDERS)] = None  # type: ignore[valid-type]
+    limiter: Optional[literal(LIMITERS)] = None  # type: ignore[valid-type]
+    flux: Optional[literal(FLUXES)] = None  # type: ignore[valid-type]
     cfl: Optional[Finite] = None
-    integrator: Optional[Literal["ssp_rk2", "ssp_rk3"]] = None
+    integrator: Optional[literal(INTEGRATOR_CHOICES)] = None  # type: ignore[valid-type]
 
 
 # ----------------------------------------------------------------------------- domain
 
 class SetResolution(_Message):
     type: Literal["set_resolution"]
-    nx: int = Field(ge=4, le=4096, description="an integer number of cells across x, 4 to 4096")
+    nx: int = Field(ge=4, le=MAX_NX, description=f"an integer number of cells across x, 4 to {MAX_NX}")
 
 
 class SetDomain(_Message):
@@ -142,7 +155,7 @@ class SetDomain(_Message):
     y_max_m: Finite
 
 
-EdgeKind = Literal["wall", "open", "ambient", "stream", "axis"]
+EdgeKind = literal(EDGES)
 
 
 class SetEdges(_Message):
@@ -155,7 +168,7 @@ class SetEdges(_Message):
 
 class SetMode(_Message):
     type: Literal["set_mode"]
-    mode: Literal["planar", "axisymmetric"]
+    mode: literal(scn.MODES)  # type: ignore[valid-type]
 
 
 # ----------------------------------------------------------------------------- run control
@@ -184,7 +197,7 @@ class AddStation(_Message):
     name: Label
     start_m: PointM
     end_m: PointM
-    role: Optional[Literal["throat", "exit"]] = None
+    role: Optional[literal(scn.ROLES)] = None  # type: ignore[valid-type]
 
 
 class RemoveStation(_Message):
@@ -223,7 +236,9 @@ class SetView(_Message):
             and r[1] > r[0])
         if not ok:
             raise RequestError("range", _short(r), '"auto" or [min, max] (finite numbers, SI unit of the view) '
-                               "with max greater than min")
+                               "with max greater than min",
+                               "The colour range must be auto, or two finite numbers with the upper above the lower.",
+                               "range")
         return self
 
     @property
@@ -247,7 +262,8 @@ class Profile(_Message):
     @model_validator(mode="after")
     def _one_of(self) -> "Profile":
         if (self.station is None) == (not self.axis):
-            raise RequestError("station", self.station, "either a station name or axis: true, not both")
+            raise RequestError("station", self.station, "either a station name or axis: true, not both",
+                               "Ask for a station by name, or for the axis, not both.", "one_way")
         return self
 
 
@@ -266,7 +282,8 @@ class LoadScenario(_Message):
     @model_validator(mode="after")
     def _one_of(self) -> "LoadScenario":
         if (self.name is None) == (self.scenario is None):
-            raise RequestError("name", self.name, "either name (built-in or saved) or scenario (a document), not both")
+            raise RequestError("name", self.name, "either name (built-in or saved) or scenario (a document), not both",
+                               "Give either the name of a scenario or a scenario document, not both.", "one_way")
         return self
 
 
@@ -315,13 +332,13 @@ def parse_json(text: str) -> Any:
         return json.loads(text)
     except json.JSONDecodeError as err:
         raise RequestError("message", _short(text), "a JSON object with a 'type' field",
-                           f"message is not valid JSON: {err}") from None
+                           f"The message is not valid JSON: {err}.", "json") from None
     except RecursionError:
         raise RequestError("message", _short(text), "JSON nested at most a few hundred levels deep",
-                           "The message is nested too deeply to read.") from None
+                           "The message is nested too deeply to read.", "depth") from None
     except ValueError:  # an integer with more digits than Python converts (over 4,300)
         raise RequestError("message", _short(text), "numbers of at most 4,300 digits",
-                           "The message holds a number with too many digits to read.") from None
+                           "The message holds a number with too many digits to read.", "digits") from None
 
 
 def parse_text(text: str) -> tuple[Any, _Message]:
@@ -332,12 +349,15 @@ def parse_text(text: str) -> tuple[Any, _Message]:
 
 def parse_message(data: Any) -> _Message:
     if not isinstance(data, dict):
-        raise RequestError("message", _short(data), "a JSON object with a 'type' field")
+        raise RequestError("message", _short(data), "a JSON object with a 'type' field",
+                           "A message must be a JSON object with a type field.", "object")
     if "type" not in data:
-        raise RequestError("type", None, "one of: " + ", ".join(MESSAGE_TYPES), "type is missing")
+        raise RequestError("type", None, "one of: " + ", ".join(MESSAGE_TYPES),
+                           "The message has no type; it is required.", "required")
     kind = data["type"]
     if not isinstance(kind, str) or kind not in MESSAGE_TYPES:
-        raise RequestError("type", _short(kind), "one of: " + ", ".join(MESSAGE_TYPES))
+        raise RequestError("type", _short(kind), "one of: " + ", ".join(MESSAGE_TYPES),
+                           f"There is no message type {str(_short(kind))[:60]}.", "one_of")
     try:
         return _ADAPTER.validate_python(data)
     except ValidationError as err:
@@ -345,40 +365,38 @@ def parse_message(data: Any) -> _Message:
 
 
 def error_from_validation(model: type[BaseModel], err: ValidationError) -> RequestError:
-    """The first problem of a ValidationError as a RequestError (field path, value, what is allowed)."""
+    """The first problem of a ValidationError as a RequestError (field path, value, rule, allowed, sentence)."""
     first = err.errors(include_url=False)[0]
     loc = [p for p in first["loc"] if p != model.model_fields["type"].annotation.__args__[0]]
-    field = _path(loc) or "message"
-    ctx = first.get("ctx") or {}
-    inner = ctx.get("error")
+    inner = (first.get("ctx") or {}).get("error")
     if isinstance(inner, RequestError):
         return inner
-    value = _short(first.get("input"))
-    kind = first["type"]
+    problem = problem_from_record(model, {**first, "loc": tuple(loc)})
+    field = problem.field or "message"
+    value = _short(problem.value)
     described = _description(model, loc)
-    if kind == "missing":
+    if problem.rule == "required":
         allowed = "required" + (f": {described}" if described else "")
-        return RequestError(field, None, allowed, f"{field} is missing ({allowed})")
-    if kind == "extra_forbidden":
-        fields = ", ".join(_fields_at(model, loc[:-1]))
-        return RequestError(field, value, f"no such field; the fields here are: {fields}")
-    if kind == "literal_error":
-        allowed = "one of: " + ", ".join(_unquote(ctx.get("expected", "")))
-    elif described:
-        allowed = described
-    elif kind in ("greater_than_equal", "less_than_equal", "greater_than", "less_than"):
-        allowed = first["msg"].lower()
-    elif "finite" in kind:
-        allowed = "a finite number"
+    elif problem.rule in ("unknown_field", "one_of"):
+        allowed = problem.allowed
     else:
-        allowed = first["msg"][0].lower() + first["msg"][1:]
-    return RequestError(field, value, allowed)
+        allowed = described or problem.allowed
+    return RequestError(field, value, allowed, problem.message, problem.rule)
+
+
+def vocabulary() -> dict:
+    """Choices and numeric limits the page builds its controls from: the scenario's own, plus the messages'."""
+    out = scn.vocabulary()
+    out["limits"] = {**out["limits"], **numeric_limits(Step, "step."), **numeric_limits(SetView, "view.")}
+    out["choices"]["view"] = [{"name": n, "label": label} for n, (label, _unit) in VIEWS.items()]
+    out["choices"]["overlay"] = [{"name": n, "label": n.replace("_", " ")} for n in OVERLAYS]
+    return out
 
 
 def error_message(request: str, err: RequestError, rid: Any = None) -> dict:
     """The `error` reply (PROTOCOL.md)."""
     out = {"type": "error", "request": request, "field": err.field, "value": _jsonable(err.value),
-           "allowed": err.allowed, "message": err.message}
+           "rule": err.rule, "allowed": err.allowed, "message": err.message}
     if rid is not None:
         out["id"] = rid
     return out
@@ -398,31 +416,6 @@ def finite_or_none(obj: Any) -> Any:
 def dumps(obj: Any) -> str:
     """Compact JSON text of a server message, NaN and infinities as null."""
     return json.dumps(finite_or_none(obj), separators=(",", ":"), allow_nan=False)
-
-
-def _path(loc: list) -> str:
-    parts: list[str] = []
-    for item in loc:
-        parts.append(f"[{item}]" if isinstance(item, int) else ("." if parts else "") + str(item))
-    return "".join(parts)
-
-
-def _unquote(expected: str) -> list[str]:
-    """pydantic's "'a', 'b' or 'c'" as ['a', 'b', 'c']."""
-    text = expected.replace(" or ", ", ")
-    return [t.strip().strip("'") for t in text.split(",") if t.strip()]
-
-
-def _fields_at(model: type[BaseModel], loc: list) -> list[str]:
-    current: Any = model
-    for name in loc:
-        if isinstance(name, int):
-            continue
-        sub = _submodel(current, name)
-        if sub is None:
-            return []
-        current = sub
-    return list(current.model_fields) if isinstance(current, type) and issubclass(current, BaseModel) else []
 
 
 def _submodel(model: Any, name: str) -> Any:

@@ -15,7 +15,6 @@ from __future__ import annotations
 import copy
 import enum
 import math
-import re
 import time
 from dataclasses import dataclass
 from typing import Any, Callable
@@ -30,6 +29,7 @@ from shockslate.solver.gas import PRESETS, Gas
 from shockslate.solver.raster import rasterise
 from shockslate.solver.shapes import shape_from_dict
 from shockslate.solver.simulation import Simulation
+from shockslate.solver.validation import Refused
 
 from . import readings
 from .errors import RequestError
@@ -139,40 +139,23 @@ def divergence_advice(numerics: scn.NumericsModel, conditions: scn.ConditionsMod
     return tuple(advice)
 
 
-_SCENARIO_CLAUSE = re.compile(r"^(?P<field>[A-Za-z_][\w.\[\]]*) (?:= (?P<value>.*?) )?is (?:not allowed|missing|outside)"
-                              r"[:;,]? ?(?P<allowed>.*)$", re.S)
-
-
-def _value_at(doc: Any, path: str) -> Any:
-    """The value at a JSON path like 'stations[2].start_m' in doc, or None."""
-    current = doc
-    for name, index in re.findall(r"([A-Za-z_]\w*)|\[(\d+)\]", path):
-        try:
-            current = current[name] if name else current[int(index)]
-        except (KeyError, IndexError, TypeError):
-            return None
-    return current
-
-
-def request_error_from_scenario(err: ValueError, doc: dict, prefix_map: dict[str, str] | None = None) -> RequestError:
-    """A RequestError from a ScenarioError (or a solver ValueError) raised on the changed document.
+def request_error_from_scenario(err: ValueError, doc: dict | None = None,
+                                prefix_map: dict[str, str] | None = None) -> RequestError:
+    """A RequestError from the first Problem of a refused scenario document (or shape).
 
     prefix_map re-aims document paths at the message's fields, e.g. {"conditions.": ""} so that
-    the error of set_conditions names reservoir.p0_pa.
+    the error of set_conditions names reservoir.p0_pa. A plain ValueError (a solver rule) is passed on
+    as it is, under the field "scenario".
     """
-    text = str(err).split("; ")[0]
-    match = _SCENARIO_CLAUSE.match(text)
-    if match is None:
-        return RequestError("scenario", None, text, text)
-    path = match.group("field")
-    value = _value_at(doc, path)
-    field = path
-    for prefix, replacement in (prefix_map or {}).items():
+    if not isinstance(err, Refused):
+        return RequestError("scenario", None, "a setup the solver accepts", str(err), "solver")
+    problem = err.first
+    field = problem.field
+    for prefix, replacement in (prefix_map or {}).items() if field else ():
         if field.startswith(prefix):
             field = replacement + field[len(prefix):]
             break
-    allowed = match.group("allowed") or text
-    return RequestError(field, value, allowed, text)
+    return RequestError.from_problem(problem, field or "scenario")
 
 
 class Session:
@@ -197,8 +180,8 @@ class Session:
             allowed = [s.value for (e, s) in TRANSITIONS if e == event]
             hint = " (pause first)" if event == "step" else ""
             raise TransitionError("state", self.state.value, "one of: " + ", ".join(allowed),
-                                  f"{event} is not allowed while the run is {self.state.value}{hint}; "
-                                  f"it is allowed when {' or '.join(allowed)}")
+                                  f"{event.capitalize()} is not allowed while the run is {self.state.value}{hint}; "
+                                  f"it is allowed when {' or '.join(allowed)}.", "state")
         self.state = target
         if target is not DIVERGED:
             self.divergence = None
@@ -219,7 +202,7 @@ class Session:
         """Advance `count` steps while paused (or after a divergence); stops early on divergence, and after
         max_wall_s seconds of work (at least one step), so that a long request can be served in slices."""
         if not (isinstance(count, int) and 1 <= count <= 1000):
-            raise RequestError("count", count, "an integer from 1 to 1000")
+            raise RequestError("count", count, "an integer from 1 to 1000", rule="range")
         if (("step", self.state)) not in TRANSITIONS:
             self._transition("step")  # raises with the allowed states
         start = time.perf_counter()
@@ -289,7 +272,7 @@ class Session:
         except ValueError as err:
             if self._on_change is not None:
                 self._on_change(self.scenario)
-            raise RequestError("scenario", None, str(err), str(err)) from None
+            raise RequestError("scenario", None, "a setup the solver accepts", str(err), "solver") from None
         self.scenario = new
         self.revision += 1
         self.flow_version += 1
@@ -323,7 +306,7 @@ class Session:
         n = len(sketch["shapes"])
         if not (isinstance(index, int) and 0 <= index < n):
             allowed = f"an index from 0 to {n - 1}" if n else "no index: the sketch is empty"
-            raise RequestError("index", index, allowed)
+            raise RequestError("index", index, allowed, f"There is no shape {index}; the sketch has {n}.", "range")
         del sketch["shapes"][index]
         self._change_sketch(sketch)
 
@@ -331,7 +314,7 @@ class Session:
         sketch = self._doc()["sketch"]
         if not sketch["shapes"]:
             raise RequestError("sketch", 0, "a sketch with shapes (it is already empty)",
-                               "clear_sketch: the sketch is already empty")
+                               "The sketch is already empty.", "empty")
         sketch["shapes"] = []
         self._change_sketch(sketch)
 
@@ -343,7 +326,7 @@ class Session:
     def undo(self) -> None:
         if not self._undo:
             raise RequestError("undo", 0, "an earlier sketch change to undo (there is none)",
-                               "undo: there is no sketch change to undo")
+                               "There is no sketch change to undo.", "nothing_to_undo")
         previous = self._undo[-1]
         current = self._doc()["sketch"]
         self._change_sketch(previous, record=False)
@@ -353,7 +336,7 @@ class Session:
     def redo(self) -> None:
         if not self._redo:
             raise RequestError("redo", 0, "an undone sketch change to redo (there is none)",
-                               "redo: there is no undone sketch change to redo")
+                               "There is no undone sketch change to redo.", "nothing_to_redo")
         following = self._redo[-1]
         current = self._doc()["sketch"]
         self._change_sketch(following, record=False)
@@ -373,7 +356,8 @@ class Session:
         doc = self._doc()
         if preset is not None:
             if preset not in PRESETS:
-                raise RequestError("preset", preset, "one of: " + ", ".join(PRESETS))
+                raise RequestError("preset", preset, "one of: " + ", ".join(PRESETS),
+                                   f"There is no gas preset {preset}; the presets are {', '.join(PRESETS)}.", "one_of")
             ref = PRESETS[preset]
             doc["gas"] = {"preset": preset, "gamma": ref.gamma, "molar_mass_kg_kmol": ref.molar_mass_kg_kmol}
         else:
@@ -453,7 +437,8 @@ class Session:
         doc = self._doc()
         used = [st["name"] for st in doc["stations"]]
         if name in used:
-            raise RequestError("name", name, "a name no other station uses (in use: " + ", ".join(used) + ")")
+            raise RequestError("name", name, "a name no other station uses (in use: " + ", ".join(used) + ")",
+                               f"A station called {name} is there already; pick another name.", "unique")
         n = len(used)
         doc["stations"].append({"name": name, "start_m": list(start_m), "end_m": list(end_m), "role": role})
         if role is not None:  # the new station takes the role over
@@ -470,7 +455,8 @@ class Session:
         doc = self._doc()
         used = [pr["name"] for pr in doc["probes"]]
         if name in used:
-            raise RequestError("name", name, "a name no other probe uses (in use: " + ", ".join(used) + ")")
+            raise RequestError("name", name, "a name no other probe uses (in use: " + ", ".join(used) + ")",
+                               f"A probe called {name} is there already; pick another name.", "unique")
         n = len(used)
         doc["probes"].append({"name": name, "x_m": x_m, "y_m": y_m})
         new = self._validated(doc, {f"probes[{n}].": "", f"probes[{n}]": "x_m"})
@@ -484,7 +470,8 @@ class Session:
         doc = self._doc()
         names = [item["name"] for item in doc[key]]
         if name not in names:
-            raise RequestError("name", name, f"one of the {key}: " + (", ".join(names) or "(there are none)"))
+            raise RequestError("name", name, f"one of the {key}: " + (", ".join(names) or "(there are none)"),
+                               f"There is no {key[:-1]} called {name}.", "one_of")
         del doc[key][names.index(name)]
         self._commit(self._validated(doc), lambda s: None)
 
@@ -493,9 +480,13 @@ class Session:
         d = self.scenario.domain
         top = self.sim.domain.y_min_m + self.sim.domain.ny * self.sim.domain.dx_m
         if not (math.isfinite(x_m) and d.x_min_m <= x_m <= d.x_max_m):
-            raise RequestError("x_m", x_m, f"a point inside the domain, x from {d.x_min_m:g} to {d.x_max_m:g} m")
+            raise RequestError("x_m", x_m, f"a point inside the domain, x from {d.x_min_m:g} to {d.x_max_m:g} m",
+                               f"The point must lie inside the domain, x from {d.x_min_m:g} to {d.x_max_m:g} m; "
+                               f"you gave x {x_m:g} m.", "inside_domain")
         if not (math.isfinite(y_m) and d.y_min_m <= y_m <= top):
-            raise RequestError("y_m", y_m, f"a point inside the domain, y from {d.y_min_m:g} to {top:g} m")
+            raise RequestError("y_m", y_m, f"a point inside the domain, y from {d.y_min_m:g} to {top:g} m",
+                               f"The point must lie inside the domain, y from {d.y_min_m:g} to {top:g} m; "
+                               f"you gave y {y_m:g} m.", "inside_domain")
 
     def inspect(self, x_m: float, y_m: float) -> dict:
         """All values in the cell under a point (the `inspect` reply)."""
@@ -516,7 +507,8 @@ class Session:
                 out["ideal_mach"] = None
                 return out
         names = [st.name for st in self.scenario.stations]
-        raise RequestError("station", station, "one of the stations: " + (", ".join(names) or "(there are none)"))
+        raise RequestError("station", station, "one of the stations: " + (", ".join(names) or "(there are none)"),
+                           f"There is no station called {station}.", "one_of")
 
     def snapshot(self) -> FlowSnapshot:
         rho, u, v, p = self.sim.primitive()

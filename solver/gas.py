@@ -3,6 +3,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from .choices import Choice, table
+
 #: Universal gas constant, J/(kmol K) (CODATA 2018 exact value).
 R_UNIVERSAL_J_KMOL_K = 8314.462618
 
@@ -48,4 +50,10 @@ AIR = Gas(gamma=1.4, molar_mass_kg_kmol=28.965)
 #: Hot combustion products: ILLUSTRATIVE round values for a generic propellant, not any real mixture.
 HOT_PRODUCTS = Gas(gamma=1.20, molar_mass_kg_kmol=22.0)
 
-PRESETS: dict[str, Gas] = {"air": AIR, "hot products": HOT_PRODUCTS}
+#: Named gases: the choice (name as in scenario files, label for the page) and the gas itself.
+_PRESET_TABLE: tuple[tuple[Choice, Gas], ...] = (
+    (Choice("air", "air"), AIR),
+    (Choice("hot products", "hot products (illustrative)"), HOT_PRODUCTS),
+)
+PRESETS: dict[str, Gas] = {c.name: gas for c, gas in _PRESET_TABLE}
+PRESET_CHOICES: dict[str, Choice] = table(*(c for c, _ in _PRESET_TABLE))

@@ -24,8 +24,8 @@ WALL = 1
 RESERVOIR = 2
 OPEN = 5
 
-LIM_FIRST_ORDER, LIM_MINMOD, LIM_VAN_LEER, LIM_MC = 0, 1, 2, 3
-FLUX_HLLC, FLUX_HLL, FLUX_RUSANOV = 0, 1, 2
+# limiter and flux ids: one table in numerics.py names them
+from .numerics import FLUX_HLL, FLUX_HLLC, FLUX_RUSANOV, LIM_FIRST_ORDER, LIM_MC, LIM_MINMOD, LIM_VAN_LEER  # noqa: E402
 
 _INLINE = dict(nogil=True, cache=True, error_model="numpy", inline="always")
 _PARALLEL = dict(nogil=True, cache=True, error_model="numpy", parallel=True)

@@ -7,6 +7,8 @@ from __future__ import annotations
 
 from enum import IntEnum
 
+from .choices import Choice, table
+
 
 class CellKind(IntEnum):
     """What a cell of the mask is. Values are stored as uint8 in the mask."""
@@ -27,26 +29,29 @@ class CellKind(IntEnum):
             raise ValueError(f"paint kind {name!r} is not one of: {allowed}") from None
 
 
+#: What a sketch shape may paint, by scenario-file name; the kernel id is the mask value.
+PAINTS: dict[str, Choice] = table(
+    Choice("wall", "wall", CellKind.WALL),
+    Choice("reservoir", "reservoir", CellKind.RESERVOIR),
+    Choice("stream", "stream", CellKind.STREAM),
+    Choice("ambient", "ambient", CellKind.AMBIENT),
+    Choice("fluid", "fluid (erase)", CellKind.FLUID),
+)
 #: The kinds a sketch shape may paint, by their scenario-file names.
-PAINTABLE: dict[str, CellKind] = {
-    "fluid": CellKind.FLUID,
-    "wall": CellKind.WALL,
-    "reservoir": CellKind.RESERVOIR,
-    "stream": CellKind.STREAM,
-    "ambient": CellKind.AMBIENT,
-}
+PAINTABLE: dict[str, CellKind] = {c.name: CellKind(c.kernel_id) for c in PAINTS.values()}
 
 #: Kinds whose state is reset to a held value after every stage.
 HELD_KINDS = (CellKind.RESERVOIR, CellKind.STREAM, CellKind.AMBIENT)
 
-#: Conditions a domain edge may carry, and the ghost-cell kind each becomes.
+#: Conditions a domain edge may carry; the kernel id is the ghost-cell kind each becomes.
 #: A symmetry axis is a slip wall for the Euler equations (mirror state), so it
 #: shares the wall's ghost kind; the mode check keeps it to the bottom edge of
 #: an axisymmetric domain.
-EDGE_GHOST_KIND: dict[str, CellKind] = {
-    "wall": CellKind.WALL,
-    "open": CellKind.OPEN,
-    "ambient": CellKind.AMBIENT,
-    "stream": CellKind.STREAM,
-    "axis": CellKind.WALL,
-}
+EDGES: dict[str, Choice] = table(
+    Choice("wall", "wall", CellKind.WALL),
+    Choice("open", "open (outflow)", CellKind.OPEN),
+    Choice("ambient", "ambient", CellKind.AMBIENT),
+    Choice("stream", "stream", CellKind.STREAM),
+    Choice("axis", "axis (symmetry)", CellKind.WALL),
+)
+EDGE_GHOST_KIND: dict[str, CellKind] = {c.name: CellKind(c.kernel_id) for c in EDGES.values()}

@@ -7,10 +7,23 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-#: Slope limiters by scenario name -> kernel id. id 0 is first order (no slope).
-LIMITERS: dict[str, int] = {"minmod": 1, "van_leer": 2, "mc": 3}
-#: Approximate Riemann solvers (numerical fluxes) by name -> kernel id.
-FLUXES: dict[str, int] = {"hllc": 0, "hll": 1, "rusanov": 2}
+from .choices import Choice, table
+
+#: Kernel ids of the slope limiters (id 0 is first order: no slope) and the numerical fluxes.
+#: `kernels.py` compares against these; the tables below are the only place a name meets its id.
+LIM_FIRST_ORDER, LIM_MINMOD, LIM_VAN_LEER, LIM_MC = 0, 1, 2, 3
+FLUX_HLLC, FLUX_HLL, FLUX_RUSANOV = 0, 1, 2
+
+#: Reconstruction order: 1 piecewise constant, 2 MUSCL (van Leer 1979) with a slope limiter.
+ORDERS: dict[int, Choice] = table(Choice(1, "1 (piecewise constant)"), Choice(2, "2 (MUSCL)"))
+#: Slope limiters by scenario name.
+LIMITERS: dict[str, Choice] = table(Choice("minmod", "minmod", LIM_MINMOD),
+                                    Choice("van_leer", "van Leer", LIM_VAN_LEER),
+                                    Choice("mc", "MC", LIM_MC))
+#: Approximate Riemann solvers (numerical fluxes) by scenario name.
+FLUXES: dict[str, Choice] = table(Choice("hllc", "HLLC", FLUX_HLLC),
+                                  Choice("hll", "HLL", FLUX_HLL),
+                                  Choice("rusanov", "Rusanov", FLUX_RUSANOV))
 
 #: Above about 1 the scheme is unstable; values up to 2 are accepted so that a user can see it diverge.
 CFL_MIN, CFL_MAX = 0.01, 2.0
@@ -22,12 +35,15 @@ class SSPTableau:
 
     name: str
     stages: tuple[tuple[float, float], ...]
+    label: str = ""
 
 
 #: Shu and Osher, J. Comput. Phys. 77 (1988); Gottlieb and Shu, Math. Comp. 67 (1998).
-SSP_RK2 = SSPTableau("ssp_rk2", ((0.0, 1.0), (0.5, 0.5)))
-SSP_RK3 = SSPTableau("ssp_rk3", ((0.0, 1.0), (0.75, 0.25), (1.0 / 3.0, 2.0 / 3.0)))
+SSP_RK2 = SSPTableau("ssp_rk2", ((0.0, 1.0), (0.5, 0.5)), "SSP-RK2")
+SSP_RK3 = SSPTableau("ssp_rk3", ((0.0, 1.0), (0.75, 0.25), (1.0 / 3.0, 2.0 / 3.0)), "SSP-RK3")
 INTEGRATORS: dict[str, SSPTableau] = {t.name: t for t in (SSP_RK2, SSP_RK3)}
+#: The integrators as choices for the page.
+INTEGRATOR_CHOICES: dict[str, Choice] = table(*(Choice(t.name, t.label) for t in INTEGRATORS.values()))
 
 
 def _choice(field: str, value: str, allowed: dict) -> None:
@@ -53,8 +69,8 @@ class Numerics:
     integrator: str = "ssp_rk2"
 
     def __post_init__(self) -> None:
-        if self.order not in (1, 2):
-            raise ValueError(f"order = {self.order!r} is not one of: 1, 2")
+        if self.order not in ORDERS:
+            raise ValueError(f"order = {self.order!r} is not one of: {', '.join(map(str, ORDERS))}")
         _choice("limiter", self.limiter, LIMITERS)
         _choice("flux", self.flux, FLUXES)
         _choice("integrator", self.integrator, INTEGRATORS)
@@ -63,11 +79,11 @@ class Numerics:
 
     @property
     def limiter_id(self) -> int:
-        return 0 if self.order == 1 else LIMITERS[self.limiter]
+        return LIM_FIRST_ORDER if self.order == 1 else LIMITERS[self.limiter].kernel_id
 
     @property
     def flux_id(self) -> int:
-        return FLUXES[self.flux]
+        return FLUXES[self.flux].kernel_id
 
     @property
     def tableau(self) -> SSPTableau:

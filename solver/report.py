@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from .colourmaps import DIVERGING, matplotlib_map_for_view, view_map
 from .fields import VIEWS, derived
 from .simulation import Simulation
 
@@ -60,11 +61,14 @@ def snapshot_figure(sim: Simulation, view: str = "mach"):
     width = 8.0
     height = max(2.0, min(8.0, width * ny / nx + 1.0))
     fig, ax = plt.subplots(figsize=(width, height), dpi=110)
-    cmap = plt.get_cmap("gray" if view == "schlieren" else "viridis").with_extremes(bad="#8a8a8a")
+    cmap = matplotlib_map_for_view(view)  # the page's own map of this view (solver/colourmaps.py)
     finite = field[np.isfinite(field)]
     vmin, vmax = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 1.0)
     if vmax <= vmin:
         vmax = vmin + 1.0
+    if view_map(view) in DIVERGING and vmin < 0.0 < vmax:  # zero in the middle, as the page draws it
+        vmax = max(-vmin, vmax)
+        vmin = -vmax
     img = ax.imshow(np.ma.masked_invalid(field), origin="lower", extent=extent, cmap=cmap, vmin=vmin, vmax=vmax,
                     interpolation="nearest", aspect="equal")
     bar = fig.colorbar(img, ax=ax, shrink=0.85)

@@ -13,20 +13,22 @@ import json
 import math
 from importlib import resources
 from pathlib import Path
-from typing import Annotated, Any, Literal, Optional, Union
+from typing import Annotated, Any, Literal, Optional
 
 import numpy as np
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from .conditions import Ambient, Conditions, Reservoir, Stream
+from .choices import Choice, literal, table
+from .conditions import MACH_MAX, P_MAX_PA, T_MAX_K, T_MIN_K, Ambient, Conditions, Reservoir, Stream
 from .diagnostics import Station
 from .domain import MAX_NX, Domain
-from .gas import GAMMA_MAX, GAMMA_MIN, PRESETS, Gas
-from .kinds import CellKind
-from .numerics import CFL_MAX, CFL_MIN, Numerics
+from .gas import GAMMA_MAX, GAMMA_MIN, PRESET_CHOICES, PRESETS, Gas
+from .kinds import EDGES, PAINTS
+from .numerics import CFL_MAX, CFL_MIN, FLUXES, INTEGRATOR_CHOICES, LIMITERS, ORDERS, Numerics
 from .raster import rasterise
-from .shapes import MAX_COORD_M, Sketch, shape_from_dict
+from .shapes import MIRRORS, SHAPE_KINDS, Metres, PositiveMetres, Sketch, SketchModel
 from .simulation import Edges, Setup, Simulation
+from .validation import Invalid, Problem, Refused, numeric_limits, problems, show_value
 
 #: Folder of the built-in scenario files (package data of shockslate.scenarios; scenarios/ in a checkout).
 SCENARIO_DIR = Path(str(resources.files("shockslate.scenarios")))
@@ -34,28 +36,31 @@ SCENARIO_DIR = Path(str(resources.files("shockslate.scenarios")))
 DEFAULT_SCENARIO = "nozzle_sea_level"
 SCHEMA_FILE = "schema.json"
 
-P_MAX_PA = 1.0e9
-T_MIN_K, T_MAX_K = 1.0, 1.0e4
 END_TIME_MAX_S = 10.0
+MOLAR_MASS_MAX_KG_KMOL = 1000.0
 
-#: Shape kinds, used to drop pydantic's union tag from error paths.
-_SHAPE_KINDS = ("stroke", "segment", "rectangle", "polygon", "circle")
+#: Geometry modes: planar (per metre of depth) or axisymmetric (x the axis, y the radius).
+MODES: dict[str, Choice] = table(Choice("planar", "planar"), Choice("axisymmetric", "axisymmetric (x axis, y radius)"))
+#: Roles a station may have in the nozzle figures.
+ROLES: dict[str, Choice] = table(Choice("throat", "throat"), Choice("exit", "exit"))
 
 
-class ScenarioError(ValueError):
-    """A scenario document was refused; the message names the JSON path, the value and what is allowed."""
+class ScenarioError(Refused):
+    """A scenario document was refused; `problems` name the JSON path, the value, the rule and say it plainly."""
+
+    @classmethod
+    def one(cls, field: str, value: Any, rule: str, allowed: str, message: str) -> "ScenarioError":
+        return cls([Problem(field, value, rule, allowed, message)])
 
 
 # ----------------------------------------------------------------------------- field types
 
 
-Metres = Annotated[float, Field(strict=True, allow_inf_nan=False, ge=-MAX_COORD_M, le=MAX_COORD_M)]
-PositiveMetres = Annotated[float, Field(strict=True, allow_inf_nan=False, gt=0.0, le=MAX_COORD_M)]
 Point = tuple[Metres, Metres]
 Pressure = Annotated[float, Field(strict=True, allow_inf_nan=False, gt=0.0, le=P_MAX_PA)]
 Temperature = Annotated[float, Field(strict=True, allow_inf_nan=False, ge=T_MIN_K, le=T_MAX_K)]
-Paint = Literal["fluid", "wall", "reservoir", "stream", "ambient"]
-EdgeKind = Literal["wall", "open", "ambient", "stream", "axis"]
+Paint = literal(PAINTS)
+EdgeKind = literal(EDGES)
 Name = Annotated[str, Field(min_length=1, max_length=80)]
 
 
@@ -63,141 +68,86 @@ class _Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
 
-# ----------------------------------------------------------------------------- shapes (mirrors of solver/shapes.py)
-
-class StrokeModel(_Strict):
-    """Freehand path with a width (metres)."""
-
-    kind: Literal["stroke"]
-    points_m: list[Point] = Field(min_length=2, max_length=20000)
-    width_m: PositiveMetres
-    paints: Paint
-
-
-class SegmentModel(_Strict):
-    """Straight line with a width (metres), round ends."""
-
-    kind: Literal["segment"]
-    start_m: Point
-    end_m: Point
-    width_m: PositiveMetres
-    paints: Paint
-
-
-class RectangleModel(_Strict):
-    """Axis-aligned rectangle from two opposite corners (metres)."""
-
-    kind: Literal["rectangle"]
-    corner_a_m: Point
-    corner_b_m: Point
-    paints: Paint
-
-
-class PolygonModel(_Strict):
-    """Closed polygon, filled by the even-odd rule (metres)."""
-
-    kind: Literal["polygon"]
-    points_m: list[Point] = Field(min_length=3, max_length=20000)
-    paints: Paint
-
-
-class CircleModel(_Strict):
-    """Filled disc (metres)."""
-
-    kind: Literal["circle"]
-    centre_m: Point
-    radius_m: PositiveMetres
-    paints: Paint
-
-
-ShapeModel = Annotated[Union[StrokeModel, SegmentModel, RectangleModel, PolygonModel, CircleModel],
-                       Field(discriminator="kind")]
-
-
-class SketchModel(_Strict):
-    """What is drawn: shapes in order, later ones painting over earlier ones; optional mirror."""
-
-    mirror: Literal["none", "axis", "midline"] = "none"
-    shapes: list[ShapeModel] = Field(default_factory=list, max_length=2000)
-
-
 # ----------------------------------------------------------------------------- the other parts
 
 class GasModel(_Strict):
     """Calorically perfect gas. A named preset must agree with gamma and molar mass (null for a custom gas)."""
 
-    preset: Optional[Literal["air", "hot products"]] = None
-    gamma: float = Field(strict=True, allow_inf_nan=False, ge=GAMMA_MIN, le=GAMMA_MAX)
-    molar_mass_kg_kmol: float = Field(strict=True, allow_inf_nan=False, gt=0.0, le=1000.0)
+    preset: Optional[literal(PRESET_CHOICES)] = Field(None, title="gas preset")  # type: ignore[valid-type]
+    gamma: float = Field(strict=True, allow_inf_nan=False, ge=GAMMA_MIN, le=GAMMA_MAX, title="ratio of specific heats")
+    molar_mass_kg_kmol: float = Field(strict=True, allow_inf_nan=False, gt=0.0, le=MOLAR_MASS_MAX_KG_KMOL,
+                                      title="molar mass")
 
     @model_validator(mode="after")
     def _preset_agrees(self) -> "GasModel":
         if self.preset is not None:
             ref = PRESETS[self.preset]
-            if not math.isclose(self.gamma, ref.gamma, rel_tol=1e-9):
-                raise ValueError(f"gas.gamma = {self.gamma!r} does not match preset {self.preset!r} "
-                                 f"(gamma {ref.gamma}); allowed: that value, or preset null for a custom gas")
-            if not math.isclose(self.molar_mass_kg_kmol, ref.molar_mass_kg_kmol, rel_tol=1e-9):
-                raise ValueError(f"gas.molar_mass_kg_kmol = {self.molar_mass_kg_kmol!r} does not match preset "
-                                 f"{self.preset!r} ({ref.molar_mass_kg_kmol} kg/kmol); allowed: that value, "
-                                 "or preset null for a custom gas")
+            for name, value, want, unit in (("gamma", self.gamma, ref.gamma, ""),
+                                            ("molar_mass_kg_kmol", self.molar_mass_kg_kmol, ref.molar_mass_kg_kmol,
+                                             "kg/kmol")):
+                if not math.isclose(value, want, rel_tol=1e-9):
+                    raise Invalid(name, value, "matches_preset", f"{show_value(want, unit)} (or preset null)",
+                                  f"The preset {self.preset} has {name.split('_kg')[0].replace('_', ' ')} "
+                                  f"{show_value(want, unit)}; you gave {show_value(value, unit)}. Give that value, "
+                                  "or no preset for a custom gas.")
         return self
 
 
 class DomainModel(_Strict):
     """Computational rectangle in metres and its resolution (cells across x; cells are square)."""
 
-    x_min_m: Metres
-    x_max_m: Metres
-    y_min_m: Metres
-    y_max_m: Metres
-    nx: int = Field(strict=True, ge=4, le=MAX_NX)
+    x_min_m: Metres = Field(title="domain left edge x")
+    x_max_m: Metres = Field(title="domain right edge x")
+    y_min_m: Metres = Field(title="domain bottom edge y")
+    y_max_m: Metres = Field(title="domain top edge y")
+    nx: int = Field(strict=True, ge=4, le=MAX_NX, title="resolution (cells across x)")
 
     @model_validator(mode="after")
     def _extent(self) -> "DomainModel":
-        if not self.x_max_m > self.x_min_m:
-            raise ValueError(f"domain.x_max_m = {self.x_max_m!r} is not allowed: must be greater than "
-                             f"domain.x_min_m = {self.x_min_m!r}")
-        if not self.y_max_m > self.y_min_m:
-            raise ValueError(f"domain.y_max_m = {self.y_max_m!r} is not allowed: must be greater than "
-                             f"domain.y_min_m = {self.y_min_m!r}")
+        for low, high, words in (("x_min_m", "x_max_m", "right edge"), ("y_min_m", "y_max_m", "top edge")):
+            lo, hi = getattr(self, low), getattr(self, high)
+            if not hi > lo:
+                raise Invalid(high, hi, "greater_than_field", f"above {low} = {show_value(lo, 'm')}",
+                              f"The domain's {words} must lie beyond {show_value(lo, 'm')}; you gave "
+                              f"{show_value(hi, 'm')}.")
         try:
             Domain(self.x_min_m, self.x_max_m, self.y_min_m, self.y_max_m, self.nx)
-        except ValueError as err:
-            raise ValueError(f"domain.{err}") from None
+        except ValueError as err:  # the cell count across y, which follows from nx and the extent
+            raise Invalid("nx", self.nx, "cells", "a resolution that keeps the cell grid within its limits",
+                          f"This resolution does not fit the domain: {err}.") from None
         return self
 
 
 class EdgesModel(_Strict):
     """Condition on each domain edge; 'axis' only at the bottom of an axisymmetric domain."""
 
-    left: EdgeKind = "wall"
-    right: EdgeKind = "open"
-    bottom: EdgeKind = "wall"
-    top: EdgeKind = "wall"
+    left: EdgeKind = Field("wall", title="left edge")
+    right: EdgeKind = Field("open", title="right edge")
+    bottom: EdgeKind = Field("wall", title="bottom edge")
+    top: EdgeKind = Field("wall", title="top edge")
 
 
 class ReservoirModel(_Strict):
     """Chamber feed: gas at rest at stagnation pressure and temperature."""
 
-    p0_pa: Pressure = 2.0e6
-    t0_k: Temperature = 300.0
+    p0_pa: Pressure = Field(2.0e6, title="reservoir pressure p0")
+    t0_k: Temperature = Field(300.0, title="reservoir temperature T0")
 
 
 class StreamModel(_Strict):
     """Free stream: Mach number, direction from +x (anticlockwise), static pressure and temperature."""
 
-    mach: float = Field(2.0, strict=True, allow_inf_nan=False, ge=0.0, le=30.0)
-    angle_deg: float = Field(0.0, strict=True, allow_inf_nan=False, ge=-180.0, le=180.0)
-    p_pa: Pressure = 101325.0
-    t_k: Temperature = 288.15
+    mach: float = Field(2.0, strict=True, allow_inf_nan=False, ge=0.0, le=MACH_MAX, title="stream Mach number")
+    angle_deg: float = Field(0.0, strict=True, allow_inf_nan=False, ge=-180.0, le=180.0, title="stream direction")
+    p_pa: Pressure = Field(101325.0, title="stream pressure")
+    t_k: Temperature = Field(288.15, title="stream temperature")
 
 
 class AmbientModel(_Strict):
     """Still surroundings that absorb outflow."""
 
-    p_pa: Pressure = 101325.0
-    t_k: Temperature = 288.15
+    p_pa: Pressure = Field(101325.0, title="ambient pressure")
+    t_k: Temperature = Field(288.15, title="ambient temperature")
 
 
 class ConditionsModel(_Strict):
@@ -215,10 +165,11 @@ class InitialModel(_Strict):
     reservoir_in_circle: fluid cells within radius_m of centre_m at the reservoir state (a burst charge).
     """
 
-    kind: Literal["ambient", "stream", "reservoir_upstream_of_x", "reservoir_in_circle"] = "ambient"
-    x_m: Optional[Metres] = None
-    centre_m: Optional[Point] = None
-    radius_m: Optional[PositiveMetres] = None
+    kind: Literal["ambient", "stream", "reservoir_upstream_of_x", "reservoir_in_circle"] = Field(
+        "ambient", title="initial state")
+    x_m: Optional[Metres] = Field(None, title="diaphragm position x")
+    centre_m: Optional[Point] = Field(None, title="charge centre")
+    radius_m: Optional[PositiveMetres] = Field(None, title="charge radius")
 
     @model_validator(mode="after")
     def _needs(self) -> "InitialModel":
@@ -226,156 +177,144 @@ class InitialModel(_Strict):
         for name in ("x_m", "centre_m", "radius_m"):
             value = getattr(self, name)
             if name in need and value is None:
-                raise ValueError(f"initial.{name} is missing: initial.kind {self.kind!r} needs " + ", ".join(need))
+                raise Invalid(name, None, "required", f"a value with kind {self.kind}",
+                              f"The initial state {self.kind} needs {', '.join(need)}; {name} is missing.")
             if name not in need and value is not None:
-                raise ValueError(f"initial.{name} = {value!r} is not allowed with initial.kind {self.kind!r}; "
-                                 "it needs only " + (", ".join(need) or "no other field"))
+                raise Invalid(name, value, "not_used", "no value with kind " + self.kind,
+                              f"The initial state {self.kind} takes only {', '.join(need) or 'no other field'}; "
+                              f"leave out {name}.")
         return self
 
 
 class StationModel(_Strict):
     """Measuring segment across the flow; role marks a nozzle's throat or exit for the nozzle report."""
 
-    name: Name
-    start_m: Point
-    end_m: Point
-    role: Optional[Literal["throat", "exit"]] = None
+    name: Name = Field(title="station name")
+    start_m: Point = Field(title="station start")
+    end_m: Point = Field(title="station end")
+    role: Optional[literal(ROLES)] = Field(None, title="station role")  # type: ignore[valid-type]
 
 
 class ProbeModel(_Strict):
     """Measuring point."""
 
-    name: Name
-    x_m: Metres
-    y_m: Metres
+    name: Name = Field(title="probe name")
+    x_m: Metres = Field(title="probe x")
+    y_m: Metres = Field(title="probe y")
 
 
 class NumericsModel(_Strict):
-    order: Literal[1, 2] = 2
-    limiter: Literal["minmod", "van_leer", "mc"] = "van_leer"
-    flux: Literal["hllc", "hll", "rusanov"] = "hllc"
-    cfl: float = Field(0.4, strict=True, allow_inf_nan=False, ge=CFL_MIN, le=CFL_MAX)
-    integrator: Literal["ssp_rk2", "ssp_rk3"] = "ssp_rk2"
+    order: literal(ORDERS) = Field(2, title="order")  # type: ignore[valid-type]
+    limiter: literal(LIMITERS) = Field("van_leer", title="limiter")  # type: ignore[valid-type]
+    flux: literal(FLUXES) = Field("hllc", title="flux")  # type: ignore[valid-type]
+    cfl: float = Field(0.4, strict=True, allow_inf_nan=False, ge=CFL_MIN, le=CFL_MAX, title="CFL number")
+    integrator: literal(INTEGRATOR_CHOICES) = Field("ssp_rk2", title="time integrator")  # type: ignore[valid-type]
+
+
+def _inside(dom: DomainModel, x: float, y: float) -> bool:
+    return dom.x_min_m <= x <= dom.x_max_m and dom.y_min_m <= y <= dom.y_max_m
+
+
+def _outside(field: str, value: Any, what: str, dom: DomainModel) -> Invalid:
+    box = (f"x {show_value(dom.x_min_m)} to {show_value(dom.x_max_m, 'm')}, "
+           f"y {show_value(dom.y_min_m)} to {show_value(dom.y_max_m, 'm')}")
+    return Invalid(field, value, "inside_domain", f"a point inside the domain: {box}",
+                   f"The {what} must lie inside the domain ({box}); you gave {show_value(value)}.")
 
 
 class Scenario(_Strict):
     """One saved setup: gas, domain, edges, sketch, conditions, initial state, stations, probes, numerics."""
 
-    name: Name
-    description: str = Field("", max_length=4000)
+    name: Name = Field(title="scenario name")
+    description: str = Field("", max_length=4000, title="description")
     gas: GasModel
-    mode: Literal["planar", "axisymmetric"] = "planar"
+    mode: literal(MODES) = Field("planar", title="geometry mode")  # type: ignore[valid-type]
     domain: DomainModel
     edges: EdgesModel = Field(default_factory=EdgesModel)
     sketch: SketchModel = Field(default_factory=SketchModel)
     conditions: ConditionsModel = Field(default_factory=ConditionsModel)
     initial: InitialModel = Field(default_factory=InitialModel)
-    stations: list[StationModel] = Field(default_factory=list, max_length=64)
-    probes: list[ProbeModel] = Field(default_factory=list, max_length=64)
+    stations: list[StationModel] = Field(default_factory=list, max_length=64, title="stations")
+    probes: list[ProbeModel] = Field(default_factory=list, max_length=64, title="probes")
     numerics: NumericsModel = Field(default_factory=NumericsModel)
-    end_time_s: float = Field(strict=True, allow_inf_nan=False, gt=0.0, le=END_TIME_MAX_S)
-
-    @field_validator("sketch")
-    @classmethod
-    def _shapes_build(cls, sketch: SketchModel) -> SketchModel:
-        for n, shape in enumerate(sketch.shapes):
-            shape_from_dict(shape.model_dump(mode="json"), where=f"sketch.shapes[{n}]")
-        return sketch
+    end_time_s: float = Field(strict=True, allow_inf_nan=False, gt=0.0, le=END_TIME_MAX_S, title="end time")
 
     @model_validator(mode="after")
     def _consistent(self) -> "Scenario":
+        e = self.edges
+        for side in ("left", "right", "top"):
+            if getattr(e, side) == "axis":
+                raise Invalid(f"edges.{side}", "axis", "axis_bottom_only", "wall, open, ambient or stream",
+                              f"Only the bottom edge can be the axis; the {side} edge cannot.")
+        if self.mode == "axisymmetric" and e.bottom != "axis":
+            raise Invalid("edges.bottom", e.bottom, "axisymmetric_needs_axis", "axis (in axisymmetric mode)",
+                          f"An axisymmetric domain needs the axis on its bottom edge; you gave {e.bottom}.")
+        if self.mode == "axisymmetric" and self.domain.y_min_m != 0.0:
+            raise Invalid("domain.y_min_m", self.domain.y_min_m, "axis_at_zero", "0 m (in axisymmetric mode)",
+                          "An axisymmetric domain starts at radius 0 m; "
+                          f"you gave {show_value(self.domain.y_min_m, 'm')}.")
+        if self.mode != "axisymmetric" and e.bottom == "axis":
+            raise Invalid("edges.bottom", "axis", "axis_needs_axisymmetric", "wall, open, ambient or stream (planar)",
+                          "The axis needs the axisymmetric mode; use a wall for a planar symmetry line.")
         try:
             to_setup(self)
-        except ValueError as err:
-            text = str(err)
-            # Setup and Edges name edges.<side>, mode and domain.<field> already.
-            raise ValueError(text if text.split(" ")[0].split(".")[0] in ("edges", "mode", "domain")
-                             else f"scenario: {text}") from None
+        except ValueError as err:  # a rule of the solver's own that the checks above do not repeat
+            raise Invalid("", None, "solver", "a setup the solver accepts", f"{err}.") from None
         dom = self.domain
         for kind, items in (("stations", self.stations), ("probes", self.probes)):
             names = [it.name for it in items]
             for n, name in enumerate(names):
                 if names.index(name) != n:
-                    raise ValueError(f"{kind}[{n}].name = {name!r} is not allowed: names must be unique")
+                    raise Invalid(f"{kind}[{n}].name", name, "unique", "a name no other one uses",
+                                  f"Two {kind} are called {name}; names must be unique.")
         for n, st in enumerate(self.stations):
             if st.start_m == st.end_m:
-                raise ValueError(f"stations[{n}].end_m = {list(st.end_m)!r} is not allowed: must differ from start_m")
+                raise Invalid(f"stations[{n}].end_m", list(st.end_m), "differs_from_start",
+                              "a point other than the start",
+                              f"Station {st.name} ends where it starts; a station needs two different points.")
             for label, (x, y) in (("start_m", st.start_m), ("end_m", st.end_m)):
-                if not (dom.x_min_m <= x <= dom.x_max_m and dom.y_min_m <= y <= dom.y_max_m):
-                    raise ValueError(f"stations[{n}].{label} = {[x, y]!r} is not allowed: must lie inside the "
-                                     f"domain x {dom.x_min_m:g} to {dom.x_max_m:g} m, y {dom.y_min_m:g} to "
-                                     f"{dom.y_max_m:g} m")
-        for role in ("throat", "exit"):
+                if not _inside(dom, x, y):
+                    raise _outside(f"stations[{n}].{label}", [x, y], f"station {st.name}", dom)
+        for role in ROLES:
             marked = [n for n, st in enumerate(self.stations) if st.role == role]
             if len(marked) > 1:
-                raise ValueError(f"stations[{marked[1]}].role = {role!r} is not allowed: only one station "
-                                 f"may be the {role}")
+                raise Invalid(f"stations[{marked[1]}].role", role, "one_per_role", f"only one station as the {role}",
+                              f"Only one station may be the {role}.")
         for n, pr in enumerate(self.probes):
-            if not (dom.x_min_m <= pr.x_m <= dom.x_max_m and dom.y_min_m <= pr.y_m <= dom.y_max_m):
-                raise ValueError(f"probes[{n}] = ({pr.x_m!r}, {pr.y_m!r}) is not allowed: must lie inside the "
-                                 f"domain x {dom.x_min_m:g} to {dom.x_max_m:g} m, y {dom.y_min_m:g} to "
-                                 f"{dom.y_max_m:g} m")
+            if not _inside(dom, pr.x_m, pr.y_m):
+                raise _outside(f"probes[{n}]", [pr.x_m, pr.y_m], f"probe {pr.name}", dom)
         return self
 
 
 # ----------------------------------------------------------------------------- parsing
-
-def _path(loc: tuple) -> str:
-    """JSON path from a pydantic error location, without the union tag pydantic inserts for shapes."""
-    parts: list[str] = []
-    prev: Any = None
-    for item in loc:
-        if isinstance(item, int):
-            parts.append(f"[{item}]")
-        elif isinstance(prev, int) and item in _SHAPE_KINDS:
-            pass  # discriminated-union tag
-        else:
-            parts.append(("." if parts else "") + str(item))
-        prev = item
-    return "".join(parts)
-
 
 def _show(value: Any, limit: int = 80) -> str:
     text = repr(value)
     return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
-def _message(err: ValidationError) -> str:
-    lines = []
-    for e in err.errors(include_url=False):
-        path = _path(tuple(e["loc"]))
-        msg = e["msg"]
-        if msg.startswith("Value error, "):
-            msg = msg[len("Value error, "):]
-            # our own validators already name the path; model-level ones come with an empty loc
-            lines.append(msg if (not path or msg.startswith(path) or "." in msg.split(" ")[0]) else f"{path}: {msg}")
-            continue
-        if e["type"] == "missing":
-            lines.append(f"{path} is missing: it is required")
-        elif e["type"] == "extra_forbidden":
-            lines.append(f"{path} = {_show(e['input'])} is not allowed: unknown field")
-        else:
-            lines.append(f"{path} = {_show(e['input'])} is not allowed: {msg[0].lower() + msg[1:]}")
-    return "; ".join(lines)
-
-
 def parse_scenario(data: dict | str) -> Scenario:
-    """A validated Scenario from a dict or a JSON string; raises ScenarioError naming path, value and rule."""
+    """A validated Scenario from a dict or a JSON string; raises ScenarioError with structured problems."""
     if isinstance(data, (str, bytes)):
         try:
             data = json.loads(data)
         except json.JSONDecodeError as err:
-            raise ScenarioError(f"scenario is not valid JSON: {err}") from None
+            raise ScenarioError.one("", None, "json", "a JSON object",
+                                    f"The scenario is not valid JSON: {err}.") from None
         except RecursionError:
-            raise ScenarioError("scenario is nested too deeply to read") from None
+            raise ScenarioError.one("", None, "depth", "JSON nested at most a few hundred levels deep",
+                                    "The scenario is nested too deeply to read.") from None
         except ValueError:  # an integer of more than 4,300 digits
-            raise ScenarioError("scenario holds a number with too many digits to read (at most 4,300)") from None
+            raise ScenarioError.one("", None, "digits", "numbers of at most 4,300 digits",
+                                    "The scenario holds a number with too many digits to read (at most 4,300).") \
+                from None
     if not isinstance(data, dict):
-        raise ScenarioError(f"scenario = {_show(data)} is not allowed: must be a JSON object")
+        raise ScenarioError.one("", _show(data), "object", "a JSON object",
+                                f"A scenario must be a JSON object; you gave {_show(data)}.")
     try:
         return Scenario.model_validate(data)
     except ValidationError as err:
-        raise ScenarioError(_message(err)) from None
+        raise ScenarioError(problems(Scenario, err, tags=SHAPE_KINDS)) from None
 
 
 def load_scenario(path: str | Path) -> Scenario:
@@ -384,13 +323,15 @@ def load_scenario(path: str | Path) -> Scenario:
     try:
         text = p.read_text(encoding="utf-8")
     except UnicodeDecodeError as err:
-        raise ScenarioError(f"scenario file {str(p)!r} is not UTF-8 text (byte {err.start} cannot be read)") from None
+        raise ScenarioError.one(str(p), None, "utf8", "UTF-8 text",
+                                f"The scenario file {p} is not UTF-8 text (byte {err.start} cannot be read).") from None
     except OSError as err:
-        raise ScenarioError(f"scenario file {str(p)!r} cannot be read: {err.strerror}") from None
+        raise ScenarioError.one(str(p), None, "readable", "a readable file",
+                                f"The scenario file {p} cannot be read: {err.strerror}.") from None
     try:
         return parse_scenario(text)
     except ScenarioError as err:
-        raise ScenarioError(f"{p.name}: {err}") from None
+        raise ScenarioError([pr.at(f"{p.name}: {pr.field}" if pr.field else p.name) for pr in err.problems]) from None
 
 
 def scenario_to_dict(s: Scenario) -> dict:
@@ -410,8 +351,7 @@ def scenario_to_json(s: Scenario) -> str:
 # ----------------------------------------------------------------------------- building a simulation
 
 def to_sketch(s: Scenario) -> Sketch:
-    return Sketch(tuple(shape_from_dict(sh.model_dump(mode="json"), where=f"sketch.shapes[{n}]")
-                        for n, sh in enumerate(s.sketch.shapes)), s.sketch.mirror)
+    return s.sketch.to_sketch()
 
 
 def to_domain(s: Scenario, nx: int | None = None) -> Domain:
@@ -504,12 +444,26 @@ def builtin_names() -> list[str]:
 def builtin_path(name: str) -> Path:
     names = builtin_names()
     if name not in names:
-        raise ScenarioError(f"scenario name = {name!r} is not allowed: built-ins are " + ", ".join(names))
+        raise ScenarioError.one("name", name, "one_of", "one of: " + ", ".join(names),
+                                f"There is no built-in scenario called {name}; the built-ins are {', '.join(names)}.")
     return SCENARIO_DIR / f"{name}.json"
 
 
 def load_builtin(name: str) -> Scenario:
     return load_scenario(builtin_path(name))
+
+
+def vocabulary() -> dict:
+    """Every choice and numeric limit of a scenario, for the page to build its controls from.
+
+    choices: {what: [{name, label}]} in the order to offer them; limits: {JSON path: {label, unit, min,
+    max, min_exclusive, max_exclusive, integer}} read from the models' own constraints.
+    """
+    tables = {"order": ORDERS, "limiter": LIMITERS, "flux": FLUXES, "integrator": INTEGRATOR_CHOICES,
+              "edge": EDGES, "paint": PAINTS, "mirror": MIRRORS, "preset": PRESET_CHOICES, "mode": MODES,
+              "role": ROLES}
+    return {"choices": {what: [c.to_dict() for c in t.values()] for what, t in tables.items()},
+            "limits": numeric_limits(Scenario)}
 
 
 def schema() -> dict:

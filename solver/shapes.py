@@ -1,16 +1,21 @@
 """The shapes a user draws, in metres, and their plain-dict (JSON) form.
 
 A sketch is kept in metres, never in cells, so changing the resolution re-rasterises the same
-drawing. Every shape is a frozen dataclass that validates and normalises its own fields (lists
-become tuples of floats), so a constructed shape is always safe to rasterise and to hash.
+drawing. Every shape is a frozen dataclass that normalises its fields (lists become tuples of
+floats) so it can be hashed. A shape's dict form is checked once, by the pydantic models below
+(which are also the scenario file's shape models and its JSON Schema); code that builds shapes
+directly is trusted to pass sane numbers.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
-from typing import Any, Union
+from typing import Annotated, Any, Literal, Union
 
-from shockslate.solver.kinds import PAINTABLE
+from pydantic import BaseModel, ConfigDict, Field, ValidationError
+
+from shockslate.solver.choices import Choice, literal, table
+from shockslate.solver.kinds import PAINTS
+from shockslate.solver.validation import Refused, join, path_of, problem_from_record, problems
 
 Point = tuple[float, float]
 
@@ -19,57 +24,18 @@ Point = tuple[float, float]
 MAX_COORD_M = 1.0e6
 
 #: Mirror choices of a sketch: none, about the line y = 0 (the axis), or about the domain's mid-height.
-MIRRORS = ("none", "axis", "midline")
+MIRRORS: dict[str, Choice] = table(Choice("none", "none"), Choice("axis", "about the axis (y = 0)"),
+                                   Choice("midline", "about the mid-height"))
 
 
-# ----------------------------------------------------------------------------- validation helpers
+# ----------------------------------------------------------------------------- helpers
 
-def _show(value: Any, limit: int = 80) -> str:
-    """repr() of a value, shortened so that an error about a 5000-point stroke stays readable."""
-    text = repr(value)
-    return text if len(text) <= limit else text[: limit - 3] + "..."
+def _float_points(value: Any) -> tuple[Point, ...]:
+    return tuple((float(p[0]), float(p[1])) for p in value)
 
 
-def _bad(field: str, value: Any, allowed: str) -> ValueError:
-    return ValueError(f"{field} = {_show(value)} is not allowed: {allowed}")
-
-
-def _number(field: str, value: Any) -> float:
-    """A finite real number within +-MAX_COORD_M (bools and strings are refused)."""
-    allowed = f"must be a finite number in metres between -{MAX_COORD_M:g} and {MAX_COORD_M:g}"
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise _bad(field, value, allowed)
-    number = float(value)
-    if not math.isfinite(number) or abs(number) > MAX_COORD_M:
-        raise _bad(field, value, allowed)
-    return number
-
-
-def _positive(field: str, value: Any) -> float:
-    number = _number(field, value)
-    if not number > 0.0:
-        raise _bad(field, value, f"must be a finite number greater than 0 (metres, at most {MAX_COORD_M:g})")
-    return number
-
-
-def _point(field: str, value: Any) -> Point:
-    if isinstance(value, (str, bytes)) or not hasattr(value, "__len__") or len(value) != 2:
-        raise _bad(field, value, "must be an [x, y] pair of finite numbers in metres")
-    return (_number(f"{field}[0]", value[0]), _number(f"{field}[1]", value[1]))
-
-
-def _points(field: str, value: Any, at_least: int) -> tuple[Point, ...]:
-    if isinstance(value, (str, bytes, dict)) or not hasattr(value, "__len__"):
-        raise _bad(field, value, f"must be a list of at least {at_least} [x, y] points in metres")
-    if len(value) < at_least:
-        raise _bad(field, value, f"needs at least {at_least} [x, y] points, got {len(value)}")
-    return tuple(_point(f"{field}[{n}]", p) for n, p in enumerate(value))
-
-
-def _paints(field: str, value: Any) -> str:
-    if not isinstance(value, str) or value not in PAINTABLE:
-        raise _bad(field, value, "must be one of " + ", ".join(PAINTABLE))
-    return value
+def _float_point(value: Any) -> Point:
+    return (float(value[0]), float(value[1]))
 
 
 def _set(obj: object, name: str, value: Any) -> None:
@@ -98,9 +64,8 @@ class Stroke:
     paints: str
 
     def __post_init__(self) -> None:
-        _set(self, "points_m", _points("stroke.points_m", self.points_m, 2))
-        _set(self, "width_m", _positive("stroke.width_m", self.width_m))
-        _set(self, "paints", _paints("stroke.paints", self.paints))
+        _set(self, "points_m", _float_points(self.points_m))
+        _set(self, "width_m", float(self.width_m))
 
     @property
     def kind(self) -> str:
@@ -124,10 +89,9 @@ class Segment:
     paints: str
 
     def __post_init__(self) -> None:
-        _set(self, "start_m", _point("segment.start_m", self.start_m))
-        _set(self, "end_m", _point("segment.end_m", self.end_m))
-        _set(self, "width_m", _positive("segment.width_m", self.width_m))
-        _set(self, "paints", _paints("segment.paints", self.paints))
+        _set(self, "start_m", _float_point(self.start_m))
+        _set(self, "end_m", _float_point(self.end_m))
+        _set(self, "width_m", float(self.width_m))
 
     @property
     def kind(self) -> str:
@@ -150,9 +114,8 @@ class Rectangle:
     paints: str
 
     def __post_init__(self) -> None:
-        _set(self, "corner_a_m", _point("rectangle.corner_a_m", self.corner_a_m))
-        _set(self, "corner_b_m", _point("rectangle.corner_b_m", self.corner_b_m))
-        _set(self, "paints", _paints("rectangle.paints", self.paints))
+        _set(self, "corner_a_m", _float_point(self.corner_a_m))
+        _set(self, "corner_b_m", _float_point(self.corner_b_m))
 
     @property
     def kind(self) -> str:
@@ -173,8 +136,7 @@ class Polygon:
     paints: str
 
     def __post_init__(self) -> None:
-        _set(self, "points_m", _points("polygon.points_m", self.points_m, 3))
-        _set(self, "paints", _paints("polygon.paints", self.paints))
+        _set(self, "points_m", _float_points(self.points_m))
 
     @property
     def kind(self) -> str:
@@ -196,9 +158,8 @@ class Circle:
     paints: str
 
     def __post_init__(self) -> None:
-        _set(self, "centre_m", _point("circle.centre_m", self.centre_m))
-        _set(self, "radius_m", _positive("circle.radius_m", self.radius_m))
-        _set(self, "paints", _paints("circle.paints", self.paints))
+        _set(self, "centre_m", _float_point(self.centre_m))
+        _set(self, "radius_m", float(self.radius_m))
 
     @property
     def kind(self) -> str:
@@ -234,27 +195,117 @@ class Sketch:
     mirror: str = "none"
 
     def __post_init__(self) -> None:
-        if isinstance(self.shapes, (str, bytes, dict)) or not hasattr(self.shapes, "__iter__"):
-            raise _bad("sketch.shapes", self.shapes, "must be a list of shapes")
-        shapes = tuple(self.shapes)
-        for n, shape in enumerate(shapes):
-            if not isinstance(shape, tuple(SHAPE_TYPES.values())):
-                raise _bad(f"sketch.shapes[{n}]", shape, "must be one of the shapes " + ", ".join(SHAPE_TYPES))
-        _set(self, "shapes", shapes)
-        if not isinstance(self.mirror, str) or self.mirror not in MIRRORS:
-            raise _bad("sketch.mirror", self.mirror, "must be one of " + ", ".join(MIRRORS))
+        _set(self, "shapes", tuple(self.shapes))
 
 
-# ----------------------------------------------------------------------------- plain dicts
+# ----------------------------------------------------------------------------- the dict form and its one validation
 
-#: Field names of each shape's dict, besides "kind"; points are [x, y] lists.
-_DICT_FIELDS: dict[str, tuple[str, ...]] = {
-    "stroke": ("points_m", "width_m", "paints"),
-    "segment": ("start_m", "end_m", "width_m", "paints"),
-    "rectangle": ("corner_a_m", "corner_b_m", "paints"),
-    "polygon": ("points_m", "paints"),
-    "circle": ("centre_m", "radius_m", "paints"),
-}
+Metres = Annotated[float, Field(strict=True, allow_inf_nan=False, ge=-MAX_COORD_M, le=MAX_COORD_M)]
+PositiveMetres = Annotated[float, Field(strict=True, allow_inf_nan=False, gt=0.0, le=MAX_COORD_M)]
+PointModel = tuple[Metres, Metres]
+Paint = literal(PAINTS)
+Mirror = literal(MIRRORS)
+MAX_POINTS = 20000
+MAX_SHAPES = 2000
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+class StrokeModel(_Strict):
+    """Freehand path with a width (metres)."""
+
+    kind: Literal["stroke"]
+    points_m: list[PointModel] = Field(min_length=2, max_length=MAX_POINTS, title="stroke points")
+    width_m: PositiveMetres = Field(title="stroke width")
+    paints: Paint = Field(title="what the stroke paints")
+
+    def to_shape(self) -> Stroke:
+        return Stroke(tuple(self.points_m), self.width_m, self.paints)
+
+
+class SegmentModel(_Strict):
+    """Straight line with a width (metres), round ends."""
+
+    kind: Literal["segment"]
+    start_m: PointModel = Field(title="segment start")
+    end_m: PointModel = Field(title="segment end")
+    width_m: PositiveMetres = Field(title="segment width")
+    paints: Paint = Field(title="what the segment paints")
+
+    def to_shape(self) -> Segment:
+        return Segment(self.start_m, self.end_m, self.width_m, self.paints)
+
+
+class RectangleModel(_Strict):
+    """Axis-aligned rectangle from two opposite corners (metres)."""
+
+    kind: Literal["rectangle"]
+    corner_a_m: PointModel = Field(title="rectangle corner")
+    corner_b_m: PointModel = Field(title="rectangle opposite corner")
+    paints: Paint = Field(title="what the rectangle paints")
+
+    def to_shape(self) -> Rectangle:
+        return Rectangle(self.corner_a_m, self.corner_b_m, self.paints)
+
+
+class PolygonModel(_Strict):
+    """Closed polygon, filled by the even-odd rule (metres)."""
+
+    kind: Literal["polygon"]
+    points_m: list[PointModel] = Field(min_length=3, max_length=MAX_POINTS, title="polygon corners")
+    paints: Paint = Field(title="what the polygon paints")
+
+    def to_shape(self) -> Polygon:
+        return Polygon(tuple(self.points_m), self.paints)
+
+
+class CircleModel(_Strict):
+    """Filled disc (metres)."""
+
+    kind: Literal["circle"]
+    centre_m: PointModel = Field(title="circle centre")
+    radius_m: PositiveMetres = Field(title="circle radius")
+    paints: Paint = Field(title="what the circle paints")
+
+    def to_shape(self) -> Circle:
+        return Circle(self.centre_m, self.radius_m, self.paints)
+
+
+ShapeModel = Annotated[Union[StrokeModel, SegmentModel, RectangleModel, PolygonModel, CircleModel],
+                       Field(discriminator="kind")]
+
+
+class SketchModel(_Strict):
+    """What is drawn: shapes in order, later ones painting over earlier ones; optional mirror."""
+
+    mirror: Mirror = Field("none", title="mirror")
+    shapes: list[ShapeModel] = Field(default_factory=list, max_length=MAX_SHAPES, title="shapes")
+
+    def to_sketch(self) -> Sketch:
+        return Sketch(tuple(s.to_shape() for s in self.shapes), self.mirror)
+
+
+class _OneShape(_Strict):
+    shape: ShapeModel
+
+
+def _refused(model: type[BaseModel], err: ValidationError, prefix: str, drop: int) -> Refused:
+    """Problems of a wrapper model, the wrapper's own part of each path dropped."""
+    out = []
+    for record in err.errors(include_url=False):
+        loc = tuple(record["loc"])
+        problem = problem_from_record(model, record, tags=SHAPE_KINDS)
+        path = path_of(loc[drop:], SHAPE_KINDS) if drop < len(loc) else ""
+        if record["type"] in ("union_tag_invalid", "union_tag_not_found"):
+            path = join(path, "kind")  # the problem's own field ends in .kind; re-aimed, it must too
+        out.append(problem.at(join(prefix, path)))
+    return Refused(out)
+
+
+#: Shape kinds, as in the dicts' "kind" field.
+SHAPE_KINDS = tuple(SHAPE_TYPES)
 
 
 def _plain(value: Any) -> Any:
@@ -266,66 +317,40 @@ def _plain(value: Any) -> Any:
 
 def shape_to_dict(shape: Shape) -> dict[str, Any]:
     """A JSON-able dict: {"kind": ..., <fields>...}, points as [x, y] lists."""
-    if not isinstance(shape, tuple(SHAPE_TYPES.values())):
-        raise _bad("shape", shape, "must be one of the shapes " + ", ".join(SHAPE_TYPES))
     out: dict[str, Any] = {"kind": shape.kind}
-    for name in _DICT_FIELDS[shape.kind]:
+    for name in (f for f in SHAPE_MODELS[shape.kind].model_fields if f != "kind"):
         out[name] = _plain(getattr(shape, name))
     return out
 
 
 def shape_from_dict(d: Any, where: str | None = None) -> Shape:
-    """Build a shape from its dict; errors name the field, the value and what is allowed.
+    """Build a shape from its dict, validated by the shape models (the one check of a shape).
 
-    Fields are named "<kind>.<field>", or "<where>.<field>" when `where` locates the dict
-    (e.g. "sketch.shapes[3]").
+    A refusal is a `Refused` (a ValueError) whose problems name the field as "<kind>.<field>", or
+    "<where>.<field>" when `where` locates the dict (e.g. "sketch.shapes[3]"), the value, the rule
+    and a plain sentence.
     """
-    if not isinstance(d, dict):
-        raise _bad(where or "shape", d, "must be an object with a 'kind' field")
-    if "kind" not in d:
-        raise ValueError(f"{where or 'shape'}.kind is missing: must be one of " + ", ".join(SHAPE_TYPES))
-    kind = d["kind"]
-    if not isinstance(kind, str) or kind not in SHAPE_TYPES:
-        raise _bad(f"{where or 'shape'}.kind", kind, "must be one of " + ", ".join(SHAPE_TYPES))
-    prefix = where or kind
-    fields = _DICT_FIELDS[kind]
-    for name in d:
-        if name != "kind" and name not in fields:
-            raise ValueError(
-                f"{prefix}.{name} = {_show(d[name])} is not allowed: a {kind} has only the fields "
-                + ", ".join(("kind",) + fields)
-            )
-    for name in fields:
-        if name not in d:
-            raise ValueError(f"{prefix}.{name} is missing: a {kind} needs the fields " + ", ".join(fields))
     try:
-        return SHAPE_TYPES[kind](**{name: d[name] for name in fields})
-    except ValueError as err:
-        # The constructor names fields as "<kind>.<field>"; re-aim them at the dict's location.
-        message = str(err)
-        if where is not None and message.startswith(kind + "."):
-            message = where + message[len(kind):]
-        raise ValueError(message) from None
+        return _OneShape.model_validate({"shape": d}).shape.to_shape()
+    except ValidationError as err:
+        if where is None:  # keep the kind as the first part of the path: "circle.radius_m"
+            raise _refused(_OneShape, err, "shape" if not isinstance(d, dict) or d.get("kind") not in SHAPE_TYPES
+                           else "", 1) from None
+        raise _refused(_OneShape, err, where, 2) from None
 
 
 def sketch_to_dict(sketch: Sketch) -> dict[str, Any]:
     """{"shapes": [shape dicts...], "mirror": "none" | "axis" | "midline"}."""
-    if not isinstance(sketch, Sketch):
-        raise _bad("sketch", sketch, "must be a Sketch")
     return {"shapes": [shape_to_dict(s) for s in sketch.shapes], "mirror": sketch.mirror}
 
 
 def sketch_from_dict(d: Any) -> Sketch:
-    """Build a sketch from its dict; "mirror" may be left out (means "none")."""
-    if not isinstance(d, dict):
-        raise _bad("sketch", d, "must be an object with the fields shapes, mirror")
-    for name in d:
-        if name not in ("shapes", "mirror"):
-            raise ValueError(f"sketch.{name} = {_show(d[name])} is not allowed: a sketch has only the fields shapes, mirror")
-    if "shapes" not in d:
-        raise ValueError("sketch.shapes is missing: a sketch needs a list of shapes (may be empty)")
-    shapes = d["shapes"]
-    if not isinstance(shapes, list):
-        raise _bad("sketch.shapes", shapes, "must be a list of shapes")
-    built = tuple(shape_from_dict(s, where=f"sketch.shapes[{n}]") for n, s in enumerate(shapes))
-    return Sketch(built, d.get("mirror", "none"))
+    """Build a sketch from its dict ("mirror" may be left out: "none"); refusals as in shape_from_dict."""
+    try:
+        return SketchModel.model_validate(d).to_sketch()
+    except ValidationError as err:
+        raise Refused([p.at(join("sketch", p.field)) for p in problems(SketchModel, err, tags=SHAPE_KINDS)]) from None
+
+
+SHAPE_MODELS: dict[str, type[_Strict]] = {"stroke": StrokeModel, "segment": SegmentModel, "rectangle": RectangleModel,
+                                           "polygon": PolygonModel, "circle": CircleModel}

@@ -188,7 +188,7 @@ def test_cli_check_scenarios_and_run(tmp_path, capsys):
     doc["conditions"]["stream"]["mach"] = -1.0
     bad.write_text(json.dumps(doc))
     assert cli_main(["check", str(bad)]) == batch_cli.EXIT_BAD_INPUT
-    assert "conditions.stream.mach = -1.0" in capsys.readouterr().err
+    assert "conditions.stream.mach: Stream Mach number must be at least 0; you gave -1." in capsys.readouterr().err
     assert cli_main(["scenarios"]) == batch_cli.EXIT_OK
     listing = capsys.readouterr().out
     assert "nozzle_sea_level" in listing and "forward_step_mach3" in listing

@@ -390,47 +390,86 @@ def test_bad_value_shows_an_error_naming_field_and_value(page, tmp_path):
     p0.evaluate("el => el.dispatchEvent(new Event('change'))")
     page.wait_for_selector(".message[data-kind='error']", timeout=WAIT_MS)
     text = page.inner_text("#messages")
-    assert "p0_pa" in text and "-5000" in text, text
+    # the server's own sentence, with the field it names (errors stay structured up to the page)
+    assert "Reservoir pressure p0 must be above 0 Pa; you gave -5000 Pa." in text and "reservoir.p0_pa" in text, text
+    assert page.get_attribute(".message[data-kind='error']", "data-rule") == "above"
+    assert "invalid" in (page.get_attribute("[data-cond='reservoir.p0_pa']", "class") or "")
     assert page.evaluate("window.shockslate.scenario.conditions.reservoir.p0_pa") == 3.0e5
 
 
-def test_colour_maps_are_even_steps_in_oklab(page):
-    """Colour maps step evenly in OKLab (Ottosson 2020, the OKLab definition): the OKLab path length
-    over each run of 16 neighbouring levels is the same within 15% along the whole map (single
-    steps are about 0.0035 and 8-bit rounding moves each entry by up to about 0.002, so runs are
-    compared, not single steps). Sequential maps rise in lightness from end to end; the diverging
-    map is lightest in the middle. Common practice for perceptual maps, thresholds our own."""
-    result = page.evaluate(
-        """async () => {
-            const m = await import('./colourmaps.js');
-            const out = {};
-            for (const name of Object.keys(m.MAP_ANCHORS)) {
-                const labs = m.buildTable(m.MAP_ANCHORS[name]).map(c => m.srgbToOklab(c.map(v => v / 255)));
-                const d = (p, q) => Math.hypot(p[0] - q[0], p[1] - q[1], p[2] - q[2]);
-                const runs = [];
-                for (let k = 16; k < labs.length; k += 16) {
-                    let s = 0;
-                    for (let j = k - 15; j <= k; j++) s += d(labs[j], labs[j - 1]);
-                    runs.push(s);
-                }
-                const mean = runs.reduce((a, b) => a + b) / runs.length;
-                const L = labs.map(c => c[0]);
-                const smooth = (k) => (L[k - 2] + L[k - 1] + L[k] + L[k + 1] + L[k + 2]) / 5;
-                let rising = true;
-                for (let k = 10; k < L.length - 2; k += 8) if (smooth(k) < smooth(k - 8)) rising = false;
-                const mid = L.indexOf(Math.max(...L));
-                out[name] = {spread: Math.max(...runs.map(r => Math.abs(r - mean))) / mean, rising,
-                             lightest_at: mid / (L.length - 1), diverging: m.DIVERGING.has(name)};
+def test_page_draws_with_the_colour_tables_of_the_python_side(page):
+    """The page paints a frame level with the entry the server's table holds (solver/colourmaps.py), and
+    report images use the same table (matplotlib ListedColormap), so a view looks the same in both.
+    Read back from the page's own frame image, one pixel of every level the frame holds."""
+    from shockslate.solver import colourmaps
+
+    got = page.evaluate(
+        """() => {
+            const app = window.shockslate, f = app.frame;
+            const ctx = app.frameCanvas.getContext('2d');
+            const data = ctx.getImageData(0, 0, f.width, f.height).data;
+            const out = [], seen = new Set();
+            for (let k = 0; k < f.levels.length && out.length < 80; k++) {  // one pixel of each level shown
+                if (seen.has(f.levels[k])) continue;
+                seen.add(f.levels[k]);
+                out.push({level: f.levels[k], rgb: [data[4 * k], data[4 * k + 1], data[4 * k + 2]]});
             }
-            return out;
+            return {map: app.mapName, view: app.views[f.viewIndex].name, pixels: out};
         }""")
-    assert set(result) >= {"kiln", "lagoon", "meadow", "slate", "seesaw"}
-    for name, r in result.items():
-        assert r["spread"] < 0.15, (name, r)
-        if r["diverging"]:
-            assert 0.4 < r["lightest_at"] < 0.6, (name, r)
-        else:
-            assert r["rising"], (name, r)
+    assert got["map"] == colourmaps.view_map(got["view"])
+    cmap = colourmaps.matplotlib_map(got["map"])
+    levels = set()
+    for px in got["pixels"]:
+        if px["level"] == 255:  # wall
+            assert tuple(px["rgb"]) == colourmaps.WALL_RGB
+            continue
+        levels.add(px["level"])
+        python = colourmaps.table(got["map"])[px["level"]]
+        assert tuple(px["rgb"]) == python, px
+        assert tuple(int(c) for c in cmap(px["level"] / 254, bytes=True)[:3]) == python  # the report's colour
+    assert len(levels) >= 2, got  # at least the two ends of an auto range
+
+
+def test_option_lists_and_limits_come_from_the_server(page):
+    """Every drop-down is filled from hello.vocabulary (none is written into index.html), and the
+    number inputs carry the limits the server validates with."""
+    from shockslate.server.protocol import vocabulary
+
+    html = (ROOT / "web" / "index.html").read_text(encoding="utf-8")
+    assert html.count("<option") == html.count('<select id="pressure-unit">') * 4  # only the display units
+    voc = vocabulary()
+    shown = page.evaluate(
+        """() => Object.fromEntries(Array.from(document.querySelectorAll('select[data-choices]')).map(
+            (s) => [s.dataset.num || s.dataset.edge || s.id, Array.from(s.options).map((o) => [o.value, o.text])]))""")
+    def names(key):
+        return [[str(c["name"]), c["label"]] for c in voc["choices"][key]]
+    assert shown["limiter"] == names("limiter") and shown["flux"] == names("flux")
+    assert shown["order"] == names("order") and shown["integrator"] == names("integrator")
+    assert shown["mirror"] == names("mirror") and shown["mode"] == names("mode")
+    assert all(shown[side] == names("edge") for side in ("left", "right", "bottom", "top"))
+    assert shown["gas-preset"] == names("preset") + [["", "custom"]]
+    assert shown["station-role"] == [["", "(nothing)"]] + names("role")
+    paints = page.evaluate(
+        "() => Array.from(document.querySelectorAll('#paints [data-paint]')).map(b => b.dataset.paint)")
+    assert paints == [c["name"] for c in voc["choices"]["paint"]]
+    gamma = page.locator("#gas-gamma")
+    assert float(gamma.get_attribute("min")) == voc["limits"]["gas.gamma"]["min"]
+    assert float(gamma.get_attribute("max")) == voc["limits"]["gas.gamma"]["max"]
+    assert float(page.locator("[data-num='cfl']").get_attribute("max")) == voc["limits"]["numerics.cfl"]["max"]
+    page.select_option("#pressure-unit", "kPa")
+    p0_max_kpa = float(page.locator("[data-cond='reservoir.p0_pa']").get_attribute("max"))
+    assert p0_max_kpa == pytest.approx(voc["limits"]["conditions.reservoir.p0_pa"]["max"] / 1000.0)
+    # a server that offered another label (or option) would be shown as it is: the page holds no list of its own
+    page.evaluate(
+        """() => {
+            const app = window.shockslate;
+            const hello = JSON.parse(JSON.stringify(app.hello));
+            hello.vocabulary.choices.limiter.push({name: "test_only", label: "offered by the server"});
+            app.receive(hello);
+        }""")
+    texts = page.evaluate("() => Array.from(document.querySelector(\"[data-num='limiter']\").options).map(o => o.text)")
+    assert texts[-1] == "offered by the server"
+    page.evaluate("() => window.shockslate.receive(window.shockslate.hello)")
 
 
 def test_fixed_colour_range_reaches_the_frames(page):

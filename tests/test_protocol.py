@@ -77,7 +77,8 @@ def ask(sock, message: dict, kind: str) -> dict:
 def refused(sock, message: dict) -> dict:
     err = ask(sock, message, "error")
     assert err["request"] == message.get("type", "unknown") or err["request"] == "unknown"
-    assert {"field", "value", "allowed", "message"} <= set(err)
+    assert {"field", "value", "rule", "allowed", "message"} <= set(err)
+    assert err["message"][:1].isupper() and err["message"].endswith((".", "?")), err["message"]
     return err
 
 
@@ -95,6 +96,65 @@ def test_hello_lists_views_scenario_and_state(ws):
     assert all({"name", "label", "unit"} <= set(v) for v in h["views"])
     assert h["scenario"]["name"] == "protocol duct" and h["state"] == "paused" and h["revision"] == 0
     assert h["client_id"]
+    maps = {m["name"] for m in h["colour_maps"]["maps"]}
+    assert all(v["map"] in maps for v in h["views"])  # each view starts on one of the maps sent (solver/colourmaps.py)
+
+
+def test_every_choice_the_hello_offers_is_accepted(ws):
+    """The page builds its option lists from hello.vocabulary; each option must pass the server's checks."""
+    choices = {what: [c["name"] for c in items] for what, items in ws.hello["vocabulary"]["choices"].items()}
+    assert set(choices) >= {"order", "limiter", "flux", "integrator", "edge", "paint", "mirror", "preset", "mode",
+                            "role", "view"}
+    for key in ("order", "limiter", "flux", "integrator"):
+        for name in choices[key]:
+            assert ask(ws, {"type": "set_numerics", key: name}, "scenario")["scenario"]["numerics"][key] == name
+    for name in choices["mirror"]:
+        assert ask(ws, {"type": "set_mirror", "mirror": name}, "scenario")["scenario"]["sketch"]["mirror"] == name
+    for name in choices["preset"]:
+        assert ask(ws, {"type": "set_gas", "preset": name}, "scenario")["scenario"]["gas"]["preset"] == name
+    for name in choices["paint"]:
+        shape = {"kind": "circle", "centre_m": [0.2, 0.05], "radius_m": 0.01, "paints": name}
+        assert ask(ws, {"type": "add_shape", "shape": shape}, "scenario")["scenario"]["sketch"]["shapes"][-1] == shape
+    for n, role in enumerate(choices["role"]):
+        sc = ask(ws, {"type": "add_station", "name": f"r{n}", "start_m": [0.3, 0.0], "end_m": [0.3, 0.1], "role": role},
+                 "scenario")
+        assert sc["scenario"]["stations"][-1]["role"] == role
+    for name in choices["edge"]:
+        if name == "axis":  # the axis is the bottom edge of an axisymmetric domain (set_mode puts it there)
+            continue
+        assert ask(ws, {"type": "set_edges", "top": name}, "scenario")["scenario"]["edges"]["top"] == name
+    for name in choices["mode"]:
+        sc = ask(ws, {"type": "set_mode", "mode": name}, "scenario")["scenario"]
+        assert sc["mode"] == name
+    sc = ask(ws, {"type": "set_mode", "mode": "axisymmetric"}, "scenario")["scenario"]
+    assert sc["edges"]["bottom"] == "axis" and "axis" in choices["edge"]
+    for name in choices["view"]:
+        ws.send_json({"type": "set_view", "view": name, "width": 32, "height": 32})
+    still_alive(ws)
+
+
+def test_hello_limits_are_the_ones_validation_applies(ws):
+    """A value just past each limit the page is given is refused naming that field; the limit itself passes."""
+    limits = ws.hello["vocabulary"]["limits"]
+    cases = {"conditions.reservoir.p0_pa": ("set_conditions", lambda v: {"reservoir": {"p0_pa": v}}),
+             "conditions.ambient.t_k": ("set_conditions", lambda v: {"ambient": {"t_k": v}}),
+             "conditions.stream.mach": ("set_conditions", lambda v: {"stream": {"mach": v}}),
+             "gas.gamma": ("set_gas", lambda v: {"gamma": v}),
+             "numerics.cfl": ("set_numerics", lambda v: {"cfl": v}),
+             "step.count": ("step", lambda v: {"count": v})}
+    for path, (kind, body) in cases.items():
+        lim = limits[path]
+        assert lim["label"] and "min" in lim and "max" in lim, (path, lim)
+        for bound, side in ((lim["min"], "min"), (lim["max"], "max")):
+            outside = bound - 1e-3 * max(1.0, abs(bound)) if side == "min" else bound + 1e-3 * max(1.0, abs(bound))
+            if lim["integer"]:
+                outside = bound - 1 if side == "min" else bound + 1
+            err = refused(ws, {"type": kind, **body(outside)})
+            assert err["field"].split(".")[-1] == path.split(".")[-1], (path, err)
+            if not lim[f"{side}_exclusive"] and kind != "step":  # (a step's reply is a status, checked elsewhere)
+                ask(ws, {"type": kind, **body(bound)}, "scenario")
+    p0 = limits["conditions.reservoir.p0_pa"]
+    assert p0["unit"] == "Pa" and p0["min_exclusive"]
 
 
 def test_status_has_the_documented_fields(ws):
@@ -193,7 +253,11 @@ def test_gas_conditions_numerics(ws):
 
 def test_settings_errors(ws):
     err = refused(ws, {"type": "set_conditions", "reservoir": {"p0_pa": -1.0}})
-    assert err["field"] == "reservoir.p0_pa" and err["value"] == -1.0 and "greater than 0" in err["allowed"]
+    assert err["field"] == "reservoir.p0_pa" and err["value"] == -1.0 and err["rule"] == "above"
+    assert err["allowed"] == "above 0 Pa"
+    err = refused(ws, {"type": "set_conditions", "ambient": {"p_pa": -5000.0}})
+    assert (err["field"], err["value"], err["rule"]) == ("ambient.p_pa", -5000.0, "above")
+    assert err["message"] == "Ambient pressure must be above 0 Pa; you gave -5000 Pa."
     err = refused(ws, {"type": "set_conditions", "reservoir": {"pressure": 1.0}})
     assert err["field"] == "reservoir.pressure" and "p0_pa" in err["allowed"]
     err = refused(ws, {"type": "set_gas", "gamma": 0.9})
@@ -201,7 +265,7 @@ def test_settings_errors(ws):
     err = refused(ws, {"type": "set_gas", "preset": "air", "gamma": 1.4})
     assert err["field"] == "preset"
     err = refused(ws, {"type": "set_numerics", "limiter": "superbee"})
-    assert err["field"] == "limiter" and "van_leer" in err["allowed"]
+    assert err["field"] == "limiter" and "van_leer" in err["allowed"] and err["rule"] == "one_of"
     err = refused(ws, {"type": "set_numerics", "cfl": "fast"})
     assert err["field"] == "cfl" and err["value"] == "fast"
     still_alive(ws)

@@ -136,7 +136,8 @@ def test_bad_shape_names_the_field_and_changes_nothing(session):
     with pytest.raises(RequestError) as info:
         session.add_shape({**WALL_DISC, "radius_m": -1.0})
     assert info.value.field == "shape.radius_m" and info.value.value == -1.0
-    assert "greater than 0" in info.value.allowed
+    assert info.value.allowed == "above 0 m" and info.value.rule == "above"
+    assert info.value.message == "Circle radius must be above 0 m; you gave -1 m."
     with pytest.raises(RequestError) as info:
         session.add_shape({**WALL_DISC, "paints": "lava"})
     assert info.value.field == "shape.paints" and "wall" in info.value.allowed
@@ -198,7 +199,8 @@ def test_bad_condition_names_the_message_field(session):
     with pytest.raises(RequestError) as info:
         session.set_conditions(reservoir={"p0_pa": -5.0})
     err = info.value
-    assert err.field == "reservoir.p0_pa" and err.value == -5.0 and "greater than 0" in err.allowed
+    assert err.field == "reservoir.p0_pa" and err.value == -5.0 and err.allowed == "above 0 Pa"
+    assert err.message == "Reservoir pressure p0 must be above 0 Pa; you gave -5 Pa."
     assert session.scenario.conditions.reservoir.p0_pa == 300000.0
 
 

@@ -279,7 +279,7 @@ def test_a_case_that_raises_on_its_worker_becomes_an_error_not_a_crash():
     # a scenario document the worker cannot read (e.g. written by another version): the task returns the error
     outcome = sweep.run_case({"name": "broken"}, TINY_NX, TINY_UNTIL_S)
     assert outcome["summary"] is None and outcome["error"].startswith("ScenarioError: ")
-    assert "gas is missing" in outcome["error"]
+    assert "gas: Gas is missing" in outcome["error"]
 
 
 def test_resume_runs_nothing_new_and_a_deleted_case_folder_reruns_alone(client, tmp_path):

@@ -2,7 +2,7 @@
 // measurements over it, and the controls that steer the one simulation the server runs.
 // The server owns the scenario and the flow; the page draws and sends intents.
 
-import { DEFAULT_MAP, DIVERGING, MAP_ANCHORS, frameLookup } from "./colourmaps.js";
+import { DEFAULT_MAP, DIVERGING, MAPS, frameLookup, setMaps } from "./colourmaps.js";
 import { drawColourBar } from "./colourbar.js";
 import { Connection } from "./connection.js";
 import { Histories, showClock, showLists, showProbes, showReadout, showStations } from "./figures.js";
@@ -10,7 +10,7 @@ import { fetchExport, safeName, setupFiles, showScenarioList, download } from ".
 import { decodeFrame } from "./frame.js";
 import { Placement } from "./geometry.js";
 import { drawArrows, drawAxis, drawProbes, drawShape, drawSketch, drawSonicLine, drawStations, STATION_COLOUR } from "./overlays.js";
-import { fillPanels, setupPanels } from "./panels.js";
+import { applyLimits, fillChoices, fillPanels, setupPanels } from "./panels.js";
 import { drawPlot } from "./plotstrip.js";
 import { SketchTools } from "./sketch.js";
 import * as U from "./units.js";
@@ -33,7 +33,8 @@ const app = {
   conn: null,
   views: [],
   viewName: "pressure",
-  mapName: DEFAULT_MAP.pressure,
+  mapName: "kiln",
+  vocabulary: null,
   range: "auto",
   scenario: null,
   revision: -1,
@@ -77,11 +78,19 @@ app.showMessage = (text, kind = "error", field = null) => {
   setTimeout(() => div.remove(), kind === "note" ? 4000 : 20000);
 };
 
+/**
+ * A refusal from the server, as it sent it: the plain sentence first, then which field and request it
+ * was about (field, value, rule and allowed stay on the message element for tests and styling).
+ */
 function showServerError(msg) {
-  const value = msg.value === undefined ? "" : ` = ${JSON.stringify(msg.value)}`;
-  const allowed = msg.allowed ? ` Allowed: ${Array.isArray(msg.allowed) ? msg.allowed.join(", ") : msg.allowed}.` : "";
-  const what = msg.request ? `${msg.request}: ` : "";
-  app.showMessage(`${what}${msg.field || "message"}${value} was refused. ${msg.message || ""}${allowed}`, "error", msg.field);
+  const where = [msg.request && msg.request !== "unknown" ? msg.request : "", msg.field].filter(Boolean).join(": ");
+  const text = `${msg.message || `${msg.field} was refused.`}${where ? ` (${where})` : ""}`;
+  app.showMessage(text, "error", msg.field);
+  const box = $("#messages").firstElementChild;
+  if (box) {
+    box.dataset.rule = msg.rule || "";
+    box.dataset.allowed = msg.allowed || "";
+  }
   if (msg.field) {
     const leaf = String(msg.field).split(".").pop();
     for (const el of $$(`[data-field="${msg.field}"], [data-field="${leaf}"]`)) el.classList.add("invalid");
@@ -143,11 +152,17 @@ function sendView() {
   const rect = app.place.flowRect();
   app.send("set_view", {
     view: app.viewName,
-    width: Math.min(4096, Math.max(16, Math.round(rect.width))),
-    height: Math.min(4096, Math.max(16, Math.round(rect.height))),
+    width: clampTo("view.width", Math.round(rect.width)),
+    height: clampTo("view.height", Math.round(rect.height)),
     range: app.range,
     overlays: [["sonic_line", "#ov-sonic"], ["arrows", "#ov-arrows"]].filter(([, id]) => $(id).checked).map(([name]) => name),
   });
+}
+
+/** A number kept within the limits the server gave for `path` (hello.vocabulary.limits). */
+function clampTo(path, value) {
+  const lim = (app.vocabulary && app.vocabulary.limits[path]) || {};
+  return Math.min(lim.max ?? value, Math.max(lim.min ?? value, value));
 }
 
 function viewInfo(index) {
@@ -273,10 +288,17 @@ function tabFps() {
 
 // ------------------------------------------------------------------ view controls
 
+/** The colour maps the server sent: fill the picker and start each view on its own map. */
+function takeColourMaps(sent) {
+  setMaps(sent || {});
+  const mapSel = $("#map-select");
+  mapSel.replaceChildren(...Array.from(MAPS.keys()).map((name) => new Option(name + (DIVERGING.has(name) ? " (diverging)" : ""), name)));
+  if (!MAPS.has(app.mapName)) app.mapName = DEFAULT_MAP[app.viewName] || mapSel.options[0].value;
+  mapSel.value = app.mapName;
+}
+
 function setupViewControls() {
   const mapSel = $("#map-select");
-  for (const name of Object.keys(MAP_ANCHORS)) mapSel.append(new Option(name + (DIVERGING.has(name) ? " (diverging)" : ""), name));
-  mapSel.value = app.mapName;
   mapSel.addEventListener("change", () => {
     app.mapName = mapSel.value;
     paintFrame();
@@ -285,7 +307,7 @@ function setupViewControls() {
   });
   $("#view-select").addEventListener("change", (ev) => {
     app.viewName = ev.target.value;
-    app.mapName = DEFAULT_MAP[app.viewName] || "kiln";
+    app.mapName = DEFAULT_MAP[app.viewName] || app.mapName;
     mapSel.value = app.mapName;
     app.range = "auto";
     $("#range-hold").checked = false;
@@ -375,11 +397,22 @@ function requestInspect() {
   app.send("inspect", { x_m: app.hover[0], y_m: app.hover[1] });
 }
 
+/** One button per paint the server offers (hello.vocabulary.choices.paint). */
+function buildPaints() {
+  const paints = (app.vocabulary && app.vocabulary.choices.paint) || [];
+  $("#paints").replaceChildren(...paints.map((c) => {
+    const b = document.createElement("button");
+    b.dataset.paint = c.name;
+    b.append(Object.assign(document.createElement("i"), { className: "swatch" }), c.label);
+    b.addEventListener("click", () => setPaint(c.name));
+    return b;
+  }));
+  setPaint(paints.some((c) => c.name === app.paints) ? app.paints : (paints[0] || { name: app.paints }).name);
+}
+
 function setupTools() {
   for (const b of $$("#tools [data-tool]")) b.addEventListener("click", () => setTool(b.dataset.tool));
-  for (const b of $$("#paints [data-paint]")) b.addEventListener("click", () => setPaint(b.dataset.paint));
   setTool("look");
-  setPaint("wall");
   app.tools = new SketchTools($("#view"), () => app.place, settings, {
     onShape: (shape) => app.send("add_shape", { shape }),
     onStation: (start_m, end_m) => {
@@ -579,11 +612,17 @@ function takeScenario(scenario, revision) {
 function onMessage(msg) {
   switch (msg.type) {
     case "hello": {
+      app.hello = msg;
       app.views = msg.views || [];
+      app.vocabulary = msg.vocabulary || { choices: {}, limits: {} };
+      fillChoices(app);
+      applyLimits(app);
+      buildPaints();
       const sel = $("#view-select");
       sel.replaceChildren(...app.views.map((v) => new Option(v.label, v.name)));
       if (!app.views.some((v) => v.name === app.viewName) && app.views.length) app.viewName = app.views[0].name;
       sel.value = app.viewName;
+      takeColourMaps(msg.colour_maps);
       showRunState(msg.state || "paused");
       app.lastSize = "";
       takeScenario(msg.scenario, msg.revision);

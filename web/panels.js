@@ -1,10 +1,9 @@
 // The settings column: gas, held conditions, numerics, domain and edges. Each input shows the
 // scenario the server holds and sends a small intent when the user changes it; the server answers
-// with the new scenario (or an error that names the field).
+// with the new scenario (or an error that names the field). Option lists and limits come from the
+// server (hello.vocabulary), so the page offers exactly what the server accepts.
 
 import { PRESSURE_UNITS, getPressureUnit, num, plain, setPressureUnit } from "./units.js";
-
-const EDGE_CHOICES = ["wall", "open", "ambient", "stream", "axis"];
 
 const $ = (sel, root = document) => root.querySelector(sel);
 const $$ = (sel, root = document) => Array.from(root.querySelectorAll(sel));
@@ -38,7 +37,6 @@ function pressureScale() {
 
 export function setupPanels(app) {
   for (const select of $$("[data-edge]")) {
-    for (const e of EDGE_CHOICES) select.append(new Option(e, e));
     select.addEventListener("change", () => app.send("set_edges", { [select.dataset.edge]: select.value }));
   }
 
@@ -70,6 +68,7 @@ export function setupPanels(app) {
     setPressureUnit(ev.target.value);
     localStorage.setItem("shockslate.pressureUnit", ev.target.value);
     for (const s of $$(".p-unit")) s.textContent = ev.target.value;
+    applyLimits(app);
     fillPanels(app, true);
     app.refreshUnits();
   });
@@ -109,6 +108,53 @@ export function setupPanels(app) {
     }
     app.send("set_domain", out);
   });
+}
+
+/**
+ * Fill every `select[data-choices]` from the server's choice tables (name as value, label as text).
+ * `data-none` adds an empty choice with that text (first, or last with `data-none-last`).
+ */
+export function fillChoices(app) {
+  const choices = (app.vocabulary && app.vocabulary.choices) || {};
+  for (const select of $$("select[data-choices]")) {
+    const items = choices[select.dataset.choices] || [];
+    const options = items.map((c) => new Option(c.label, String(c.name)));
+    if (select.dataset.none !== undefined) {
+      const none = new Option(select.dataset.none, "");
+      if (select.dataset.noneLast !== undefined) options.push(none);
+      else options.unshift(none);
+    }
+    const keep = select.value;
+    select.replaceChildren(...options);
+    if (options.some((o) => o.value === keep)) select.value = keep;
+  }
+}
+
+/** Number in the unit an input shows: pressures in the chosen unit, lengths by data-scale (mm: 0.001). */
+function inputScale(input) {
+  if (input.dataset.quantity === "pressure") return pressureScale();
+  return Number(input.dataset.scale || 1);
+}
+
+/** Set min, max and a tooltip on every `[data-limit]` input from the limits the server validates with. */
+export function applyLimits(app) {
+  const limits = (app.vocabulary && app.vocabulary.limits) || {};
+  for (const input of $$("[data-limit]")) {
+    const lim = limits[input.dataset.limit];
+    if (!lim) continue;
+    const scale = inputScale(input);
+    const unit = input.dataset.quantity === "pressure" ? getPressureUnit() : input.dataset.scale ? "mm" : lim.unit;
+    const words = [];
+    if (lim.min !== undefined) {
+      input.min = String(lim.min / scale);
+      words.push(`${lim.min_exclusive ? "above" : "at least"} ${plain(lim.min / scale)}${unit ? " " + unit : ""}`);
+    }
+    if (lim.max !== undefined) {
+      input.max = String(lim.max / scale);
+      words.push(`${lim.max_exclusive ? "below" : "at most"} ${plain(lim.max / scale)}${unit ? " " + unit : ""}`);
+    }
+    input.title = `${lim.label}: ${words.join(", ")}`;
+  }
 }
 
 /** Show the scenario in every input (force: also the focused one, after a unit change). */
