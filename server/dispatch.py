@@ -148,7 +148,13 @@ class Dispatcher:
 
     async def _load(self, client: Client, message: p.LoadScenario) -> None:
         if message.name is not None:
-            scenario = await asyncio.to_thread(self.store.load_named, message.name)
+            try:
+                scenario = await asyncio.to_thread(self.store.load_named, message.name)
+            except scn.ScenarioError as err:  # a kept file that no longer validates: say why, in its own terms
+                refused = request_error_from_scenario(err)
+                raise RequestError("name", message.name, refused.allowed,
+                                   f"The kept scenario {message.name!r} cannot be opened: {refused.message}",
+                                   refused.rule) from None
         else:
             try:
                 scenario = scn.parse_scenario(message.scenario)

@@ -557,3 +557,15 @@ def test_a_change_that_cannot_be_saved_is_not_made_and_every_tab_is_told(server,
         sc = ask(ws, {"type": "add_shape", "shape": SHAPE}, "scenario")  # the folder is back: it works again
         assert sc["revision"] == before[0] + 1
         assert json.loads(store.current_path.read_text())["sketch"]["shapes"][-1]["kind"] == "segment"
+
+
+def test_a_kept_scenario_that_no_longer_validates_is_refused_in_plain_words(server, ws):
+    store = server.app.state.parts.store
+    store.saved_dir.mkdir(parents=True, exist_ok=True)
+    doc = duct_doc()
+    doc["conditions"]["ambient"]["p_pa"] = -5.0  # edited by hand after it was kept
+    (store.saved_dir / "hand edited.json").write_text(json.dumps(doc))
+    err = refused(ws, {"type": "load_scenario", "name": "hand edited"})
+    assert err["field"] == "name" and err["value"] == "hand edited"
+    assert "cannot be opened" in err["message"] and "internal error" not in err["message"]
+    still_alive(ws)
