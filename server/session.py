@@ -335,7 +335,7 @@ class Session:
         self.scenario = new
         self.revision += 1
         self.flow_version += 1
-        if record:
+        if record and before != self._doc():  # a change to the same values (a repeated input) is not one
             self._undo.append(before)
             del self._undo[:-UNDO_DEPTH]
             self._redo.clear()

@@ -433,3 +433,11 @@ def test_set_initial_starts_the_flow_from_the_new_starting_gas(session):
         session.set_initial("reservoir_in_circle", centre_m=[0.3, 0.05])
     assert info.value.field == "radius_m"
     assert session.scenario.initial.radius_m == 0.02  # refused: nothing changed
+
+
+def test_setting_the_same_value_again_is_not_an_undo_step(session):
+    session.set_conditions(reservoir={"p0_pa": 5.0e5})
+    session.set_conditions(reservoir={"p0_pa": 5.0e5})  # a form sends its value again when it loses focus
+    assert session.undo_depth == 1
+    session.undo()
+    assert session.scenario.conditions.reservoir.p0_pa == 3.0e5
