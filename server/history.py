@@ -14,6 +14,9 @@ from typing import Any
 
 #: Samples kept per probe or station (about 8 minutes at 4 per second).
 LIMIT = 2000
+#: Numbers in one `history` message at most (about 2 MB of JSON): with many probes and stations every
+#: k-th sample is sent (the newest always), so the message stays far below a tab's send queue limit.
+MAX_MESSAGE_VALUES = 200_000
 PROBE_KEYS = ("p_pa", "rho_kg_m3", "t_k", "u_m_s", "v_m_s", "mach")
 STATION_KEYS = ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa")
 
@@ -57,13 +60,18 @@ class FlowHistory:
     def message(self) -> dict:
         """The `history` message: per probe and station, columns of equal length, oldest first."""
         with self._lock:
-            return {"type": "history", "limit": self.limit,
-                    "probes": {name: _columns(samples, PROBE_KEYS) for name, samples in self._probes.items()},
-                    "stations": {name: _columns(samples, STATION_KEYS) for name, samples in self._stations.items()}}
+            values = sum(len(v) * (1 + len(PROBE_KEYS)) for v in self._probes.values()) + \
+                sum(len(v) * (1 + len(STATION_KEYS)) for v in self._stations.values())
+            every = max(1, -(-values // MAX_MESSAGE_VALUES))  # ceiling division
+            return {"type": "history", "limit": self.limit, "every": every,
+                    "probes": {name: _columns(s, PROBE_KEYS, every) for name, s in self._probes.items()},
+                    "stations": {name: _columns(s, STATION_KEYS, every) for name, s in self._stations.items()}}
 
 
-def _columns(samples: collections.deque, keys: tuple[str, ...]) -> dict[str, list[Any]]:
+def _columns(samples: collections.deque, keys: tuple[str, ...], every: int = 1) -> dict[str, list[Any]]:
     rows = list(samples)
+    if every > 1:  # every k-th sample, counted back from the newest so that it is always sent
+        rows = rows[::-1][::every][::-1]
     out: dict[str, list[Any]] = {"time_s": [r[0] for r in rows]}
     for k, key in enumerate(keys, start=1):
         out[key] = [r[k] for r in rows]

@@ -631,23 +631,25 @@ def _content(doc: dict) -> dict:
 
 def describe_values(s: scn.Scenario, origin: str) -> str:
     """The description of an edited scenario: what it was edited from and the values it now holds, so a
-    download never carries a description whose numbers no longer hold."""
+    download never carries a description whose numbers no longer hold. Units as on the page (kPa, mm)."""
     c, d, e = s.conditions, s.domain, s.edges
+    kpa = lambda pa: f"{pa / 1e3:.5g} kPa"  # noqa: E731
+    mm = lambda m: f"{m * 1e3:.5g} mm"  # noqa: E731
     preset = f" ({s.gas.preset})" if s.gas.preset else ""
     ini = s.initial
     if ini.kind == "reservoir_upstream_of_x":
-        start = f"reservoir gas upstream of x = {ini.x_m:g} m"
+        start = f"reservoir gas left of x = {mm(ini.x_m)}"
     elif ini.kind == "reservoir_in_circle":
-        start = f"reservoir gas within {ini.radius_m:g} m of ({ini.centre_m[0]:g}, {ini.centre_m[1]:g}) m"
+        start = f"reservoir gas within {mm(ini.radius_m)} of ({mm(ini.centre_m[0])}, {mm(ini.centre_m[1])})"
     else:
         start = "the stream state everywhere" if ini.kind == "stream" else "still ambient gas"
     n_shapes, n_st, n_pr = len(s.sketch.shapes), len(s.stations), len(s.probes)
     plural = lambda n, word: f"{n} {word}{'' if n == 1 else 's'}"  # noqa: E731
     return (f"Edited from '{origin}'. Gas: gamma {s.gas.gamma:g}, molar mass {s.gas.molar_mass_kg_kmol:g} kg/kmol"
-            f"{preset}. Reservoir p0 {c.reservoir.p0_pa:g} Pa, T0 {c.reservoir.t0_k:g} K; ambient "
-            f"{c.ambient.p_pa:g} Pa, {c.ambient.t_k:g} K; stream Mach {c.stream.mach:g} at {c.stream.angle_deg:g} deg, "
-            f"{c.stream.p_pa:g} Pa, {c.stream.t_k:g} K. {s.mode.capitalize()}, x {d.x_min_m:g} to {d.x_max_m:g} m, "
-            f"y {d.y_min_m:g} to {d.y_max_m:g} m, {d.nx} cells across; edges left {e.left}, right {e.right}, "
+            f"{preset}. Reservoir p0 {kpa(c.reservoir.p0_pa)}, T0 {c.reservoir.t0_k:g} K; ambient "
+            f"{kpa(c.ambient.p_pa)}, {c.ambient.t_k:g} K; stream Mach {c.stream.mach:g} at {c.stream.angle_deg:g} deg, "
+            f"{kpa(c.stream.p_pa)}, {c.stream.t_k:g} K. {s.mode.capitalize()}, x {mm(d.x_min_m)} to {mm(d.x_max_m)}, "
+            f"y {mm(d.y_min_m)} to {mm(d.y_max_m)}, {d.nx} cells across; edges left {e.left}, right {e.right}, "
             f"bottom {e.bottom}, top {e.top}. Starts with {start}. {plural(n_shapes, 'shape')}, "
             f"{plural(n_st, 'station')}, {plural(n_pr, 'probe')}. Numerics: order {s.numerics.order}, "
             f"{s.numerics.limiter}, {s.numerics.flux}, CFL {s.numerics.cfl:g}, {s.numerics.integrator}.")

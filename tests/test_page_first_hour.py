@@ -125,13 +125,13 @@ def test_the_page_names_and_describes_what_is_loaded_and_marks_an_edit(page, tmp
     page.wait_for_function("window.shockslate.scenario.conditions.reservoir.p0_pa === 3e6", timeout=WAIT_MS)
     assert page.inner_text("#scenario-name") == doc["name"] + " edited"
     assert page.locator("#scenario-edited").is_visible() and page.locator("#current-edited").is_visible()
-    assert "p0 3e+06 Pa" in page.inner_text("#current-description")
+    assert "p0 3000 kPa" in page.inner_text("#current-description")
     with page.expect_download() as info:
         page.click("#download-scenario")
     path = tmp_path / "edited.json"
     info.value.save_as(str(path))
     saved = json.loads(path.read_text())
-    assert saved["name"] == doc["name"] + " edited" and "p0 3e+06 Pa" in saved["description"]
+    assert saved["name"] == doc["name"] + " edited" and "p0 3000 kPa" in saved["description"]
     assert saved["conditions"]["reservoir"]["p0_pa"] == 3e6
     page.click("#undo")  # back to what was loaded: no longer edited
     page.wait_for_function("window.shockslate.scenario.conditions.reservoir.p0_pa === 3e5", timeout=WAIT_MS)

@@ -502,7 +502,7 @@ def test_scenario_messages_say_whether_the_scenario_is_edited(ws):
     assert ws.hello["edited"] is False and ws.hello["origin"] == "protocol duct"
     sc = ask(ws, {"type": "set_conditions", "reservoir": {"p0_pa": 2.5e5}}, "scenario")
     assert sc["edited"] is True and sc["scenario"]["name"] == "protocol duct edited"
-    assert "p0 250000 Pa" in sc["scenario"]["description"]  # the description carries the current value
+    assert "p0 250 kPa" in sc["scenario"]["description"]  # the description carries the current value
     sc = ask(ws, {"type": "undo"}, "scenario")
     assert sc["edited"] is False and sc["scenario"]["name"] == "protocol duct"
 

@@ -394,7 +394,7 @@ def test_an_edited_scenario_says_so_and_its_description_holds_the_current_values
     session.set_gas(gamma=1.3)
     assert session.edited and session.scenario.name == "test duct edited"
     text = session.scenario.description
-    assert "Edited from 'test duct'" in text and "p0 3e+06 Pa" in text and "gamma 1.3" in text
+    assert "Edited from 'test duct'" in text and "p0 3000 kPa" in text and "gamma 1.3" in text
     assert saved[-1].name == "test duct edited" and saved[-1].description == text  # what is written to disk
     session.undo()
     session.undo()  # back to what was loaded: no longer edited
@@ -441,3 +441,16 @@ def test_setting_the_same_value_again_is_not_an_undo_step(session):
     assert session.undo_depth == 1
     session.undo()
     assert session.scenario.conditions.reservoir.p0_pa == 3.0e5
+
+
+def test_undo_of_a_new_mode_or_domain_brings_the_flow_back_to_match(session):
+    session.set_domain(0.0, 0.5, 0.0, 0.1)
+    assert session.sim.domain.x_max_m == 0.5
+    session.set_mode("axisymmetric")
+    assert session.scenario.edges.bottom == "axis"
+    session.undo()
+    assert session.scenario.mode == "planar" and session.sim.setup.mode == "planar"
+    assert session.scenario.edges.bottom == "wall"
+    session.undo()
+    assert session.sim.domain.x_max_m == 0.4 and session.scenario.domain.x_max_m == 0.4
+    assert not session.edited
