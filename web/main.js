@@ -591,7 +591,12 @@ function takeScenario(scenario, revision, edited, origin) {
   $("#current-description").textContent = scenario.description || "(no description)";
   for (const id of ["#scenario-edited", "#current-edited"]) $(id).hidden = !app.edited;
   $("#save-name").placeholder = scenario.name;
-  syncScenarioPick({ name: scenario.name, origin: app.origin });
+  // point the open list at the scenario on screen when that changes (not at every edit: a pick stays)
+  const shown = `${scenario.name}\n${app.origin}`;
+  if (shown !== app.pickSynced) {
+    app.pickSynced = shown;
+    syncScenarioPick({ name: scenario.name, origin: app.origin });
+  }
   fillPanels(app);
   fillInitial(app);
   showLists(app);
