@@ -8,7 +8,7 @@ from __future__ import annotations
 from .errors import RequestError
 from .exports import EXPORT_NAME, Exports
 
-KINDS_BY_SUFFIX = {".npz": "npz", ".csv": "csv", ".json": "scenario"}
+KINDS_BY_SUFFIX = {".npz": "npz", ".vti": "vti", ".csv": "csv", ".json": "scenario"}
 
 
 def listing(exports: Exports, token: str | None = None) -> list[dict]:

@@ -141,6 +141,7 @@ def test_the_page_names_and_describes_what_is_loaded_and_marks_an_edit(page, tmp
 
 def test_after_a_reload_the_open_list_shows_the_scenario_on_screen(page):
     """The list of scenarios starts at the one loaded, also after the page is reloaded."""
+    page.wait_for_function("document.querySelector('#scenario-pick').options.length > 1", timeout=WAIT_MS)
     builtins = page.evaluate("Array.from(document.querySelectorAll('#scenario-pick option')).map((o) => o.value)")
     other = [n for n in builtins if n != page.evaluate("window.shockslate.scenario.name")][-1]
     page.select_option("#scenario-pick", other)
