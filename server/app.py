@@ -228,6 +228,9 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
     client = hub.new_client(websocket)
     sender = asyncio.create_task(_run_sender(hub, client), name=f"sender-{client.id}")
     hub.send(client, hello_message(client, runner))
+    hub.send(client, runner.history.message())  # what the probes and stations saw before this tab came
+    if runner.session.divergence is not None:  # a tab opened after a divergence learns why the run stopped
+        hub.send(client, runner.session.divergence.to_message())
     limiter = RateLimiter(access.max_messages_per_s)
     last_rate_error = 0.0
     try:

@@ -16,6 +16,7 @@ from shockslate.solver.fields import VIEWS
 
 from . import protocol as p
 from .errors import RequestError
+from . import export_list
 from .exports import Exports
 from .hub import Client, Hub, ViewChoice
 from .persistence import ScenarioStore
@@ -30,7 +31,8 @@ def hello_message(client: Client, runner: Runner) -> dict:
             "views": [{"name": n, "label": label, "unit": unit, "map": colourmaps.view_map(n)}
                       for n, (label, unit) in VIEWS.items()],
             "vocabulary": p.vocabulary(), "colour_maps": colourmaps.for_page(),
-            "scenario": scn.scenario_to_dict(s.scenario), "state": s.state.value, "revision": s.revision,
+            "scenario": scn.scenario_to_dict(s.scenario), "edited": s.edited, "origin": s.origin_name,
+            "state": s.state.value, "revision": s.revision,
             "limits": {"max_message_bytes": p.MAX_MESSAGE_BYTES, "max_messages_per_s": p.MAX_MESSAGES_PER_S,
                        "max_frames_per_s": runner.hub.max_frames_per_s},
             "view": {"view": client.view.view, "width": client.view.width, "height": client.view.height,
@@ -55,6 +57,9 @@ class Dispatcher:
             "undo": lambda c, m: self._change(c, m, self.session.undo),
             "redo": lambda c, m: self._change(c, m, self.session.redo),
             "clear_sketch": lambda c, m: self._change(c, m, self.session.clear_sketch),
+            "clear_all": lambda c, m: self._change(c, m, self.session.clear_all),
+            "set_initial": lambda c, m: self._change(c, m, self.session.set_initial, m.kind, m.x_m, m.centre_m,
+                                                     m.radius_m),
             "set_mirror": lambda c, m: self._change(c, m, self.session.set_mirror, m.mirror),
             "set_gas": lambda c, m: self._change(c, m, self.session.set_gas, m.preset, m.gamma, m.molar_mass_kg_kmol),
             "set_conditions": self._set_conditions,
@@ -78,7 +83,10 @@ class Dispatcher:
             "save_scenario": self._save,
             "load_scenario": self._load,
             "list_scenarios": self._list,
+            "delete_scenario": self._delete_scenario,
             "export": self._export,
+            "list_exports": self._list_exports,
+            "delete_export": self._delete_export,
         }
         missing = set(p.MESSAGE_TYPES) - set(self._handlers)
         assert not missing, f"message types without a handler: {missing}"
@@ -94,7 +102,8 @@ class Dispatcher:
 
     def _broadcast_scenario(self, client: Client, message: Any) -> None:
         s = self.session
-        self.hub.broadcast({"type": "scenario", "scenario": scn.scenario_to_dict(s.scenario), "revision": s.revision},
+        self.hub.broadcast({"type": "scenario", "scenario": scn.scenario_to_dict(s.scenario), "revision": s.revision,
+                            "edited": s.edited, "origin": s.origin_name},
                            reply_to=client, request_id=message.id)
 
     # ------------------------------------------------------------ handlers
@@ -145,6 +154,9 @@ class Dispatcher:
     async def _save(self, client: Client, message: p.SaveScenario) -> None:
         path = await asyncio.to_thread(self.store.save_named, message.name, self.session.scenario)
         self._reply(client, message, {"type": "saved", "name": message.name, "path": str(path)})
+        # the scenario on screen is now the kept one: its name, no longer 'edited'
+        await self._change(client, message, self.session.kept_as, message.name)
+        await self._broadcast_list()
 
     async def _load(self, client: Client, message: p.LoadScenario) -> None:
         if message.name is not None:
@@ -165,6 +177,25 @@ class Dispatcher:
     async def _list(self, client: Client, message: p.ListScenarios) -> None:
         listing = await asyncio.to_thread(self.store.listing)
         self._reply(client, message, {"type": "scenario_list", **listing})
+
+    async def _broadcast_list(self) -> None:
+        listing = await asyncio.to_thread(self.store.listing)
+        self.hub.broadcast({"type": "scenario_list", **listing})
+
+    async def _delete_scenario(self, client: Client, message: p.DeleteScenario) -> None:
+        await asyncio.to_thread(self.store.delete_named, message.name)
+        listing = await asyncio.to_thread(self.store.listing)
+        self.hub.broadcast({"type": "scenario_list", **listing}, reply_to=client, request_id=message.id)
+
+    async def _list_exports(self, client: Client, message: p.ListExports) -> None:
+        files = await asyncio.to_thread(export_list.listing, self.exports, self.access.token)
+        self._reply(client, message, {"type": "export_list", "files": files, "keep": self.exports.keep})
+
+    async def _delete_export(self, client: Client, message: p.DeleteExport) -> None:
+        await asyncio.to_thread(export_list.delete, self.exports, message.name, bool(message.all))
+        files = await asyncio.to_thread(export_list.listing, self.exports, self.access.token)
+        self.hub.broadcast({"type": "export_list", "files": files, "keep": self.exports.keep},
+                           reply_to=client, request_id=message.id)
 
     async def _export(self, client: Client, message: p.Export) -> None:
         s = self.session

@@ -69,6 +69,12 @@ def downsample(field: np.ndarray, width_px: int, height_px: int) -> np.ndarray:
     return field[np.ix_(rows, cols)]
 
 
+#: An auto range narrower than this fraction of the values is round-off on a uniform field ...
+FLAT_RELATIVE = 1e-6
+#: ... and is shown as the value plus and minus this fraction of it.
+FLAT_PAD_RELATIVE = 0.01
+
+
 def colour_range(field: np.ndarray, fixed: tuple[float, float] | None) -> tuple[float, float]:
     """The fixed range, or the finite min and max of the field (widened when flat, so levels are defined)."""
     if fixed is not None:
@@ -80,9 +86,15 @@ def colour_range(field: np.ndarray, fixed: tuple[float, float] | None) -> tuple[
         if finite.size == 0:
             return 0.0, 1.0
         lo, hi = float(finite.min()), float(finite.max())
-    if hi <= lo:
-        pad = max(abs(lo) * 1e-6, 1e-12)
-        lo, hi = lo - pad, hi + pad
+    scale = max(abs(lo), abs(hi))
+    if hi - lo <= FLAT_RELATIVE * scale or hi <= lo:
+        # a uniform field (or one uniform to round-off): a range of round numbers around it rather than
+        # a sliver whose ticks read 49.99996 ... 50.00004
+        mid = 0.5 * (lo + hi)
+        if abs(mid) < 1e-30:
+            return 0.0, 1.0
+        pad = FLAT_PAD_RELATIVE * abs(mid)
+        lo, hi = mid - pad, mid + pad
     return lo, hi
 
 

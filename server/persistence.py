@@ -174,6 +174,20 @@ class ScenarioStore:
                                 f"There is no built-in or saved scenario named {name!r}{did_you_mean(name, known) or '.'}",
                                 "one_of")
 
+    def delete_named(self, name: str) -> None:
+        """Delete a kept scenario; a built-in's name or a name that is not kept is refused, never any other file."""
+        check_name(name)
+        if name in scn.builtin_names():
+            raise ScenarioNameError("name", name, "the name of a kept scenario (built-ins cannot be deleted)",
+                                    f"{name!r} is a built-in scenario; only scenarios kept on this machine can be "
+                                    "deleted.")
+        path = self.saved_path(name)
+        if not path.is_file():
+            raise ScenarioNameError("name", name, "the name of a kept scenario (see list_scenarios)",
+                                    f"There is no kept scenario named {name!r}"
+                                    f"{did_you_mean(name, self.saved_names())}")
+        path.unlink()
+
     def saved_names(self) -> list[str]:
         if not self.saved_dir.is_dir():
             return []

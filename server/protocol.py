@@ -78,6 +78,12 @@ class ClearSketch(_Message):
     type: Literal["clear_sketch"]
 
 
+class ClearAll(_Message):
+    """Shapes, stations, probes and the starting gas back to nothing; the flow starts again."""
+
+    type: Literal["clear_all"]
+
+
 class SetMirror(_Message):
     type: Literal["set_mirror"]
     mirror: literal(MIRRORS)  # type: ignore[valid-type]
@@ -169,6 +175,16 @@ class SetEdges(_Message):
 class SetMode(_Message):
     type: Literal["set_mode"]
     mode: literal(scn.MODES)  # type: ignore[valid-type]
+
+
+class SetInitial(_Message):
+    """The starting gas (scenario `initial`); the flow starts again from it."""
+
+    type: Literal["set_initial"]
+    kind: literal(scn.INITIAL_KINDS)  # type: ignore[valid-type]
+    x_m: Optional[Finite] = None
+    centre_m: Optional[PointM] = None
+    radius_m: Optional[Finite] = None
 
 
 # ----------------------------------------------------------------------------- run control
@@ -291,15 +307,41 @@ class ListScenarios(_Message):
     type: Literal["list_scenarios"]
 
 
+class DeleteScenario(_Message):
+    """Delete a kept (saved) scenario; built-ins cannot be deleted."""
+
+    type: Literal["delete_scenario"]
+    name: Annotated[str, Field(min_length=1, max_length=64)]
+
+
 class Export(_Message):
     type: Literal["export"]
     what: Literal["npz", "csv", "scenario"]
 
 
+class ListExports(_Message):
+    type: Literal["list_exports"]
+
+
+class DeleteExport(_Message):
+    """Delete one export file (by its file name), or all of them with `all: true`."""
+
+    type: Literal["delete_export"]
+    name: Optional[Annotated[str, Field(min_length=1, max_length=100)]] = None
+    all: Optional[bool] = None
+
+    @model_validator(mode="after")
+    def _one_of(self) -> "DeleteExport":
+        if (self.name is None) == (not self.all):
+            raise RequestError("name", self.name, "either the name of an export file or all: true, not both")
+        return self
+
+
 ClientMessage = Annotated[
-    Union[AddShape, RemoveShape, Undo, Redo, ClearSketch, SetMirror, SetGas, SetConditions, SetNumerics,
-          SetResolution, SetDomain, SetEdges, SetMode, Run, Pause, ResetFlow, Step, AddStation, RemoveStation,
-          AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios, Export],
+    Union[AddShape, RemoveShape, Undo, Redo, ClearSketch, ClearAll, SetMirror, SetGas, SetConditions, SetNumerics,
+          SetResolution, SetDomain, SetEdges, SetMode, SetInitial, Run, Pause, ResetFlow, Step, AddStation,
+          RemoveStation, AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios,
+          DeleteScenario, Export, ListExports, DeleteExport],
     Field(discriminator="type"),
 ]
 _ADAPTER: TypeAdapter = TypeAdapter(ClientMessage)

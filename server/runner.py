@@ -19,6 +19,7 @@ import time
 from typing import Any, Callable
 
 from . import readings
+from .history import FlowHistory
 from .hub import Hub
 from .session import Advanced, Session
 
@@ -54,6 +55,8 @@ class Runner:
         self.last_status: dict | None = None
         self._status_key: tuple | None = None
         self._status_failure: str | None = None
+        #: Probe and station histories, sent to a tab when it joins.
+        self.history = FlowHistory()
 
     # ------------------------------------------------------------ life cycle
     def start(self) -> None:
@@ -154,8 +157,9 @@ class Runner:
                 + self.snapshot_interval_s
         status = None
         if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
-            if self.hub.clients or advanced.divergence is not None:
-                status = self._status_or_none(now)
+            scenario = self.session.scenario
+            if self.hub.clients or advanced.divergence is not None or scenario.probes or scenario.stations:
+                status = self._status_or_none(now)  # with no tab, for the histories a later tab is sent
             else:  # nobody to tell: keep only the rates /health reports
                 self._update_rates(now)
                 self._last_status_t = now
@@ -224,4 +228,5 @@ class Runner:
         self._last_status_t = now
         self._status_key = (s.revision, s.flow_version, s.state)
         self.last_status = status
+        self.history.record(status)
         return status

@@ -5,14 +5,16 @@ States are paused, running and diverged; every run-control event goes through on
 says which states allow it. Changes to the scenario are made on a copy of the scenario document,
 validated by solver.scenario, and only then applied to the flow, so a refused change changes
 nothing. The flow is kept across changes wherever the solver can keep it (sketch, conditions, gas,
-numerics, resolution, edges); a new geometry mode or a loaded scenario starts a new flow.
+numerics, resolution, edges); a new geometry mode or a loaded scenario starts a new flow. Undo and
+redo hold whole scenario documents, so every change (sketch, stations, probes, settings) can be
+taken back; a scenario that differs from the one loaded is named '<name> edited' and described by
+the values it now holds.
 
 A Session is not thread-safe: the live runner (server/runner.py) serialises every call behind one
 lock and runs `advance` in a worker thread.
 """
 from __future__ import annotations
 
-import copy
 import enum
 import math
 import time
@@ -34,8 +36,10 @@ from shockslate.solver.validation import Refused
 from . import readings
 from .errors import RequestError
 
-#: Sketch changes kept for undo (and redo).
+#: Scenario changes kept for undo (and redo).
 UNDO_DEPTH = 200
+#: Added to the name of a scenario that differs from the one loaded (in downloads and exports too).
+EDITED_SUFFIX = " edited"
 
 
 class SessionState(str, enum.Enum):
@@ -172,6 +176,39 @@ class Session:
         self._undo: list[dict] = []
         self._redo: list[dict] = []
         self._on_change = on_change
+        self._set_origin(scenario)
+
+    # ------------------------------------------------------------------ what was loaded, what is edited
+    def _set_origin(self, scenario: scn.Scenario) -> None:
+        """Remember the loaded scenario: a change away from it marks the scenario edited."""
+        doc = scn.scenario_to_dict(scenario)
+        self._origin_name = scenario.name
+        self._origin_description = scenario.description
+        self._origin_content = _content(doc)
+
+    @property
+    def edited(self) -> bool:
+        """Whether the scenario differs from the one loaded (undo back to it, and it is not edited again)."""
+        return _content(scn.scenario_to_dict(self.scenario)) != self._origin_content
+
+    @property
+    def origin_name(self) -> str:
+        return self._origin_name
+
+    def _marked(self, new: scn.Scenario) -> scn.Scenario:
+        """The scenario with the name and description that say what it is: the loaded one's, or, once it
+        differs from that, '<name> edited' and a description of the values it now holds."""
+        if _content(scn.scenario_to_dict(new)) == self._origin_content:
+            name, description = self._origin_name, self._origin_description
+        else:
+            base = self._origin_name
+            if base.endswith(EDITED_SUFFIX) and len(base) > len(EDITED_SUFFIX):  # restored from an edited session
+                base = base[: -len(EDITED_SUFFIX)]
+            name = base[: 80 - len(EDITED_SUFFIX)] + EDITED_SUFFIX
+            description = describe_values(new, base)
+        if new.name == name and new.description == description:
+            return new
+        return new.model_copy(update={"name": name, "description": description})
 
     # ------------------------------------------------------------------ state machine
     def _transition(self, event: str) -> SessionState:
@@ -262,9 +299,13 @@ class Session:
         except scn.ScenarioError as err:
             raise request_error_from_scenario(err, doc, prefix_map) from None
 
-    def _commit(self, new: scn.Scenario, apply: Callable[[scn.Scenario], None]) -> None:
+    def _commit(self, new: scn.Scenario, apply: Callable[[scn.Scenario], None], *, record: bool = True) -> None:
         """Keep a validated scenario (tell the store first: a change that cannot be saved is not made), then
-        apply it to the flow and make it current. If the flow refuses it, the saved file is put back."""
+        apply it to the flow and make it current. If the flow refuses it, the saved file is put back.
+
+        record: put the scenario as it was on the undo stack (every change but a load and undo/redo).
+        """
+        new = self._marked(new)
         if self._on_change is not None:
             self._on_change(new)
         try:
@@ -273,23 +314,43 @@ class Session:
             if self._on_change is not None:
                 self._on_change(self.scenario)
             raise RequestError("scenario", None, "a setup the solver accepts", str(err), "solver") from None
+        before = self._doc()
         self.scenario = new
         self.revision += 1
         self.flow_version += 1
+        if record and before != self._doc():  # a change to the same values (a repeated input) is not one
+            self._undo.append(before)
+            del self._undo[:-UNDO_DEPTH]
+            self._redo.clear()
+
+    def _apply_difference(self, new: scn.Scenario) -> None:
+        """Bring the flow from the current scenario to `new`, whatever differs (for undo and redo): a new
+        mode or starting gas starts the flow again; everything else keeps it, as the single changes do."""
+        old = self.scenario
+        if old.mode != new.mode or old.initial != new.initial:
+            self._new_flow(new)
+            return
+        if old.domain != new.domain:
+            self._remesh(new)
+        elif old.sketch != new.sketch:
+            self._apply_mask(new)
+        if old.gas != new.gas:
+            self.sim.set_gas(scn.to_gas(new))
+        if old.conditions != new.conditions:
+            self.sim.set_conditions(scn.to_conditions(new))
+        if old.numerics != new.numerics:
+            self.sim.set_numerics(scn.to_numerics(new))
+        if old.edges != new.edges:
+            self.sim.set_edges(scn.to_setup(new).edges)
 
     def _apply_mask(self, new: scn.Scenario) -> None:
         self.sim.set_mask(rasterise(scn.to_sketch(new), self.sim.domain))
 
-    def _change_sketch(self, sketch: dict, prefix_map: dict[str, str] | None = None, *, record: bool = True) -> None:
+    def _change_sketch(self, sketch: dict, prefix_map: dict[str, str] | None = None) -> None:
         doc = self._doc()
-        old_sketch = copy.deepcopy(doc["sketch"])
         doc["sketch"] = sketch
         new = self._validated(doc, prefix_map)
         self._commit(new, self._apply_mask)
-        if record:
-            self._undo.append(old_sketch)
-            del self._undo[:-UNDO_DEPTH]
-            self._redo.clear()
 
     def add_shape(self, shape: dict) -> None:
         try:
@@ -323,23 +384,43 @@ class Session:
         sketch["mirror"] = mirror
         self._change_sketch(sketch, {"sketch.": ""})
 
+    def clear_all(self) -> None:
+        """An empty slate in the same box: no shapes, stations or probes, no mirror, still ambient gas as the
+        starting state, and the flow started again. Gas, domain, edges, conditions and numerics stay."""
+        doc = self._doc()
+        doc["sketch"] = {"mirror": "none", "shapes": []}
+        doc["stations"] = []
+        doc["probes"] = []
+        doc["initial"] = {"kind": "ambient"}
+        self._commit(self._validated(doc), self._new_flow)
+
+    def set_initial(self, kind: str, x_m: float | None = None, centre_m: list[float] | None = None,
+                    radius_m: float | None = None) -> None:
+        """The starting gas (scenario `initial`); the flow starts again from it."""
+        doc = self._doc()
+        initial: dict[str, Any] = {"kind": kind}
+        for key, value in (("x_m", x_m), ("centre_m", centre_m), ("radius_m", radius_m)):
+            if value is not None:
+                initial[key] = list(value) if key == "centre_m" else value
+        doc["initial"] = initial
+        self._commit(self._validated(doc, {"initial.": ""}), self._new_flow)
+
     def undo(self) -> None:
+        """Back to the scenario before the last change (sketch, stations, probes or any setting)."""
         if not self._undo:
-            raise RequestError("undo", 0, "an earlier sketch change to undo (there is none)",
-                               "There is no sketch change to undo.", "nothing_to_undo")
-        previous = self._undo[-1]
-        current = self._doc()["sketch"]
-        self._change_sketch(previous, record=False)
+            raise RequestError("undo", 0, "an earlier change to undo (there is none)",
+                               "There is no change to undo.", "nothing_to_undo")
+        current = self._doc()
+        self._commit(self._validated(self._undo[-1]), self._apply_difference, record=False)
         self._undo.pop()
         self._redo.append(current)
 
     def redo(self) -> None:
         if not self._redo:
-            raise RequestError("redo", 0, "an undone sketch change to redo (there is none)",
-                               "There is no undone sketch change to redo.", "nothing_to_redo")
-        following = self._redo[-1]
-        current = self._doc()["sketch"]
-        self._change_sketch(following, record=False)
+            raise RequestError("redo", 0, "an undone change to redo (there is none)",
+                               "There is no undone change to redo.", "nothing_to_redo")
+        current = self._doc()
+        self._commit(self._validated(self._redo[-1]), self._apply_difference, record=False)
         self._redo.pop()
         self._undo.append(current)
 
@@ -427,10 +508,29 @@ class Session:
         self._transition("new_flow")
 
     def load(self, scenario: scn.Scenario) -> None:
-        """Make another scenario current: new flow, undo history cleared."""
-        self._commit(scenario, self._new_flow)
+        """Make another scenario current: new flow, undo history cleared, not edited."""
+        origin = (self._origin_name, self._origin_description, self._origin_content)
+        self._set_origin(scenario)
+        try:
+            self._commit(scenario, self._new_flow, record=False)
+        except RequestError:
+            self._origin_name, self._origin_description, self._origin_content = origin
+            raise
         self._undo.clear()
         self._redo.clear()
+
+    def kept_as(self, name: str) -> None:
+        """The scenario was kept under `name`: it now is that scenario, not an edited one."""
+        doc = self._doc()
+        doc["name"] = name
+        kept = self._validated(doc)
+        origin = (self._origin_name, self._origin_description, self._origin_content)
+        self._set_origin(kept)
+        try:
+            self._commit(kept, lambda s: None, record=False)
+        except RequestError:
+            self._origin_name, self._origin_description, self._origin_content = origin
+            raise
 
     # ------------------------------------------------------------------ stations and probes
     def add_station(self, name: str, start_m: list[float], end_m: list[float], role: str | None = None) -> None:
@@ -514,3 +614,34 @@ class Session:
         rho, u, v, p = self.sim.primitive()
         return FlowSnapshot(self.flow_version, self.sim.time_s, self.sim.steps, rho, u, v, p,
                             self.sim.mask.copy(), self.sim.setup.gas, self.sim.domain)
+
+
+def _content(doc: dict) -> dict:
+    """A scenario document without its name and description: what makes the flow."""
+    return {k: v for k, v in doc.items() if k not in ("name", "description")}
+
+
+def describe_values(s: scn.Scenario, origin: str) -> str:
+    """The description of an edited scenario: what it was edited from and the values it now holds, so a
+    download never carries a description whose numbers no longer hold. Units as on the page (kPa, mm)."""
+    c, d, e = s.conditions, s.domain, s.edges
+    kpa = lambda pa: f"{pa / 1e3:.5g} kPa"  # noqa: E731
+    mm = lambda m: f"{m * 1e3:.5g} mm"  # noqa: E731
+    preset = f" ({s.gas.preset})" if s.gas.preset else ""
+    ini = s.initial
+    if ini.kind == "reservoir_upstream_of_x":
+        start = f"reservoir gas left of x = {mm(ini.x_m)}"
+    elif ini.kind == "reservoir_in_circle":
+        start = f"reservoir gas within {mm(ini.radius_m)} of ({mm(ini.centre_m[0])}, {mm(ini.centre_m[1])})"
+    else:
+        start = "the stream state everywhere" if ini.kind == "stream" else "still ambient gas"
+    n_shapes, n_st, n_pr = len(s.sketch.shapes), len(s.stations), len(s.probes)
+    plural = lambda n, word: f"{n} {word}{'' if n == 1 else 's'}"  # noqa: E731
+    return (f"Edited from '{origin}'. Gas: gamma {s.gas.gamma:g}, molar mass {s.gas.molar_mass_kg_kmol:g} kg/kmol"
+            f"{preset}. Reservoir p0 {kpa(c.reservoir.p0_pa)}, T0 {c.reservoir.t0_k:g} K; ambient "
+            f"{kpa(c.ambient.p_pa)}, {c.ambient.t_k:g} K; stream Mach {c.stream.mach:g} at {c.stream.angle_deg:g} deg, "
+            f"{kpa(c.stream.p_pa)}, {c.stream.t_k:g} K. {s.mode.capitalize()}, x {mm(d.x_min_m)} to {mm(d.x_max_m)}, "
+            f"y {mm(d.y_min_m)} to {mm(d.y_max_m)}, {d.nx} cells across; edges left {e.left}, right {e.right}, "
+            f"bottom {e.bottom}, top {e.top}. Starts with {start}. {plural(n_shapes, 'shape')}, "
+            f"{plural(n_st, 'station')}, {plural(n_pr, 'probe')}. Numerics: order {s.numerics.order}, "
+            f"{s.numerics.limiter}, {s.numerics.flux}, CFL {s.numerics.cfl:g}, {s.numerics.integrator}.")

@@ -43,6 +43,11 @@ MOLAR_MASS_MAX_KG_KMOL = 1000.0
 MODES: dict[str, Choice] = table(Choice("planar", "planar"), Choice("axisymmetric", "axisymmetric (x axis, y radius)"))
 #: Roles a station may have in the nozzle figures.
 ROLES: dict[str, Choice] = table(Choice("throat", "throat"), Choice("exit", "exit"))
+#: How the fluid cells start (the scenario's `initial.kind`).
+INITIAL_KINDS: dict[str, Choice] = table(
+    Choice("ambient", "still ambient gas"), Choice("stream", "stream state everywhere"),
+    Choice("reservoir_upstream_of_x", "reservoir gas left of a line"),
+    Choice("reservoir_in_circle", "reservoir gas in a circle"))
 
 
 class ScenarioError(Refused):
@@ -165,8 +170,7 @@ class InitialModel(_Strict):
     reservoir_in_circle: fluid cells within radius_m of centre_m at the reservoir state (a burst charge).
     """
 
-    kind: Literal["ambient", "stream", "reservoir_upstream_of_x", "reservoir_in_circle"] = Field(
-        "ambient", title="initial state")
+    kind: literal(INITIAL_KINDS) = Field("ambient", title="initial state")  # type: ignore[valid-type]
     x_m: Optional[Metres] = Field(None, title="diaphragm position x")
     centre_m: Optional[Point] = Field(None, title="charge centre")
     radius_m: Optional[PositiveMetres] = Field(None, title="charge radius")
@@ -461,7 +465,7 @@ def vocabulary() -> dict:
     """
     tables = {"order": ORDERS, "limiter": LIMITERS, "flux": FLUXES, "integrator": INTEGRATOR_CHOICES,
               "edge": EDGES, "paint": PAINTS, "mirror": MIRRORS, "preset": PRESET_CHOICES, "mode": MODES,
-              "role": ROLES}
+              "role": ROLES, "initial": INITIAL_KINDS}
     return {"choices": {what: [c.to_dict() for c in t.values()] for what, t in tables.items()},
             "limits": numeric_limits(Scenario)}
 

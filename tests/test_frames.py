@@ -62,6 +62,11 @@ def test_auto_and_fixed_colour_range():
     lo, hi = frames.colour_range(np.full((2, 2), 7.0), None)
     assert lo < 7.0 < hi  # a flat field still gets a usable range
     assert frames.colour_range(np.full((2, 2), np.nan), None) == (0.0, 1.0)
+    # issue 12: a uniform field (to round-off) gets +-1 % around its value, not a sliver of 1e-6
+    noisy = 5.0e4 * (1.0 + 1e-9 * np.array([[0.0, 1.0], [-1.0, 0.5]]))
+    assert frames.colour_range(noisy, None) == pytest.approx((4.95e4, 5.05e4))
+    assert frames.colour_range(np.zeros((2, 2)), None) == (0.0, 1.0)
+    assert frames.colour_range(np.array([[5.0e4, 5.001e4]]), None) == (5.0e4, 5.001e4)  # a real 0.02 % wave stays
     header, _ = frames.decode_frame(frames.encode_frame(field, "mach", 16, 16, (0.5, 4.0), 0.0, 0))
     assert (header.min_value, header.max_value) == (0.5, 4.0)
 

@@ -458,7 +458,8 @@ def test_every_message_type_of_the_protocol_has_a_model():
     documented = {"add_shape", "remove_shape", "undo", "redo", "clear_sketch", "set_mirror", "set_gas",
                   "set_conditions", "set_numerics", "set_resolution", "set_domain", "set_edges", "set_mode", "run",
                   "pause", "reset_flow", "step", "add_station", "remove_station", "add_probe", "remove_probe",
-                  "set_view", "inspect", "profile", "save_scenario", "load_scenario", "list_scenarios", "export"}
+                  "set_view", "inspect", "profile", "save_scenario", "load_scenario", "list_scenarios", "export",
+                  "clear_all", "set_initial", "delete_scenario", "list_exports", "delete_export"}
     assert set(protocol.MESSAGE_TYPES) == documented
     text = (protocol.__file__.rsplit("/", 1)[0] + "/PROTOCOL.md")
     with open(text, encoding="utf-8") as f:
@@ -569,3 +570,96 @@ def test_a_kept_scenario_that_no_longer_validates_is_refused_in_plain_words(serv
     assert err["field"] == "name" and err["value"] == "hand edited"
     assert "cannot be opened" in err["message"] and "internal error" not in err["message"]
     still_alive(ws)
+
+
+# ----------------------------------------------------------------------------- issue 12: the first hour of a new user
+
+def test_scenario_messages_say_whether_the_scenario_is_edited(ws):
+    assert ws.hello["edited"] is False and ws.hello["origin"] == "protocol duct"
+    sc = ask(ws, {"type": "set_conditions", "reservoir": {"p0_pa": 2.5e5}}, "scenario")
+    assert sc["edited"] is True and sc["scenario"]["name"] == "protocol duct edited"
+    assert "p0 250 kPa" in sc["scenario"]["description"]  # the description carries the current value
+    sc = ask(ws, {"type": "undo"}, "scenario")
+    assert sc["edited"] is False and sc["scenario"]["name"] == "protocol duct"
+
+
+def test_undo_takes_back_a_station_a_probe_and_a_setting(ws):
+    ask(ws, {"type": "add_probe", "name": "P5", "x_m": 0.25, "y_m": 0.05}, "scenario")
+    ask(ws, {"type": "set_numerics", "cfl": 0.3}, "scenario")
+    status = receive(ws, "status")
+    assert status["undo_depth"] == 2
+    assert ask(ws, {"type": "undo"}, "scenario")["scenario"]["numerics"]["cfl"] != 0.3
+    assert [p["name"] for p in ask(ws, {"type": "undo"}, "scenario")["scenario"]["probes"]] == ["p1"]
+    assert [p["name"] for p in ask(ws, {"type": "redo"}, "scenario")["scenario"]["probes"]] == ["p1", "P5"]
+
+
+def test_clear_all_and_set_initial(ws):
+    sc = ask(ws, {"type": "set_initial", "kind": "reservoir_upstream_of_x", "x_m": 0.1}, "scenario")
+    assert sc["scenario"]["initial"] == {"kind": "reservoir_upstream_of_x", "x_m": 0.1}
+    err = refused(ws, {"type": "set_initial", "kind": "reservoir_upstream_of_x"})
+    assert err["field"] == "x_m"
+    err = refused(ws, {"type": "set_initial", "kind": "lava"})
+    assert err["field"] == "kind" and "reservoir_in_circle" in err["allowed"]
+    sc = ask(ws, {"type": "clear_all"}, "scenario")["scenario"]
+    assert (sc["sketch"]["shapes"], sc["stations"], sc["probes"], sc["initial"]) == ([], [], [], {"kind": "ambient"})
+    sc = ask(ws, {"type": "undo"}, "scenario")["scenario"]
+    assert sc["stations"][0]["name"] == "mid" and sc["initial"]["kind"] == "reservoir_upstream_of_x"
+
+
+def test_kept_scenarios_can_be_deleted_but_not_built_ins(ws):
+    ask(ws, {"type": "save_scenario", "name": "to go"}, "saved")
+    listing = ask(ws, {"type": "delete_scenario", "name": "to go"}, "scenario_list")
+    assert {"name": "to go"} not in listing["saved"]
+    err = refused(ws, {"type": "delete_scenario", "name": "to go"})
+    assert err["field"] == "name" and err["value"] == "to go"
+    err = refused(ws, {"type": "delete_scenario", "name": scn.DEFAULT_SCENARIO})
+    assert err["field"] == "name" and "built-in" in err["message"]
+    for name in ("../current", "a/b", " lead"):
+        assert refused(ws, {"type": "delete_scenario", "name": name})["field"] == "name"
+
+
+def test_saving_renames_the_scenario_on_screen(ws):
+    ask(ws, {"type": "set_numerics", "cfl": 0.3}, "scenario")
+    ws.send_json({"type": "save_scenario", "name": "kept one", "id": "k"})
+    receive(ws, "saved", "k")
+    sc = receive(ws, "scenario", "k")
+    assert sc["scenario"]["name"] == "kept one" and sc["edited"] is False
+
+
+def test_exports_are_listed_and_deleted(server, ws, tmp_path):
+    made = [ask(ws, {"type": "export", "what": what}, "export_ready")["filename"] for what in ("scenario", "csv")]
+    files = ask(ws, {"type": "list_exports"}, "export_list")["files"]
+    assert sorted(f["name"] for f in files) == sorted(made)
+    assert {f["what"] for f in files} == {"scenario", "csv"} and all(f["bytes"] > 0 for f in files)
+    after = ask(ws, {"type": "delete_export", "name": made[0]}, "export_list")["files"]
+    assert [f["name"] for f in after] == [made[1]]
+    assert server.get(f"/exports/{made[0]}").status_code == 404
+    err = refused(ws, {"type": "delete_export", "name": "../current.json"})
+    assert err["field"] == "name"
+    assert (tmp_path / "data" / "current.json").is_file()  # never any other file
+    assert ask(ws, {"type": "delete_export", "all": True}, "export_list")["files"] == []
+    assert refused(ws, {"type": "delete_export"})["field"] == "name"
+
+
+def test_a_tab_that_joins_late_gets_the_histories_and_why_the_run_stopped(server, ws):
+    ws.send_json({"type": "step", "count": 6})
+    for _ in range(MAX_READS):
+        if receive(ws, "status")["steps"] >= 6:
+            break
+    session = server.app.state.parts.session
+    rho, u, v, p = session.sim.primitive()
+    u[8, 40] = 1e150  # an absurd velocity: the next step overflows (see the divergence test above)
+    session.sim.set_primitive(rho, u, v, p)
+    ws.send_json({"type": "step", "count": 1})
+    receive(ws, "diverged")
+    with server.websocket_connect(WS) as late:
+        assert late.receive_json()["type"] == "hello"
+        history = late.receive_json()
+        assert history["type"] == "history" and history["limit"] >= 100
+        probe = history["probes"]["p1"]
+        assert len(probe["time_s"]) >= 2 and len(probe["time_s"]) == len(probe["p_pa"]) == len(probe["mach"])
+        assert probe["time_s"] == sorted(probe["time_s"]) and probe["time_s"][-1] > 0
+        station = history["stations"]["mid"]
+        assert len(station["time_s"]) == len(station["mass_flow_kg_s"]) >= 2
+        diverged = late.receive_json()
+        assert diverged["type"] == "diverged" and diverged["advice"]

@@ -360,3 +360,99 @@ def test_step_stops_after_its_wall_time_budget_but_always_takes_one_step(session
     assert advanced.steps == 1 and session.sim.steps == 1
     advanced = session.step(5)
     assert advanced.steps == 5 and session.sim.steps == 6
+
+
+# ----------------------------------------------------------------------------- issue 12: whole-scenario undo, edited marker
+
+def test_undo_and_redo_cover_stations_probes_and_settings(session):
+    session.add_station("S9", [0.3, 0.0], [0.3, 0.1])
+    session.add_probe("P9", 0.35, 0.05)
+    session.set_conditions(reservoir={"p0_pa": 5.0e5})
+    session.set_numerics(cfl=0.3)
+    session.set_resolution(48)
+    assert session.undo_depth == 5
+    session.undo()
+    assert session.scenario.domain.nx == 64 and session.sim.domain.nx == 64  # the flow follows the scenario
+    session.undo()
+    assert session.scenario.numerics.cfl != 0.3 and session.sim.setup.numerics.cfl == session.scenario.numerics.cfl
+    session.undo()
+    assert session.scenario.conditions.reservoir.p0_pa == 3.0e5
+    assert session.sim.setup.conditions.reservoir.p0_pa == 3.0e5
+    session.undo()
+    assert [p.name for p in session.scenario.probes] == ["p1"]
+    session.undo()
+    assert [s.name for s in session.scenario.stations] == ["mid"]
+    assert session.redo_depth == 5
+    session.redo()
+    session.redo()
+    assert [p.name for p in session.scenario.probes] == ["p1", "P9"]
+    session.redo()
+    assert session.sim.setup.conditions.reservoir.p0_pa == 5.0e5
+
+
+def test_an_edited_scenario_says_so_and_its_description_holds_the_current_values(session, saved):
+    assert not session.edited and session.scenario.name == "test duct"
+    session.set_conditions(reservoir={"p0_pa": 3.0e6})
+    session.set_gas(gamma=1.3)
+    assert session.edited and session.scenario.name == "test duct edited"
+    text = session.scenario.description
+    assert "Edited from 'test duct'" in text and "p0 3000 kPa" in text and "gamma 1.3" in text
+    assert saved[-1].name == "test duct edited" and saved[-1].description == text  # what is written to disk
+    session.undo()
+    session.undo()  # back to what was loaded: no longer edited
+    assert not session.edited and session.scenario.name == "test duct"
+    assert session.scenario.description == "tiny duct for server tests"
+
+
+def test_kept_under_a_name_is_no_longer_edited(session):
+    session.set_conditions(reservoir={"p0_pa": 4.0e5})
+    session.kept_as("my duct")
+    assert session.scenario.name == "my duct" and not session.edited
+    session.set_numerics(cfl=0.3)
+    assert session.scenario.name == "my duct edited"
+
+
+def test_clear_all_empties_shapes_stations_probes_and_starting_gas_and_can_be_undone(session):
+    session.set_initial("reservoir_upstream_of_x", x_m=0.2)
+    session.step(2)
+    session.clear_all()
+    sc = session.scenario
+    assert sc.sketch.shapes == [] and sc.stations == [] and sc.probes == [] and sc.initial.kind == "ambient"
+    assert session.sim.steps == 0 and not (session.sim.mask != CellKind.FLUID).any()
+    session.undo()
+    assert len(session.scenario.sketch.shapes) == 1 and session.scenario.initial.kind == "reservoir_upstream_of_x"
+    assert session.scenario.stations[0].name == "mid" and session.scenario.probes[0].name == "p1"
+
+
+def test_set_initial_starts_the_flow_from_the_new_starting_gas(session):
+    session.step(1)
+    session.set_initial("reservoir_in_circle", centre_m=[0.3, 0.05], radius_m=0.02)
+    assert session.sim.steps == 0
+    p = session.inspect(0.3, 0.05)["p_pa"]
+    assert p == pytest.approx(3.0e5)  # the reservoir's p0, held in the circle at the start
+    assert session.inspect(0.38, 0.09)["p_pa"] == pytest.approx(1.0e5)  # ambient outside it
+    with pytest.raises(RequestError) as info:
+        session.set_initial("reservoir_in_circle", centre_m=[0.3, 0.05])
+    assert info.value.field == "radius_m"
+    assert session.scenario.initial.radius_m == 0.02  # refused: nothing changed
+
+
+def test_setting_the_same_value_again_is_not_an_undo_step(session):
+    session.set_conditions(reservoir={"p0_pa": 5.0e5})
+    session.set_conditions(reservoir={"p0_pa": 5.0e5})  # a form sends its value again when it loses focus
+    assert session.undo_depth == 1
+    session.undo()
+    assert session.scenario.conditions.reservoir.p0_pa == 3.0e5
+
+
+def test_undo_of_a_new_mode_or_domain_brings_the_flow_back_to_match(session):
+    session.set_domain(0.0, 0.5, 0.0, 0.1)
+    assert session.sim.domain.x_max_m == 0.5
+    session.set_mode("axisymmetric")
+    assert session.scenario.edges.bottom == "axis"
+    session.undo()
+    assert session.scenario.mode == "planar" and session.sim.setup.mode == "planar"
+    assert session.scenario.edges.bottom == "wall"
+    session.undo()
+    assert session.sim.domain.x_max_m == 0.4 and session.scenario.domain.x_max_m == 0.4
+    assert not session.edited

@@ -9,26 +9,51 @@ export function niceTicks(lo, hi, count = 6) {
   if (!(hi > lo) || !Number.isFinite(lo) || !Number.isFinite(hi)) return [lo];
   const raw = (hi - lo) / Math.max(1, count);
   const power = Math.pow(10, Math.floor(Math.log10(raw)));
-  const step = [1, 2, 2.5, 5, 10].map((m) => m * power).find((s) => s >= raw) || 10 * power;
-  const first = Math.ceil(lo / step), last = Math.floor(hi / step);
-  // a span too small for the numbers' precision gives no usable steps: show the ends
-  if (!(step > 0) || !(Math.max(Math.abs(first), Math.abs(last)) < 1e12) || last - first > 50 || last < first) return [lo, hi];
-  const ticks = [];
-  for (let n = first; n <= last; n++) ticks.push(n === 0 ? 0 : n * step);
-  return ticks;
+  // the round steps around the raw one, smallest first: 1, 2, 2.5, 5 times a power of ten
+  const steps = [];
+  for (const p of [power / 10, power, power * 10]) for (const m of [1, 2, 2.5, 5]) steps.push(m * p);
+  let k = steps.findIndex((s) => s >= raw * (1 - 1e-12));
+  for (; k >= 0; k--) {
+    const step = steps[k];
+    // a hair of tolerance, so that 0.7 / 0.1 = 6.999... still puts a tick on the end at 0.7
+    const first = Math.ceil(lo / step - 1e-9), last = Math.floor(hi / step + 1e-9);
+    // a span too small for the numbers' precision gives no usable steps: show the ends
+    if (!(step > 0) || !(Math.max(Math.abs(first), Math.abs(last)) < 1e12) || last - first > 50) return [lo, hi];
+    if (last - first < 1) continue;  // fewer than two ticks: take the next smaller round step
+    const ticks = [];
+    for (let n = first; n <= last; n++) ticks.push(n === 0 ? 0 : n * step);
+    return ticks;
+  }
+  return [lo, hi];
 }
 
-/** Tick labels with as many decimals as the tick step needs; large or tiny ones as 2.5e6. */
+/** Whether every label, read back as a number, is its tick to well within the step. */
+function exact(ticks, labels, step) {
+  return labels.every((text, n) => Math.abs(Number(text) - ticks[n]) <= 1e-6 * step);
+}
+
+/**
+ * Tick labels with as many digits as the ticks need and no more: 0.25, 0.75, 1.25 for steps of 0.25
+ * (never 0.3, 0.8, 1.3); large or tiny ones as 2.5e6. Minus signs are typographic (−).
+ */
 export function tickLabels(ticks) {
   if (ticks.length < 2) return ticks.map((t) => num(t, 4));
   const step = Math.abs(ticks[1] - ticks[0]);
   const top = Math.max(...ticks.map(Math.abs));
+  const minus = (text) => text.replace(/-/g, "−");
+  let labels = null;
   if (top >= 1e5 || (top > 0 && top < 1e-3)) {
-    const digits = Math.max(1, Math.min(4, Math.round(Math.log10(top / step)) + 1));
-    return ticks.map((t) => (t === 0 ? "0" : t.toExponential(digits - 1).replace("e+", "e").replace(/-/g, "−")));
+    for (let digits = 1; digits <= 12 && !labels; digits++) {
+      const out = ticks.map((t) => (t === 0 ? "0" : t.toExponential(digits - 1).replace("e+", "e")));
+      if (exact(ticks, out, step)) labels = out;
+    }
+  } else {
+    for (let decimals = 0; decimals <= 12 && !labels; decimals++) {
+      const out = ticks.map((t) => t.toFixed(decimals));
+      if (exact(ticks, out, step)) labels = out;
+    }
   }
-  const decimals = Math.max(0, Math.min(6, -Math.floor(Math.log10(step) + 1e-9)));
-  return ticks.map((t) => t.toFixed(decimals).replace("-", "−"));
+  return (labels || ticks.map((t) => String(t))).map((t) => minus(t === "-0" ? "0" : t));
 }
 
 /** Size a canvas's backing store to its CSS size times the pixel ratio; returns a cleared context in CSS pixels. */
@@ -68,6 +93,7 @@ export function drawColourBar(canvas, mapName, minShown, maxShown) {
   const span = maxShown - minShown;
   const ticks = span > 0 ? niceTicks(minShown, maxShown, Math.max(2, Math.floor(barW / 70))) : [minShown];
   const labels = tickLabels(ticks);
+  canvas.dataset.ticks = labels.join(" ");
   ticks.forEach((t, n) => {
     const x = pad + (span > 0 ? ((t - minShown) / span) * barW : barW / 2);
     ctx.beginPath();

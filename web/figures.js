@@ -19,10 +19,51 @@ function percentOff(sim, ideal) {
   return ` (${d >= 0 ? "+" : "−"}${Math.abs(d).toFixed(1)}%)`;
 }
 
-/** Top bar: time, state, rates. `tabFps` is what this tab actually drew. */
-export function showClock(status, tabFps) {
+/**
+ * Flow time gained per wall-clock second, measured from the statuses this tab received over the last
+ * few seconds (null until two statuses of a running flow are in hand).
+ */
+export class Pace {
+  constructor(windowMs = 3000) {
+    this.windowMs = windowMs;
+    this.samples = [];
+  }
+
+  add(status, nowMs) {
+    if (status.state !== "running") { this.samples = []; return; }
+    const last = this.samples[this.samples.length - 1];
+    if (last && status.time_s < last[1]) this.samples = [];  // the flow started again
+    this.samples.push([nowMs, status.time_s]);
+    while (this.samples.length > 2 && nowMs - this.samples[0][0] > this.windowMs) this.samples.shift();
+  }
+
+  /** Seconds of flow per second of wall time, or null. */
+  value() {
+    if (this.samples.length < 2) return null;
+    const [w0, t0] = this.samples[0], [w1, t1] = this.samples[this.samples.length - 1];
+    return w1 > w0 ? (t1 - t0) / ((w1 - w0) / 1000) : null;
+  }
+}
+
+/**
+ * Whether the flow has settled, from the status: shown only when the server sends the boolean field
+ * `steady` (a steady-state check on the residual; the slot hides while the status has no such field).
+ */
+export function showSteady(status) {
+  const box = $("#fig-steady-box");
+  const steady = status.steady;
+  box.hidden = typeof steady !== "boolean";
+  if (box.hidden) return;
+  $("#fig-steady").textContent = steady ? "steady" : "settling";
+  $("#fig-steady").dataset.steady = String(steady);
+}
+
+/** Top bar: flow time, pace, state, settled or not; the solver figures (behind a toggle) too. */
+export function showClock(status, tabFps, pace = null) {
   $("#fig-time").textContent = U.simTime(status.time_s);
+  $("#fig-pace").textContent = pace == null ? "–" : `${U.simTime(pace)}/s`;
   $("#fig-state").textContent = status.state;
+  showSteady(status);
   $("#fig-steps").textContent = U.rate(status.steps_per_s || 0, "");
   $("#fig-cells").textContent = U.rate(status.cell_updates_per_s || 0, "");
   $("#fig-frames").textContent = `${U.num(tabFps, 3)} (server ${U.num(status.frames_per_s || 0, 3)})`;
@@ -47,6 +88,8 @@ function pairCell(simText, idealText, offText) {
 export function showStations(status, mode) {
   const body = $("#station-table tbody");
   body.replaceChildren();
+  // one unit for the whole area column, chosen by the largest area
+  const areaUnit = U.areaUnit((status.stations || []).map((st) => st.area_m2));
   for (const st of status.stations || []) {
     const tr = document.createElement("tr");
     const ideal = st.ideal || null;
@@ -59,7 +102,7 @@ export function showStations(status, mode) {
         has("ideal_thrust_n") && percentOff(st.thrust_n, ideal.ideal_thrust_n)),
       pairCell(U.num(st.mean_mach, 3), has("ideal_exit_mach") && U.num(ideal.ideal_exit_mach, 3)),
       cell(U.pressure(st.mean_pressure_pa)),
-      pairCell(U.area(st.area_m2), has("area_ratio") && `A/A* ${U.num(ideal.area_ratio, 3)}`),
+      pairCell(U.area(st.area_m2, areaUnit), has("area_ratio") && `A/A* ${U.num(ideal.area_ratio, 3)}`),
     );
     tr.dataset.station = st.name;
     body.append(tr);
@@ -160,29 +203,67 @@ export function showLists(app) {
   );
 }
 
-/** Probe time histories for the plot strip, cleared when time runs backwards (reset flow). */
+const val = (v) => (v == null ? NaN : v);
+const STATION_KEYS = ["mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa"];
+
+/**
+ * Probe and station time histories for the plot strip: seeded from the server's `history` when the tab
+ * joins (so a tab opened later sees what happened before), then one sample per status; cleared when
+ * time runs backwards (reset flow).
+ */
 export class Histories {
   constructor(limit = 3000) {
     this.limit = limit;
     this.byName = new Map();
+    this.stations = new Map();
     this.lastTime = -Infinity;
   }
 
+  /** Take the server's `history` message (columns per probe and station). */
+  seed(msg) {
+    this.byName.clear();
+    this.stations.clear();
+    this.lastTime = -Infinity;
+    for (const [name, c] of Object.entries(msg.probes || {})) {
+      this.byName.set(name, {
+        t: c.time_s.slice(), p_pa: c.p_pa.map(val), t_k: c.t_k.map(val), rho_kg_m3: c.rho_kg_m3.map(val),
+        mach: c.mach.map(val), speed: c.u_m_s.map((u, k) => (u == null || c.v_m_s[k] == null ? NaN : Math.hypot(u, c.v_m_s[k]))),
+      });
+      this.lastTime = Math.max(this.lastTime, c.time_s[c.time_s.length - 1] ?? -Infinity);
+    }
+    for (const [name, c] of Object.entries(msg.stations || {})) {
+      const h = { t: c.time_s.slice() };
+      for (const k of STATION_KEYS) h[k] = c[k].map(val);
+      this.stations.set(name, h);
+      this.lastTime = Math.max(this.lastTime, c.time_s[c.time_s.length - 1] ?? -Infinity);
+    }
+  }
+
+  trim(h) {
+    if (h.t.length > this.limit) for (const k in h) h[k].splice(0, h[k].length - this.limit);
+  }
+
   add(status) {
-    if (status.time_s < this.lastTime) this.byName.clear();
+    if (status.time_s < this.lastTime) { this.byName.clear(); this.stations.clear(); }
     if (status.time_s === this.lastTime) return;
     this.lastTime = status.time_s;
     for (const pr of status.probes || []) {
       if (!this.byName.has(pr.name)) this.byName.set(pr.name, { t: [], p_pa: [], t_k: [], rho_kg_m3: [], mach: [], speed: [] });
       const h = this.byName.get(pr.name);
       h.t.push(status.time_s);
-      const val = (v) => (v == null ? NaN : v);
       h.p_pa.push(val(pr.p_pa));
       h.t_k.push(val(pr.t_k));
       h.rho_kg_m3.push(val(pr.rho_kg_m3));
       h.mach.push(val(pr.mach));
       h.speed.push(pr.u_m_s == null ? NaN : Math.hypot(pr.u_m_s, pr.v_m_s));
-      if (h.t.length > this.limit) for (const k in h) h[k].splice(0, h[k].length - this.limit);
+      this.trim(h);
+    }
+    for (const st of status.stations || []) {
+      if (!this.stations.has(st.name)) this.stations.set(st.name, Object.fromEntries([["t", []], ...STATION_KEYS.map((k) => [k, []])]));
+      const h = this.stations.get(st.name);
+      h.t.push(status.time_s);
+      for (const k of STATION_KEYS) h[k].push(val(st[k]));
+      this.trim(h);
     }
   }
 }

@@ -55,7 +55,17 @@ export function setupFiles(app) {
   });
   $("#scenario-pick").addEventListener("change", () => {
     const opt = $("#scenario-pick").selectedOptions[0];
-    $("#scenario-description").textContent = (opt && opt.dataset.description) || "";
+    const onScreen = app.scenario && opt && opt.value === app.scenario.name;
+    // the description of another scenario than the one on screen, to choose by
+    $("#scenario-description").textContent = (!onScreen && opt && opt.dataset.description) || "";
+    $("#scenario-delete").disabled = !(opt && opt.dataset.kept === "true");
+  });
+  $("#scenario-delete").addEventListener("click", () => {
+    const opt = $("#scenario-pick").selectedOptions[0];
+    if (!opt || opt.dataset.kept !== "true") return;
+    if (window.confirm(`Delete the kept scenario “${opt.value}” from this machine?`)) {
+      app.send("delete_scenario", { name: opt.value });
+    }
   });
 
   $("#save-server").addEventListener("click", () => {
@@ -70,27 +80,64 @@ export function setupFiles(app) {
   $("#export-png").addEventListener("click", () => app.exportPicture());
   $("#export-npz").addEventListener("click", () => app.send("export", { what: "npz" }));
   $("#export-csv").addEventListener("click", () => app.send("export", { what: "csv" }));
+  $("#export-delete-all").addEventListener("click", () => {
+    if (window.confirm("Delete every export file made on this machine?")) app.send("delete_export", { all: true });
+  });
 }
 
-/** Fill the scenario picker from a `scenario_list` message. */
-export function showScenarioList(msg) {
+function bytesText(n) {
+  if (n >= 1e6) return `${(n / 1e6).toFixed(1)} MB`;
+  if (n >= 1e3) return `${(n / 1e3).toFixed(1)} kB`;
+  return `${n} B`;
+}
+
+/** The export files the server keeps, from an `export_list` message: download or delete each. */
+export function showExportList(app, msg) {
+  const files = msg.files || [];
+  $("#export-keep").textContent = files.length ? `(${files.length}; the newest ${msg.keep} are kept)` : "(none)";
+  $("#export-list").replaceChildren(...files.map((f) => {
+    const li = document.createElement("li");
+    li.dataset.name = f.name;
+    const when = new Date(f.modified_s * 1000).toLocaleTimeString();
+    const a = Object.assign(document.createElement("a"), {
+      href: withToken(f.url), textContent: `${f.what} · ${bytesText(f.bytes)} · ${when}`, title: f.name,
+    });
+    a.download = f.name;
+    const del = Object.assign(document.createElement("button"), { textContent: "delete", title: `delete ${f.name}` });
+    del.addEventListener("click", () => app.send("delete_export", { name: f.name }));
+    li.append(a, del);
+    return li;
+  }));
+  $("#export-delete-all").hidden = files.length === 0;
+}
+
+/** Fill the scenario picker from a `scenario_list` message; it starts at the scenario on screen. */
+export function showScenarioList(msg, current) {
   const pick = $("#scenario-pick");
-  const keep = pick.value;
   pick.replaceChildren();
-  const group = (label, items) => {
+  const group = (label, items, kept) => {
     if (!items || !items.length) return;
     const g = document.createElement("optgroup");
     g.label = label;
     for (const it of items) {
       const o = new Option(it.name, it.name);
       o.dataset.description = it.description || "";
+      o.dataset.kept = String(kept);
       g.append(o);
     }
     pick.append(g);
   };
-  group("built in", msg.builtin);
-  group("kept on this machine", msg.saved);
-  if (keep && Array.from(pick.options).some((o) => o.value === keep)) pick.value = keep;
+  group("built in", msg.builtin, false);
+  group("kept on this machine", msg.saved, true);
+  syncScenarioPick(current);
+}
+
+/** Point the picker at the scenario on screen (or what it was loaded from), when the list has it. */
+export function syncScenarioPick(current) {
+  const pick = $("#scenario-pick");
+  const names = Array.from(pick.options).map((o) => o.value);
+  const want = [current && current.name, current && current.origin].find((n) => n && names.includes(n));
+  if (want) pick.value = want;
   pick.dispatchEvent(new Event("change"));
 }
 

@@ -5,11 +5,12 @@
 import { DEFAULT_MAP, DIVERGING, MAPS, frameLookup, setMaps } from "./colourmaps.js";
 import { drawColourBar } from "./colourbar.js";
 import { Connection } from "./connection.js";
-import { Histories, showClock, showLists, showProbes, showReadout, showStations } from "./figures.js";
-import { fetchExport, safeName, setupFiles, showScenarioList, download } from "./files.js";
+import { Histories, Pace, showClock, showLists, showProbes, showReadout, showStations } from "./figures.js";
+import { fetchExport, safeName, setupFiles, showExportList, showScenarioList, syncScenarioPick, download } from "./files.js";
+import { fillInitial, setupInitial } from "./initial.js";
 import { decodeFrame } from "./frame.js";
 import { Placement } from "./geometry.js";
-import { drawArrows, drawAxis, drawProbes, drawShape, drawSketch, drawSonicLine, drawStations, STATION_COLOUR } from "./overlays.js";
+import { drawArrows, drawAxis, drawInitial, drawProbes, drawShape, drawSketch, drawSonicLine, drawStations, STATION_COLOUR } from "./overlays.js";
 import { applyLimits, fillChoices, fillPanels, setupPanels } from "./panels.js";
 import { drawPlot } from "./plotstrip.js";
 import { SketchTools } from "./sketch.js";
@@ -52,6 +53,10 @@ const app = {
   paints: "wall",
   place: null,
   histories: new Histories(),
+  pace: new Pace(),
+  edited: false,
+  origin: null,
+  labelBoxes: [],
   profile: null,
   profileTimer: null,
   drawQueued: false,
@@ -231,11 +236,14 @@ function drawPicture() {
     if (place.mirrorBelowAxis) drawAxis(ctx, place);
     if ($("#ov-sonic").checked) drawSonicLine(ctx, place, app.overlay.sonic_line);
     if ($("#ov-arrows").checked) drawArrows(ctx, place, app.overlay.arrows);
-    if ($("#ov-outline").checked) drawSketch(ctx, place, sc.sketch, sc.domain);
-    if ($("#ov-marks").checked) {
-      drawStations(ctx, place, sc.stations);
-      drawProbes(ctx, place, sc.probes);
+    if ($("#ov-outline").checked) {
+      drawSketch(ctx, place, sc.sketch, sc.domain);
+      drawInitial(ctx, place, sc.initial, sc.domain);
     }
+    if ($("#ov-marks").checked) {
+      app.labelBoxes = drawStations(ctx, place, sc.stations, []);
+      drawProbes(ctx, place, sc.probes);
+    } else app.labelBoxes = [];
   }
   const draft = app.tools && app.tools.draft;
   if (draft) {
@@ -257,7 +265,7 @@ function updateColourBar() {
   $("#range-unit").textContent = unit;
   if (!held && f) {
     for (const [id, v] of [["#range-min", lo], ["#range-max", hi]]) {
-      if (document.activeElement !== $(id)) $(id).value = U.plain(v, 4);
+      if (document.activeElement !== $(id)) $(id).value = U.compact(v, 4);
     }
   }
 }
@@ -432,6 +440,7 @@ function setupTools() {
   $("#undo").addEventListener("click", () => app.send("undo"));
   $("#redo").addEventListener("click", () => app.send("redo"));
   $("#clear-sketch").addEventListener("click", () => app.send("clear_sketch"));
+  $("#clear-all").addEventListener("click", () => app.send("clear_all"));
   $("#mirror").addEventListener("change", (ev) => app.send("set_mirror", { mirror: ev.target.value }));
 }
 
@@ -498,6 +507,7 @@ function fillSources() {
   const opts = [];
   for (const pr of sc.probes || []) opts.push([`probe:${pr.name}`, `probe ${pr.name} over time`]);
   for (const st of sc.stations || []) opts.push([`station:${st.name}`, `along station ${st.name}`]);
+  for (const st of sc.stations || []) opts.push([`stationt:${st.name}`, `station ${st.name} over time`]);
   opts.push(["axis", sc.mode === "axisymmetric" ? "along the axis" : "along y = 0"]);
   sel.replaceChildren(...opts.map(([v, t]) => new Option(t, v)));
   if (opts.some(([v]) => v === keep)) sel.value = keep;
@@ -510,7 +520,9 @@ function fillQuantities() {
   const src = $("#plot-source").value || "";
   const opts = src.startsWith("probe:")
     ? [["p_pa", "pressure"], ["t_k", "temperature"], ["rho_kg_m3", "density"], ["mach", "Mach number"], ["speed", "speed"]]
-    : [["mach", "Mach number"], ["p_pa", "pressure"]];
+    : src.startsWith("stationt:")
+      ? [["mass_flow_kg_s", "mass flow"], ["thrust_n", "thrust"], ["mean_mach", "mean Mach number"], ["mean_pressure_pa", "mean pressure"]]
+      : [["mach", "Mach number"], ["p_pa", "pressure"]];
   sel.replaceChildren(...opts.map(([v, t]) => new Option(t, v)));
   if (opts.some(([v]) => v === keep)) sel.value = keep;
 }
@@ -524,12 +536,13 @@ function requestProfile() {
 function quantityLabel(q) {
   return {
     p_pa: `pressure, ${U.getPressureUnit()}`, t_k: "temperature, K", rho_kg_m3: "density, kg/m³",
-    mach: "Mach number", speed: "speed, m/s",
+    mach: "Mach number", speed: "speed, m/s", mass_flow_kg_s: "mass flow, kg/s", thrust_n: "thrust, N",
+    mean_mach: "mean Mach number", mean_pressure_pa: `mean pressure, ${U.getPressureUnit()}`,
   }[q];
 }
 
 function quantityScale(q) {
-  return q === "p_pa" ? U.PRESSURE_UNITS[U.getPressureUnit()] : 1;
+  return q === "p_pa" || q === "mean_pressure_pa" ? U.PRESSURE_UNITS[U.getPressureUnit()] : 1;
 }
 
 /** Isentropic static pressure for a Mach number from the reservoir's p0 and the gas's gamma. */
@@ -547,7 +560,13 @@ function drawStrip() {
   if (src.startsWith("probe:")) {
     const h = app.histories.byName.get(src.slice(6));
     const series = h ? [{ name: src.slice(6), xs: h.t.map((t) => t * 1e3), ys: h[q].map((v) => v / scale) }] : [];
-    drawPlot(canvas, series, { xLabel: "sim time, ms", yLabel: quantityLabel(q) }, "no history yet: run the flow");
+    drawPlot(canvas, series, { xLabel: "flow time, ms", yLabel: quantityLabel(q) }, "no history yet: run the flow");
+    return;
+  }
+  if (src.startsWith("stationt:")) {
+    const h = app.histories.stations.get(src.slice(9));
+    const series = h && h[q] ? [{ name: src.slice(9), xs: h.t.map((t) => t * 1e3), ys: h[q].map((v) => v / scale), colour: STATION_COLOUR }] : [];
+    drawPlot(canvas, series, { xLabel: "flow time, ms", yLabel: quantityLabel(q) }, "no history yet: run the flow");
     return;
   }
   const pr = app.profile;
@@ -562,7 +581,8 @@ function drawStrip() {
     const ideal = q === "mach" ? pr.ideal_mach : pr.ideal_mach.map((m) => (m == null ? NaN : isentropicP(m) / scale));
     series.push({ name: "isentropic 1D", xs, ys: ideal.map((v) => (v == null ? NaN : v)), dashed: true, colour: "#c9d1d9" });
   }
-  drawPlot(canvas, series, { xLabel: src === "axis" ? "x along the axis, mm" : "distance along the station, mm", yLabel: quantityLabel(q) });
+  const axisLabel = app.scenario.mode === "axisymmetric" ? "x along the axis, mm" : "x along y = 0, mm";
+  drawPlot(canvas, series, { xLabel: src === "axis" ? axisLabel : "distance along the station, mm", yLabel: quantityLabel(q) });
 }
 
 // ------------------------------------------------------------------ picture export
@@ -591,13 +611,27 @@ app.exportPicture = () => {
 
 // ------------------------------------------------------------------ incoming messages
 
-function takeScenario(scenario, revision) {
+function takeScenario(scenario, revision, edited, origin) {
   const before = app.scenario;
   app.scenario = scenario;
   if (revision !== undefined) app.revision = revision;
+  app.edited = !!edited;
+  app.origin = origin || scenario.name;
+  // the scenario on screen: its name, whether it was changed since loading, and its description
   $("#scenario-name").textContent = scenario.name;
+  $("#scenario-name").title = scenario.description || "the scenario on screen";
+  $("#current-name").textContent = scenario.name;
+  $("#current-description").textContent = scenario.description || "(no description)";
+  for (const id of ["#scenario-edited", "#current-edited"]) $(id).hidden = !app.edited;
   $("#save-name").placeholder = scenario.name;
+  // point the open list at the scenario on screen when that changes (not at every edit: a pick stays)
+  const shown = `${scenario.name}\n${app.origin}`;
+  if (shown !== app.pickSynced) {
+    app.pickSynced = shown;
+    syncScenarioPick({ name: scenario.name, origin: app.origin });
+  }
   fillPanels(app);
+  fillInitial(app);
   showLists(app);
   fillSources();
   const d0 = before && before.domain, d1 = scenario.domain;
@@ -625,22 +659,28 @@ function onMessage(msg) {
       takeColourMaps(msg.colour_maps);
       showRunState(msg.state || "paused");
       app.lastSize = "";
-      takeScenario(msg.scenario, msg.revision);
+      takeScenario(msg.scenario, msg.revision, msg.edited, msg.origin);
       app.send("list_scenarios");
+      app.send("list_exports");
       break;
     }
+    case "history":
+      app.histories.seed(msg);
+      drawStrip();
+      break;
     case "scenario":
-      takeScenario(msg.scenario, msg.revision);
+      takeScenario(msg.scenario, msg.revision, msg.edited, msg.origin);
       for (const el of $$(".invalid")) el.classList.remove("invalid");
       break;
     case "status":
       app.status = msg;
       if (msg.state !== app.state) showRunState(msg.state);
-      showClock(msg, tabFps());
+      app.pace.add(msg, performance.now());
+      showClock(msg, tabFps(), app.pace.value());
       showStations(msg, app.scenario && app.scenario.mode);
       showProbes(msg);
       app.histories.add(msg);
-      if (($("#plot-source").value || "").startsWith("probe:")) drawStrip();
+      if (/^(probe|stationt):/.test($("#plot-source").value || "")) drawStrip();
       if (app.hover && app.state === "running") requestInspect();
       break;
     case "overlay":
@@ -663,7 +703,10 @@ function onMessage(msg) {
       showDiverged(msg);
       break;
     case "scenario_list":
-      showScenarioList(msg);
+      showScenarioList(msg, { name: app.scenario && app.scenario.name, origin: app.origin });
+      break;
+    case "export_list":
+      showExportList(app, msg);
       break;
     case "saved":
       app.showMessage(`Kept as “${msg.name}”.`, "note");
@@ -671,6 +714,7 @@ function onMessage(msg) {
       break;
     case "export_ready":
       fetchExport(msg);
+      app.send("list_exports");
       break;
     default:
       break;
@@ -685,7 +729,22 @@ function onLinkState(state, detail) {
 
 // ------------------------------------------------------------------ start
 
+/** The solver figures in the top bar, shown on request (remembered in this browser). */
+function setupExpert() {
+  const box = $("#show-expert");
+  const show = (on) => { for (const el of $$(".clock .expert")) el.hidden = !on; };
+  box.checked = localStorage.getItem("shockslate.expert") === "true";
+  show(box.checked);
+  box.addEventListener("change", () => {
+    localStorage.setItem("shockslate.expert", String(box.checked));
+    show(box.checked);
+  });
+}
+
 function start() {
+  setupExpert();
+  setupInitial(app);
+  showReadout({});
   setupViewControls();
   setupTools();
   setupRunControls();

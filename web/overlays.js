@@ -121,7 +121,32 @@ function label(ctx, text, x, y, colour) {
 export const STATION_COLOUR = "#ffd447";
 export const PROBE_COLOUR = "#ff6b8b";
 
-export function drawStations(ctx, place, stations) {
+const LABEL_FONT = "12px system-ui, sans-serif";
+const LABEL_H = 15;
+
+/**
+ * Where a label goes: near (x, y) (its baseline), kept inside the picture and moved down, row by row,
+ * off the labels already placed. `placed` collects the boxes {x, y, w, h, text} (top-left corner).
+ */
+export function placeLabel(ctx, place, text, x, y, placed) {
+  ctx.save();
+  ctx.font = LABEL_FONT;
+  const w = ctx.measureText(text).width + 2;
+  ctx.restore();
+  const maxX = Math.max(2, place.widthPx - w - 2);
+  let bx = Math.min(Math.max(2, x), maxX);
+  let top = Math.min(Math.max(2, y - 12), place.heightPx - LABEL_H);
+  const hits = (t) => placed.some((b) => bx < b.x + b.w && b.x < bx + w && t < b.y + b.h && b.y < t + LABEL_H);
+  for (let n = 0; n < 40 && hits(top); n++) {
+    top += LABEL_H;
+    if (top > place.heightPx - LABEL_H) { top = 2; bx = Math.min(bx + 12, maxX); }
+  }
+  const box = { x: bx, y: top, w, h: LABEL_H, text };
+  placed.push(box);
+  return box;
+}
+
+export function drawStations(ctx, place, stations, placed = []) {
   for (const st of stations || []) {
     const a = px(place, st.start_m), b = px(place, st.end_m);
     ctx.save();
@@ -143,8 +168,48 @@ export function drawStations(ctx, place, stations) {
     }
     ctx.restore();
     const top = a[1] < b[1] ? a : b;
-    label(ctx, st.role && st.role !== st.name ? `${st.name} (${st.role})` : st.name, top[0] + 4, top[1] - 5, STATION_COLOUR);
+    const text = st.role && st.role !== st.name ? `${st.name} (${st.role})` : st.name;
+    const box = placeLabel(ctx, place, text, top[0] + 4, top[1] - 5, placed);
+    label(ctx, text, box.x, box.y + 12, STATION_COLOUR);
   }
+  return placed;
+}
+
+/** The starting gas region of the scenario (`initial`), dashed, so the fill the flow starts from is seen. */
+export function drawInitial(ctx, place, initial, domain) {
+  if (!initial || (initial.kind !== "reservoir_upstream_of_x" && initial.kind !== "reservoir_in_circle")) return;
+  ctx.save();
+  ctx.strokeStyle = PAINT_COLOURS.reservoir;
+  ctx.fillStyle = PAINT_COLOURS.reservoir;
+  ctx.lineWidth = 1.5;
+  ctx.setLineDash([8, 5]);
+  let lx, ly;
+  if (initial.kind === "reservoir_upstream_of_x") {
+    const [x, yTop] = place.toPx(initial.x_m, domain.y_max_m);
+    const [, yBottom] = place.toPx(initial.x_m, place.mirrorBelowAxis ? -domain.y_max_m : domain.y_min_m);
+    ctx.beginPath();
+    ctx.moveTo(x, yTop);
+    ctx.lineTo(x, yBottom);
+    ctx.stroke();
+    [lx, ly] = [x - 4, yTop + 14];
+    ctx.textAlign = "right";
+  } else {
+    const [cx, cy] = place.toPx(initial.centre_m[0], initial.centre_m[1]);
+    ctx.beginPath();
+    ctx.arc(cx, cy, initial.radius_m / place.metresPerPx, 0, 2 * Math.PI);
+    ctx.stroke();
+    [lx, ly] = [cx, cy - initial.radius_m / place.metresPerPx - 4];
+    ctx.textAlign = "center";
+  }
+  ctx.font = LABEL_FONT;
+  ctx.setLineDash([]);
+  ctx.lineWidth = 3;
+  ctx.strokeStyle = "rgba(10, 14, 20, 0.85)";
+  const text = "starting reservoir gas";
+  ly = Math.max(12, ly);
+  ctx.strokeText(text, lx, ly);
+  ctx.fillText(text, lx, ly);
+  ctx.restore();
 }
 
 export function drawProbes(ctx, place, probes) {

@@ -11,6 +11,7 @@ export const SERIES_COLOURS = ["#ffd447", "#52d0f0", "#ff6b8b", "#8fe07e", "#c9b
  */
 export function drawPlot(canvas, series, axes, emptyText = "nothing to plot yet") {
   const { ctx, w, h } = fitCanvas(canvas);
+  canvas.dataset.xlabel = (axes && axes.xLabel) || "";
   ctx.font = "11px system-ui, sans-serif";
   const left = 58, right = 10, top = 10, bottom = 30;
   const pw = w - left - right, ph = h - top - bottom;

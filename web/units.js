@@ -37,6 +37,18 @@ export function plain(value, digits = 7) {
   return String(Number(value.toPrecision(digits)));
 }
 
+/**
+ * A number for a range box, whole in a few characters: 4 significant figures, exponent form
+ * (4.739e9, valid in a number input) for large and small magnitudes, so the box never cuts it off.
+ */
+export function compact(value, digits = 4) {
+  if (!Number.isFinite(value)) return "";
+  const r = Number(value.toPrecision(digits));
+  const a = Math.abs(r);
+  if (a !== 0 && (a >= 1e5 || a < 1e-3)) return r.toExponential().replace("e+", "e");
+  return String(r);
+}
+
 /** Display conversion of a view's SI unit: {unit, scale} so that shown = si / scale. */
 export function displayUnit(siUnit) {
   switch (siUnit) {
@@ -86,10 +98,15 @@ export function length(m, digits = 4) {
   return `${num(m * 1e3, digits)} mm`;
 }
 
-export function area(m2) {
+/** The one area unit for a set of areas (a table column): m² when the largest is 0.01 m² or more, else mm². */
+export function areaUnit(values) {
+  const top = Math.max(0, ...values.filter((v) => !missing(v)).map(Math.abs));
+  return top >= 1e-2 ? "m²" : "mm²";
+}
+
+export function area(m2, unit = areaUnit([m2])) {
   if (missing(m2)) return "–";
-  if (Math.abs(m2) >= 1e-2) return `${num(m2, 4)} m²`;
-  return `${num(m2 * 1e6, 4)} mm²`;
+  return unit === "m²" ? `${num(m2, 4)} m²` : `${num(m2 * 1e6, 4)} mm²`;
 }
 
 /** Sim time: µs, ms or s, whichever reads best. */
