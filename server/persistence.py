@@ -179,13 +179,13 @@ class ScenarioStore:
         check_name(name)
         if name in scn.builtin_names():
             raise ScenarioNameError("name", name, "the name of a kept scenario (built-ins cannot be deleted)",
-                                    f"{name!r} is a built-in scenario; only scenarios kept on this machine can be "
+                                    f"The scenario {name!r} is built in; only scenarios kept on this machine can be "
                                     "deleted.")
         path = self.saved_path(name)
         if not path.is_file():
             raise ScenarioNameError("name", name, "the name of a kept scenario (see list_scenarios)",
                                     f"There is no kept scenario named {name!r}"
-                                    f"{did_you_mean(name, self.saved_names())}")
+                                    f"{did_you_mean(name, self.saved_names()) or '.'}")
         path.unlink()
 
     def saved_names(self) -> list[str]:

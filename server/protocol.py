@@ -333,7 +333,8 @@ class DeleteExport(_Message):
     @model_validator(mode="after")
     def _one_of(self) -> "DeleteExport":
         if (self.name is None) == (not self.all):
-            raise RequestError("name", self.name, "either the name of an export file or all: true, not both")
+            raise RequestError("name", self.name, "either the name of an export file or all: true, not both",
+                               "Name one export file to delete, or ask for all of them, not both.")
         return self
 
 
