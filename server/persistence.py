@@ -179,7 +179,7 @@ class ScenarioStore:
         check_name(name)
         if name in scn.builtin_names():
             raise ScenarioNameError("name", name, "the name of a kept scenario (built-ins cannot be deleted)",
-                                    f"The scenario {name!r} is built in; only scenarios kept on this machine can be "
+                                    f"The scenario {name!r} is a built-in; only scenarios kept on this machine can be "
                                     "deleted.")
         path = self.saved_path(name)
         if not path.is_file():
