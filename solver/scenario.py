@@ -287,7 +287,41 @@ class Scenario(_Strict):
         for n, pr in enumerate(self.probes):
             if not _inside(dom, pr.x_m, pr.y_m):
                 raise _outside(f"probes[{n}]", [pr.x_m, pr.y_m], f"probe {pr.name}", dom)
+        _check_sketch_reach(self.sketch, dom)
         return self
+
+
+#: How far beyond the domain a drawn point may lie, in domain sizes (the larger of width and height). Shapes are
+#: clipped to the domain before they are painted, so the reach only keeps coordinates meaningful; common practice,
+#: no source.
+SKETCH_REACH = 10.0
+
+
+def _check_sketch_reach(sketch, dom: DomainModel) -> None:
+    """Every drawn point within SKETCH_REACH domain sizes of the domain, every width and radius within that size."""
+    size = max(dom.x_max_m - dom.x_min_m, dom.y_max_m - dom.y_min_m)
+    reach = SKETCH_REACH * size
+    x0, x1, y0, y1 = dom.x_min_m - reach, dom.x_max_m + reach, dom.y_min_m - reach, dom.y_max_m + reach
+    box = (f"x {show_value(x0)} to {show_value(x1, 'm')}, y {show_value(y0)} to {show_value(y1, 'm')}")
+    for n, shape in enumerate(sketch.shapes):
+        where = f"sketch.shapes[{n}]"
+        for name in ("points_m", "start_m", "end_m", "corner_a_m", "corner_b_m", "centre_m"):
+            value = getattr(shape, name, None)
+            if value is None:
+                continue
+            points = value if name == "points_m" else [value]
+            for k, (x, y) in enumerate(points):
+                if not (x0 <= x <= x1 and y0 <= y <= y1):
+                    field = f"{where}.{name}[{k}]" if name == "points_m" else f"{where}.{name}"
+                    raise Invalid(field, [x, y], "near_domain", f"a point within {SKETCH_REACH:g} domain sizes of "
+                                  f"the domain: {box}", f"A drawn point must lie within {SKETCH_REACH:g} domain "
+                                  f"sizes of the domain ({box}); you gave {show_value([x, y])}.")
+        for name in ("width_m", "radius_m"):
+            value = getattr(shape, name, None)
+            if value is not None and value > reach:
+                raise Invalid(f"{where}.{name}", value, "at_most", f"at most {show_value(reach, 'm')}",
+                              f"A {name[:-2]} must be at most {SKETCH_REACH:g} domain sizes "
+                              f"({show_value(reach, 'm')}); you gave {show_value(value, 'm')}.")
 
 
 # ----------------------------------------------------------------------------- parsing
