@@ -102,7 +102,9 @@ class ScenarioStore:
     def save_current(self, scenario: scn.Scenario) -> None:
         """Write the current scenario; AutosaveFailed (a plain sentence, no Python wording) when it cannot be."""
         try:
-            write_atomically(self.current_path, scn.scenario_to_json(scenario))
+            # compact: the autosave is rewritten on every change, and a big sketch's indented JSON takes seconds
+            text = json.dumps(scn.scenario_to_dict(scenario), separators=(",", ":")) + "\n"
+            write_atomically(self.current_path, text)
         except OSError as err:
             reason = err.strerror or "the file could not be written"
             raise AutosaveFailed(
