@@ -140,6 +140,8 @@ def axis_figure(axis: dict[str, np.ndarray], throat_x_m: float):
 
 
 def _fmt(value: Any) -> str:
+    if value is None:
+        return "-"
     if isinstance(value, float):
         return "-" if math.isnan(value) else f"{value:.5g}"
     return html.escape(str(value))
@@ -188,6 +190,26 @@ img { max-width: 100%; }
 """
 
 
+def _steady_parts(st: dict | None) -> list[str]:
+    """Station readings averaged over the window, with their unsteadiness (+- half the range), and the residual."""
+    if not st or not st.get("window") or not st["window"].get("samples"):
+        return []
+    w = st["window"]
+    parts = [f"<h2>Stations averaged from t = {_fmt(w['from_s'])} s to {_fmt(w['to_s'])} s ({w['samples']} samples)"
+             "</h2><table><tr><th>station</th><th>mass flow [kg/s]</th><th>thrust [N]</th><th>mean Mach [-]</th>"
+             "<th>mean pressure [Pa]</th></tr>"]
+    for name, q in w["stations"].items():
+        cells = "".join(f"<td>{_fmt(q[k]['mean'])} &plusmn; {_fmt(q[k]['plus_minus'])}</td>"
+                        for k in ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa"))
+        parts.append(f"<tr><td>{html.escape(name)}</td>{cells}</tr>")
+    parts.append("</table>")
+    settled = "settled" if st["settled"] else ("not settled" if st["until"] == "steady" else "run to a set time")
+    parts.append(f"<p>Steady state: {settled}; density residual {_fmt(st['residual'])} (fraction of the mass "
+                 f"changing per acoustic transit of {_fmt(st['transit_s'])} s; tolerance {_fmt(st['tolerance'])}); "
+                 f"station mass-flow imbalance {_fmt(st['mass_imbalance'])}.</p>")
+    return parts
+
+
 def write_report(path: str | Path, summary: dict, description: str, sim: Simulation, view: str,
                  history: dict[str, np.ndarray] | None, axis: dict[str, np.ndarray] | None = None) -> Path:
     """report.html: run figures, the last snapshot, history plots and, for a nozzle, theory beside simulation."""
@@ -214,6 +236,7 @@ def write_report(path: str | Path, summary: dict, description: str, sim: Simulat
         parts.append("</table>")
         if summary["mode"] == "planar":
             parts.append("<p>Planar mode: mass flow, thrust and areas are per metre of depth.</p>")
+        parts.extend(_steady_parts(summary.get("steady")))
     nozzle = summary.get("nozzle")
     if nozzle:
         parts.append("<h2>Nozzle performance against ideal 1D theory</h2>")
