@@ -9,6 +9,8 @@ Sources:
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 
@@ -70,3 +72,73 @@ def test_gas_drawn_in_through_an_ambient_edge_enters_at_the_ambient_stagnation_s
     p0 = p * (1.0 + 0.5 * (AIR.gamma - 1.0) * mach2) ** (AIR.gamma / (AIR.gamma - 1.0))
     t0 = p / (rho * AIR.r_j_kg_k) * (1.0 + 0.5 * (AIR.gamma - 1.0) * mach2)
     assert p0 == pytest.approx(1.0e5, rel=1e-9) and t0 == pytest.approx(300.0, rel=1e-9)
+
+
+def _shock_area_ratio_from_exit_pressure(pe_p0: float, ae_astar: float, gamma: float = 1.4) -> float:
+    """Area ratio A_s / A* of the normal shock that gives exit pressure pe in a nozzle of exit ratio Ae / A*.
+
+    [A] ch. 5 (the worked method, from memory): pe Ae / (p0 A*) = pe Ae / (p02 A2*) fixes the subsonic exit
+    Mach number Me through (1 / Me) (2 / (g + 1))^((g + 1) / (2 (g - 1))) (1 + (g - 1) / 2 Me^2)^(-1/2);
+    then p02 = pe / (p / p0)(Me), p02 / p01 gives the shock Mach number, and the area-Mach relation its place.
+    """
+    from shockslate.solver import relations
+
+    g = gamma
+    target = pe_p0 * ae_astar
+
+    def excess(m):
+        return (1.0 / m) * (2.0 / (g + 1.0)) ** ((g + 1.0) / (2.0 * (g - 1.0))) \
+            * (1.0 + 0.5 * (g - 1.0) * m * m) ** -0.5 - target
+
+    lo, hi = 1e-6, 1.0
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if excess(mid) > 0.0 else (lo, mid)
+    p02_p01 = pe_p0 / float(relations.p_p0(lo, g))
+    lo, hi = 1.0, 10.0
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if float(relations.normal_shock(mid, g).p02_p01) > p02_p01 else (lo, mid)
+    return float(relations.area_ratio(lo, g))
+
+
+def test_normal_shock_held_by_the_back_pressure_settles_where_quasi_1d_theory_puts_it():
+    # Gas from a reservoir (r < r*) flows out radially between two parallel discs (axisymmetric mode, walls at
+    # x = 0 and x = h, aligned with the grid): the flow area 2 pi r h grows with r, so it chokes at r* and
+    # expands supersonically, and an ambient edge at r_e = 3 r* holds a back pressure of 0.6 p0, between the
+    # shock-at-exit and subsonic limits ([A] ch. 5), which a normal shock inside must satisfy. The flow is
+    # exactly one-dimensional in r, so quasi-1D theory applies with A / A* = r / r*.
+    from shockslate.solver import relations
+    from shockslate.solver.conditions import Reservoir
+    from shockslate.solver.kinds import CellKind
+
+    h, r_star, r_e, p0, t0 = 0.02, 0.02, 0.06, 2.0e5, 300.0
+    dom = Domain(0.0, h, 0.0, r_e, 20)
+    mask = np.zeros(dom.shape, np.uint8)
+    j_star = int(round(r_star / dom.dx_m))
+    mask[:j_star, :] = CellKind.RESERVOIR
+    cond = Conditions(reservoir=Reservoir(p0_pa=p0, t0_k=t0), ambient=Ambient(p_pa=0.6 * p0, t_k=t0))
+    sim = Simulation(Setup(dom, mode="axisymmetric", edges=Edges(left="wall", right="wall", bottom="axis",
+                                                                 top="ambient"), conditions=cond), mask)
+    r = dom.y_centres_m()
+    samples = []
+    for k in range(10):
+        sim.run_until(1.5e-3 + 1.5e-4 * (k + 1))  # settled after about 1 ms; sample the next 1.5 ms
+        rho, u, v, p = (q.mean(axis=1) for q in sim.primitive())
+        pf, rf = p[j_star:], r[j_star:]
+        ks = int(np.argmax(np.diff(pf)))
+        mid = 0.5 * (pf[ks - 1] + pf[ks + 2])  # the shock is where the pressure crosses halfway
+        kk = ks - 1
+        while pf[kk + 1] < mid:
+            kk += 1
+        r_s = rf[kk] + (mid - pf[kk]) / (pf[kk + 1] - pf[kk]) * (rf[kk + 1] - rf[kk])
+        p_exit = 0.5 * (p[-1] + sim.W[3, -2, 2:-2].mean())  # on the edge face: last cell and ghost
+        mdot = 2.0 * math.pi * r[j_star + 2] * h * rho[j_star + 2] * v[j_star + 2]
+        samples.append((r_s, p_exit, mdot))
+    r_s, p_exit, mdot = (np.array(c) for c in zip(*samples))
+    assert np.ptp(r_s) < 0.01 * r_s.mean()  # settled: the shock stands still
+    assert p_exit.mean() == pytest.approx(0.6 * p0, rel=0.005)  # [TH]: the outlet holds the ambient pressure
+    ideal = relations.choked_mass_flow_kg_s(p0, t0, 2.0 * math.pi * r_star * h, 1.4, AIR.r_j_kg_k)
+    assert mdot.mean() == pytest.approx(ideal, rel=0.02)  # choked at r* (Sutton and Biblarz ch. 3)
+    theory = _shock_area_ratio_from_exit_pressure(p_exit.mean() / p0, r_e / r_star)
+    assert r_s.mean() / r_star == pytest.approx(theory, rel=0.05)  # [A] ch. 5
