@@ -418,10 +418,10 @@ class Simulation:
         kernels.copy_state(self.U, self.U0)
         floors = 0
         res = self._held_prim[CellKind.RESERVOIR]
+        if flux == kernels.FLUX_HLLC:  # once a step: a shock moves less than a cell, the marks reach two beyond it
+            kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO)
         for a, b in num.tableau.stages:
             kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
-            if flux == kernels.FLUX_HLLC:
-                kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO)
             kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
             kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
             # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
