@@ -94,6 +94,7 @@ class Simulation:
         self.steps = 0
         self.floors_total = 0
         self.floors_last_step = 0
+        self.last_dt_s = 0.0
         self._allocate(setup.domain)
         self._set_kind(np.zeros(setup.domain.shape, np.uint8) if mask is None else mask)
         self._refresh_held()
@@ -438,6 +439,7 @@ class Simulation:
         self.floors_total += floors
         self.time_s += dt
         self.steps += 1
+        self.last_dt_s = dt
         if self._row_bad.any():
             self._diverged("non_finite")
         self._rate = max(float(self._row_rate.max()), self._held_rate)

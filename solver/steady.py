@@ -59,6 +59,18 @@ def _density_change(U, U0, kind):
     return change.sum(), total.sum()
 
 
+def live_residual(sim: Simulation) -> tuple[Optional[float], Optional[str]]:
+    """(residual figure, "settling" | "steady") of the last step, or (None, None) before a step. For the live
+    status: a single step's figure against DEFAULT_TOLERANCE, without the hold over a transit of SteadyMonitor."""
+    dt = getattr(sim, "last_dt_s", 0.0)
+    if not (sim.fluxes_current and dt > 0.0):
+        return None, None
+    r = density_residual_per_s(sim, dt) * transit_time_s(sim, present_only=False)
+    if not math.isfinite(r):
+        return None, None
+    return r, ("steady" if r < DEFAULT_TOLERANCE else "settling")
+
+
 def density_residual_per_s(sim: Simulation, dt_s: float) -> float:
     """The density residual of the step just taken (sim.step returned dt_s), in 1/s.
 
@@ -70,10 +82,13 @@ def density_residual_per_s(sim: Simulation, dt_s: float) -> float:
     return change / (total * dt_s) if total > 0.0 else math.nan
 
 
-def transit_time_s(sim: Simulation) -> float:
-    """x extent of the domain over the largest sound speed of the held states in use (or the gas now)."""
+def transit_time_s(sim: Simulation, present_only: bool = True) -> float:
+    """x extent of the domain over the largest sound speed of the held states in use (or the gas now).
+
+    present_only=False takes every held condition whether painted or not: no pass over the mask, for
+    a figure computed often (the live status)."""
     gamma = sim.setup.gas.gamma
-    present = [k for k in HELD_KINDS if (sim.kind == k).any()]
+    present = [k for k in HELD_KINDS if not present_only or (sim.kind == k).any()]
     speeds = [math.sqrt(gamma * sim._held_prim[k][3] / sim._held_prim[k][0]) for k in present]
     if not speeds:
         fluid = sim.mask == CellKind.FLUID

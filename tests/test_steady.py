@@ -134,3 +134,16 @@ def test_cli_until_steady(tmp_path, capsys):
     assert code == batch_cli.EXIT_OK and summary["status"] == "steady" and summary["steady"]["tolerance"] == 0.5
     assert "residual" in capsys.readouterr().out
     assert "&plusmn;" in (out / "report.html").read_text()
+
+
+def test_live_status_figures_settling_then_steady():
+    sim = Simulation(Setup(Domain(0.0, 1.0, 0.0, 0.25, 32), edges=Edges("wall", "wall", "wall", "wall")))
+    assert steady.live_residual(sim) == (None, None)  # no step yet
+    sim.step()
+    assert steady.live_residual(sim) == (0.0, "steady")  # still gas
+    x = sim.domain.x_centres_m()[None, :]
+    sim.set_primitive(np.where(x < 0.5, 2.0, 1.0), 0.0, 0.0, np.where(x < 0.5, 2.0e5, 1.0e5))
+    assert steady.live_residual(sim) == (None, None)  # a change: no step of this flow yet
+    sim.step()
+    r, flow = steady.live_residual(sim)
+    assert flow == "settling" and r > steady.DEFAULT_TOLERANCE
