@@ -1,7 +1,8 @@
 """The benchmark's bare kernel: the product's scheme with nothing else, as fast as numba makes it here.
 
 Planar, reflecting walls on all four edges as mirrored ghost cells, MUSCL (van Leer limiter) on primitive
-variables, HLLC with Davis wave speeds, SSP-RK2, CFL time step: the configuration `shockslate bench` times, with
+variables, HLLC with Davis wave speeds and HLL on the faces across strong shocks (the solver's shock switch, set
+once a step), SSP-RK2, CFL time step: the configuration `shockslate bench` times, with
 no cell kinds, wall orientations, held cells, hand-back or run-time choice of limiter and flux. It is the yardstick
 for `product_over_bare`: how much the product's generality costs. It is written the way
 shared measurements found fastest (inlined helpers, branch-free HLLC, 1-D row views, inner loops along the
@@ -14,6 +15,8 @@ import math
 
 import numpy as np
 from numba import njit, prange
+
+from shockslate.solver.kernels import SHOCK_PRESSURE_RATIO
 
 G = 2  # ghost cells
 _INLINE = dict(nogil=True, cache=True, error_model="numpy", inline="always")
@@ -62,6 +65,70 @@ def _hllc(rl, ul, vl, pl, rr, ur, vr, pr, gamma):
     return f0, f1, f2, f3
 
 
+@njit(**_INLINE)
+def _hll(rl, ul, vl, pl, rr, ur, vr, pr, gamma):
+    """HLL flux with Davis wave speeds (Harten, Lax and van Leer 1983)."""
+    gm1 = gamma - 1.0
+    al = math.sqrt(gamma * pl / rl)
+    ar = math.sqrt(gamma * pr / rr)
+    el = pl / gm1 + 0.5 * rl * (ul * ul + vl * vl)
+    er = pr / gm1 + 0.5 * rr * (ur * ur + vr * vr)
+    slm = min(min(ul - al, ur - ar), 0.0)
+    srp = max(max(ul + al, ur + ar), 0.0)
+    inv = 1.0 / (srp - slm)
+    sls = slm * srp
+    f0 = (srp * rl * ul - slm * rr * ur + sls * (rr - rl)) * inv
+    f1 = (srp * (rl * ul * ul + pl) - slm * (rr * ur * ur + pr) + sls * (rr * ur - rl * ul)) * inv
+    f2 = (srp * rl * ul * vl - slm * rr * ur * vr + sls * (rr * vr - rl * vl)) * inv
+    f3 = (srp * ul * (el + pl) - slm * ur * (er + pr) + sls * (er - el)) * inv
+    return f0, f1, f2, f3
+
+
+@njit(**_INLINE)
+def _flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, hll):
+    if hll:
+        return _hll(rl, ul, vl, pl, rr, ur, vr, pr, gamma)
+    return _hllc(rl, ul, vl, pl, rr, ur, vr, pr, gamma)
+
+
+@njit(**_PARALLEL)
+def _shock_switch(W, hll_x, hll_y, ratio):
+    """As the solver's shock switch on a box with no walls inside: a compressive five-cell pressure jump along x
+    marks a cell's y-faces (hll_y), along y its x-faces (hll_x); cells beyond the box count as the centre cell."""
+    nyp, nxp = W.shape[1], W.shape[2]
+    p, u, v = W[3], W[1], W[2]
+    for jj in prange(nyp):
+        for ii in range(nxp):
+            hll_x[jj, ii] = 0
+            hll_y[jj, ii] = 0
+        if jj < G or jj >= nyp - G:
+            continue
+        for ii in range(G, nxp - G):
+            pc = p[jj, ii]
+            lo = pc
+            hi = pc
+            for di in range(-2, 3):
+                i2 = ii + di
+                q = p[jj, i2] if G <= i2 < nxp - G else pc
+                lo = min(lo, q)
+                hi = max(hi, q)
+            ul = u[jj, ii - 2] if ii - 2 >= G else u[jj, ii]
+            uh = u[jj, ii + 2] if ii + 2 < nxp - G else u[jj, ii]
+            if hi > ratio * lo and uh < ul:
+                hll_y[jj, ii] = 1
+            lo = pc
+            hi = pc
+            for dj in range(-2, 3):
+                j2 = jj + dj
+                q = p[j2, ii] if G <= j2 < nyp - G else pc
+                lo = min(lo, q)
+                hi = max(hi, q)
+            vl = v[jj - 2, ii] if jj - 2 >= G else v[jj, ii]
+            vh = v[jj + 2, ii] if jj + 2 < nyp - G else v[jj, ii]
+            if hi > ratio * lo and vh < vl:
+                hll_x[jj, ii] = 1
+
+
 @njit(**_PARALLEL)
 def _primitive_and_ghosts(U, W, gamma):
     """W from U on the interior, then mirrored ghosts (normal velocity negated) on all four edges."""
@@ -92,11 +159,12 @@ def _primitive_and_ghosts(U, W, gamma):
 
 
 @njit(**_PARALLEL)
-def _x_fluxes(W, F, gamma):
+def _x_fluxes(W, F, gamma, hll_x):
     ny, nf = F.shape[1], F.shape[2]
     for j in prange(ny):
         jj = j + G
         r, u, v, p = W[0, jj], W[1, jj], W[2, jj], W[3, jj]
+        sw = hll_x[jj]
         f0, f1, f2, f3 = F[0, j], F[1, j], F[2, j], F[3, j]
         for f in range(nf):
             a, b, c, d = f, f + 1, f + 2, f + 3  # face f lies between padded cells f + 1 and f + 2
@@ -108,7 +176,7 @@ def _x_fluxes(W, F, gamma):
             ur = u[c] - 0.5 * _van_leer(u[c] - u[b], u[d] - u[c])
             vr = v[c] - 0.5 * _van_leer(v[c] - v[b], v[d] - v[c])
             pr = p[c] - 0.5 * _van_leer(p[c] - p[b], p[d] - p[c])
-            m0, m1, m2, m3 = _hllc(rl, ul, vl, pl, rr, ur, vr, pr, gamma)
+            m0, m1, m2, m3 = _flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, sw[b] != 0 or sw[c] != 0)
             f0[f] = m0
             f1[f] = m1
             f2[f] = m2
@@ -116,9 +184,10 @@ def _x_fluxes(W, F, gamma):
 
 
 @njit(**_PARALLEL)
-def _y_fluxes(W, H, gamma):
+def _y_fluxes(W, H, gamma, hll_y):
     nf, nx = H.shape[1], H.shape[2]
     for f in prange(nf):
+        sb, sc = hll_y[f + 1], hll_y[f + 2]
         ra, rb, rc, rd = W[0, f], W[0, f + 1], W[0, f + 2], W[0, f + 3]
         ua, ub, uc, ud = W[1, f], W[1, f + 1], W[1, f + 2], W[1, f + 3]
         va, vb, vc, vd = W[2, f], W[2, f + 1], W[2, f + 2], W[2, f + 3]
@@ -134,7 +203,8 @@ def _y_fluxes(W, H, gamma):
             ur = uc[k] - 0.5 * _van_leer(uc[k] - ub[k], ud[k] - uc[k])
             vr = vc[k] - 0.5 * _van_leer(vc[k] - vb[k], vd[k] - vc[k])
             pr = pc[k] - 0.5 * _van_leer(pc[k] - pb[k], pd[k] - pc[k])
-            m0, mn, mt, m3 = _hllc(rl, vl, ul, pl, rr, vr, ur, pr, gamma)  # v is normal to a y-face
+            m0, mn, mt, m3 = _flux(rl, vl, ul, pl, rr, vr, ur, pr, gamma,  # v is normal to a y-face
+                                   sb[k] != 0 or sc[k] != 0)
             h0[i] = m0
             h1[i] = mt
             h2[i] = mn
@@ -174,7 +244,8 @@ def _update(U, U0, F, H, a, b, dt, inv_dx, gamma, row_rate):
 class BareBox:
     """A closed box of gas advanced by the bare kernel; U is (4, ny + 4, nx + 4) like the solver's."""
 
-    def __init__(self, rho, u, v, p, dx_m: float, gamma: float = 1.4, cfl: float = 0.4):
+    def __init__(self, rho, u, v, p, dx_m: float, gamma: float = 1.4, cfl: float = 0.4,
+                 shock_ratio: float = SHOCK_PRESSURE_RATIO):
         ny, nx = rho.shape
         self.gamma, self.dx, self.cfl = gamma, dx_m, cfl
         self.U = np.ones((4, ny + 2 * G, nx + 2 * G))
@@ -186,6 +257,9 @@ class BareBox:
         self.F = np.zeros((4, ny, nx + 1))
         self.H = np.zeros((4, ny + 1, nx))
         self.row_rate = np.zeros(ny)
+        self.hll_x = np.zeros(self.U.shape[1:], np.uint8)
+        self.hll_y = np.zeros(self.U.shape[1:], np.uint8)
+        self.shock_ratio = shock_ratio
         c = np.sqrt(gamma * p / rho)
         self.rate = float(np.max(np.abs(u) + np.abs(v) + 2.0 * c)) / dx_m
         self.time_s = 0.0
@@ -193,10 +267,12 @@ class BareBox:
     def step(self) -> float:
         dt = self.cfl / self.rate
         self.U0[:] = self.U
-        for a, b in ((0.0, 1.0), (0.5, 0.5)):  # SSP-RK2 (Shu and Osher 1988)
+        for stage, (a, b) in enumerate(((0.0, 1.0), (0.5, 0.5))):  # SSP-RK2 (Shu and Osher 1988)
             _primitive_and_ghosts(self.U, self.W, self.gamma)
-            _x_fluxes(self.W, self.F, self.gamma)
-            _y_fluxes(self.W, self.H, self.gamma)
+            if stage == 0:  # the switch is set once a step, from the step's start
+                _shock_switch(self.W, self.hll_x, self.hll_y, self.shock_ratio)
+            _x_fluxes(self.W, self.F, self.gamma, self.hll_x)
+            _y_fluxes(self.W, self.H, self.gamma, self.hll_y)
             _update(self.U, self.U0, self.F, self.H, a, b, dt, 1.0 / self.dx, self.gamma, self.row_rate)
         self.rate = float(self.row_rate.max())
         self.time_s += dt

@@ -27,6 +27,7 @@ from shockslate.solver import scenario as scn
 from shockslate.solver.diagnostics import Station, read_probe, station_profile
 from shockslate.solver.domain import Domain
 from shockslate.solver.errors import SolverDiverged
+from shockslate.solver.kinds import HELD_KINDS, CellKind
 from shockslate.solver.gas import PRESETS, Gas
 from shockslate.solver.raster import rasterise
 from shockslate.solver.shapes import shape_from_dict
@@ -127,18 +128,35 @@ class FlowSnapshot:
         return self.domain.y_centres_m()
 
 
-def divergence_advice(numerics: scn.NumericsModel, conditions: scn.ConditionsModel) -> tuple[str, ...]:
-    """What to try after a divergence, given the numerics in use (lower CFL, first order, softer conditions)."""
-    advice = []
-    if numerics.cfl > 0.3:
-        advice.append(f"lower the CFL number (now {numerics.cfl:g}; try 0.3 or less)")
-    if numerics.order == 2:
-        advice.append("start the flow at first order (order 1), then switch back to second order")
-    if numerics.flux == "hllc":
-        advice.append("use the more dissipative HLL or Rusanov flux")
-    ratio = conditions.reservoir.p0_pa / conditions.ambient.p_pa
-    advice.append(f"soften the conditions: a smaller pressure ratio (p0 / p_amb is now {ratio:.3g}) "
+def divergence_advice(numerics: scn.NumericsModel, conditions: scn.ConditionsModel, reason: str = "non_finite",
+                      held: frozenset[str] = frozenset({"reservoir"})) -> tuple[str, ...]:
+    """What to try after a divergence, most likely cause first.
+
+    `reason` is SolverDiverged.reason; `held` names the held kinds in the flow ("reservoir", "stream",
+    "ambient"), so the conditions advice speaks of what this scenario has. A growing wave speed or a
+    collapsing time step points at the time step first; floors in many cells point at the conditions
+    (an expansion towards vacuum) first.
+    """
+    cfl = (f"lower the CFL number (now {numerics.cfl:g}; try 0.3 or less)" if numerics.cfl > 0.3 else None)
+    order = ("start the flow at first order (order 1), then switch back to second order"
+             if numerics.order == 2 else None)
+    flux = "use the more dissipative HLL or Rusanov flux" if numerics.flux == "hllc" else None
+    if "reservoir" in held:
+        ratio = conditions.reservoir.p0_pa / conditions.ambient.p_pa
+        soften = (f"soften the conditions: a smaller pressure ratio (p0 / p_amb is now {ratio:.3g}) "
                   "or temperature jump, then raise it while the flow runs")
+    elif "stream" in held:
+        soften = (f"soften the conditions: a lower stream Mach number (now {conditions.stream.mach:g}), "
+                  "then raise it while the flow runs")
+    else:
+        soften = "soften the conditions: a smaller pressure or temperature jump in the initial state"
+    if reason == "floors":
+        ordered = [soften, order, cfl, flux]
+    elif reason in ("wave_speed_jump", "time_step_collapse") or numerics.cfl > 0.5:
+        ordered = [cfl, order, flux, soften]
+    else:
+        ordered = [order, cfl, flux, soften]
+    advice = [a for a in ordered if a]
     advice.append("reset the flow to start again from the initial state")
     return tuple(advice)
 
@@ -279,8 +297,10 @@ class Session:
     def _diverged(self, err: SolverDiverged, done: int, start: float) -> Advanced:
         self._transition("diverge")
         self.flow_version += 1
+        held = frozenset(k.name.lower() for k in HELD_KINDS if (self.sim.kind == k).any())
         self.divergence = Divergence(str(err), err.step, err.time_s, err.x_m, err.y_m, err.variable,
-                                     divergence_advice(self.scenario.numerics, self.scenario.conditions))
+                                     divergence_advice(self.scenario.numerics, self.scenario.conditions,
+                                                       getattr(err, "reason", "non_finite"), held))
         return Advanced(done, time.perf_counter() - start, self.divergence)
 
     def reset_flow(self) -> None:
@@ -591,9 +611,21 @@ class Session:
     def inspect(self, x_m: float, y_m: float) -> dict:
         """All values in the cell under a point (the `inspect` reply)."""
         self._check_inside(x_m, y_m)
-        r = read_probe(self.sim, x_m, y_m)
-        return {"type": "inspect", "x_m": x_m, "y_m": y_m, "kind": r.kind, "p_pa": r.p_pa,
-                "rho_kg_m3": r.rho_kg_m3, "t_k": r.t_k, "u_m_s": r.u_m_s, "v_m_s": r.v_m_s, "mach": r.mach}
+        try:
+            r = read_probe(self.sim, x_m, y_m)
+            values = (r.kind, r.p_pa, r.rho_kg_m3, r.t_k, r.u_m_s, r.v_m_s, r.mach)
+        except (ArithmeticError, ValueError):
+            # a bad state (zero or negative pressure or density): show the raw cell, derived values unknown
+            values = self._raw_cell(x_m, y_m)
+        kind, p_pa, rho, t_k, u, v, mach = values
+        return {"type": "inspect", "x_m": x_m, "y_m": y_m, "kind": kind, "p_pa": p_pa,
+                "rho_kg_m3": rho, "t_k": t_k, "u_m_s": u, "v_m_s": v, "mach": mach}
+
+    def _raw_cell(self, x_m: float, y_m: float) -> tuple:
+        j, i = self.sim.domain.cell_index(x_m, y_m)
+        rho, u, v, p = (float(self.sim.W[c, j + 2, i + 2]) for c in range(4))
+        kind = str(CellKind(int(self.sim.mask[j, i])).name.lower())
+        return kind, p, rho, None, u, v, None
 
     def profile(self, station: str | None = None, axis: bool = False) -> dict:
         """Values along a station, or along the axis with the ideal 1D Mach number beside them."""

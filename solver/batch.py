@@ -25,7 +25,7 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Callable, Optional
 
-from . import export, nozzle, nozzle_report, report, separation
+from . import export, nozzle, nozzle_report, report, separation, steady
 from .diagnostics import read_probe, read_station, station_profile
 from .errors import SolverDiverged
 from .fields import VIEWS
@@ -36,7 +36,7 @@ from .suggest import did_you_mean
 #: Keys every summary.json has (the nozzle block is null unless the scenario is a reservoir-fed nozzle).
 SUMMARY_KEYS = ("scenario", "description", "status", "message", "sim_time_s", "end_time_s", "steps", "wall_s",
                 "cell_updates_per_s", "resolution", "mode", "stations", "probes", "snapshots", "history_rows",
-                "floors_total", "nozzle", "caution", "files")
+                "floors_total", "nozzle", "steady", "caution", "files")
 #: Keys of each station entry of summary.json.
 STATION_KEYS = ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa", "area_m2")
 #: History samples per run, at most (plus one per snapshot).
@@ -107,8 +107,16 @@ def _finite(value: float) -> Optional[float]:
 def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: float | None = None,
                  steps: int | None = None, nx: int | None = None, every_s: float | None = None,
                  view: str = "mach", progress: Callable[[Progress], None] | None = print_progress,
-                 write_fields: bool = True, write_pictures: bool = True, progress_interval_s: float = 1.0) -> dict:
+                 write_fields: bool = True, write_pictures: bool = True, progress_interval_s: float = 1.0,
+                 until_steady: bool = False, tolerance: float = steady.DEFAULT_TOLERANCE,
+                 mass_tolerance: float = steady.DEFAULT_MASS_TOLERANCE) -> dict:
     """Run a scenario headless to until_s (default: its end_time_s) or for `steps` steps, whichever comes first.
+
+    With until_steady the run stops as soon as the flow is steady (solver.steady: the residual below
+    `tolerance` for one transit time and the station mass flows within `mass_tolerance` of each other);
+    until_s is then the time limit, and a run that reaches it unsettled ends with status "unsteady".
+    Station readings averaged over a window (the last transit time of a steady run, else the last fifth
+    of the run) with their unsteadiness (+-) go into summary["steady"]; history.csv carries the residual.
 
     nx overrides the resolution; every_s is the interval of field files and snapshots (default a tenth of the
     run); view is one of solver.fields.VIEWS. progress(Progress) is called every progress_interval_s of wall
@@ -131,6 +139,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
 
     sim = build_simulation(s, nx)
     scenario_json = scenario_to_json(s)
+    monitor = steady.SteadyMonitor(sim, tolerance, mass_tolerance)
     stations = to_stations(s)
     probes = list(s.probes)
     history = export.HistoryWriter(out / "history.csv", [st.name for st in stations], [p.name for p in probes])
@@ -142,11 +151,20 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     files: list[str] = ["summary.json", "history.csv", "report.html"]
 
     sampled_at = [-1]
+    last_dt = [0.0]
+    sample_times: list[float] = []
+    sample_readings: list[list] = []
 
     def sample() -> None:
         sampled_at[0] = sim.steps
-        history.write(sim.time_s, sim.steps, [read_station(sim, st) for st in stations],
-                      [read_probe(sim, p.x_m, p.y_m) for p in probes])
+        readings = [read_station(sim, st) for st in stations]
+        monitor.check(readings)
+        residual = None
+        if sim.fluxes_current and last_dt[0] > 0.0:
+            residual = steady.density_residual_per_s(sim, last_dt[0]) * monitor.transit_s
+        sample_times.append(sim.time_s)
+        sample_readings.append(readings)
+        history.write(sim.time_s, sim.steps, readings, [read_probe(sim, p.x_m, p.y_m) for p in probes], residual)
 
     def snapshot() -> None:
         k = len(snapshots)
@@ -178,9 +196,15 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
             if dt <= 0.0:
                 status, message = "stalled", "time step is zero (no fluid cells or no wave speed)"
                 break
+            last_dt[0] = dt
+            if until_steady:
+                monitor.after_step(dt)
             if sim.time_s >= next_sample * (1.0 - 1e-12):
                 sample()
                 next_sample = (math.floor(sim.time_s / history_dt) + 1) * history_dt
+                if until_steady and monitor.steady:  # decided at samples, where the mass balance is read
+                    status = "steady"
+                    break
             if sim.time_s >= next_snapshot * (1.0 - 1e-12) and sim.time_s < until * (1.0 - 1e-12):
                 snapshot()
                 next_snapshot += every
@@ -195,6 +219,11 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     finally:
         stop.restore()
     wall = time.perf_counter() - start
+    if until_steady and status == "finished":
+        status = "unsteady"
+        imb = "none" if monitor.imbalance is None else f"{monitor.imbalance:.3g}"
+        message = (f"the flow did not settle by the time limit {until:.6g} s: residual {monitor.residual:.3g} "
+                   f"(tolerance {tolerance:g}), station mass-flow imbalance {imb} (tolerance {mass_tolerance:g})")
 
     # end-of-run files from the last good state
     if not snapshots or snapshots[-1]["steps"] != sim.steps:
@@ -202,6 +231,9 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     if sampled_at[0] != sim.steps:
         sample()
     history.close()
+    window_from = (sim.time_s - monitor.transit_s if status == "steady"
+                   else sim.time_s - steady.WINDOW_FRACTION * sim.time_s)
+    averaged = steady.window_average(sample_times, sample_readings, [st.name for st in stations], window_from)
     for st in stations:
         name = f"station_{_safe(st.name)}.csv"
         export.write_station_csv(out / name, [(st.name, station_profile(sim, st))])
@@ -226,6 +258,12 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         "history_rows": history.rows,
         "floors_total": sim.floors_total,
         "nozzle": None,
+        "steady": {"until": "steady" if until_steady else "time", "settled": status == "steady",
+                   "tolerance": tolerance, "mass_tolerance": mass_tolerance, "transit_s": _finite(monitor.transit_s),
+                   "residual": _finite(steady.density_residual_per_s(sim, last_dt[0]) * monitor.transit_s
+                                       if sim.fluxes_current and last_dt[0] > 0.0 else math.nan),
+                   "mass_imbalance": None if monitor.imbalance is None else _finite(monitor.imbalance),
+                   "window": averaged},
         "caution": report.CAUTION,
         "files": files,
     }

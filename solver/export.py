@@ -188,13 +188,14 @@ def write_station_csv(path: str | Path, profiles: Iterable[tuple[str, dict[str, 
 
 
 def history_header(station_names: Sequence[str], probe_names: Sequence[str]) -> list[str]:
-    """Columns of history.csv: time_s, step, then "<station>:<quantity>" and "<probe>:<quantity>"."""
+    """Columns of history.csv: time_s, step, then "<station>:<quantity>" and "<probe>:<quantity>", and last the
+    residual (solver.steady: the fraction of the mass changing per transit; empty where unknown)."""
     cols = ["time_s", "step"]
     for name in station_names:
         cols += [f"{name}:{q}" for q in STATION_COLUMNS]
     for name in probe_names:
         cols += [f"{name}:{q}" for q in PROBE_COLUMNS]
-    return cols
+    return cols + ["residual"]
 
 
 class HistoryWriter:
@@ -209,12 +210,14 @@ class HistoryWriter:
         self._fh.flush()
         self.rows = 0
 
-    def write(self, time_s: float, step: int, stations: Iterable[StationReading], probes: Iterable[ProbeReading]) -> None:
+    def write(self, time_s: float, step: int, stations: Iterable[StationReading], probes: Iterable[ProbeReading],
+              residual: float | None = None) -> None:
         row = [repr(float(time_s)), str(int(step))]
         for r in stations:
             row += [_number(getattr(r, q)) for q in STATION_COLUMNS]
         for r in probes:
             row += [_number(getattr(r, q)) for q in PROBE_COLUMNS]
+        row.append(_number(residual))
         self._csv.writerow(row)
         self._fh.flush()
         self.rows += 1

@@ -25,8 +25,10 @@ FLUXES: dict[str, Choice] = table(Choice("hllc", "HLLC", FLUX_HLLC),
                                   Choice("hll", "HLL", FLUX_HLL),
                                   Choice("rusanov", "Rusanov", FLUX_RUSANOV))
 
-#: Above about 1 the scheme is unstable; values up to 2 are accepted so that a user can see it diverge.
-CFL_MIN, CFL_MAX = 0.01, 2.0
+#: The time step is cfl * dx / max(|u| + |v| + 2a). Both SSP Runge-Kutta methods here have an SSP
+#: coefficient of 1 (Gottlieb and Shu 1998): they keep the forward-Euler stability of the spatial
+#: scheme up to a Courant number of 1 and no further, so larger values are refused.
+CFL_MIN, CFL_MAX = 0.01, 1.0
 
 
 @dataclass(frozen=True)
@@ -75,7 +77,8 @@ class Numerics:
         _choice("flux", self.flux, FLUXES)
         _choice("integrator", self.integrator, INTEGRATORS)
         if not (CFL_MIN <= self.cfl <= CFL_MAX):
-            raise ValueError(f"cfl = {self.cfl!r} is outside the allowed range {CFL_MIN} to {CFL_MAX}")
+            raise ValueError(f"cfl = {self.cfl!r} is outside the allowed range {CFL_MIN} to {CFL_MAX:g} "
+                             f"(the SSP time integrators are stable up to a Courant number of {CFL_MAX:g})")
 
     @property
     def limiter_id(self) -> int:

@@ -17,6 +17,7 @@ import numpy as np
 from .colourmaps import DIVERGING, matplotlib_map_for_view, view_map
 from .fields import VIEWS, derived
 from .simulation import Simulation
+from .templating import number
 
 CAUTION = ("Caution: inviscid, calorically perfect gas model; not for sizing pressure hardware or clearing a "
            "test; defer to local codes and licensed engineering review.")
@@ -187,6 +188,21 @@ def _missing(value: Any) -> Any:
     return float("nan") if value is None else value
 
 
+def _steady_block(st: dict | None) -> dict | None:
+    """Station readings averaged over the window with their unsteadiness (+- half the range), and the residual,
+    for the report template; None when the run kept no window."""
+    if not st or not st.get("window") or not st["window"].get("samples"):
+        return None
+    w = st["window"]
+    rows = [[name, *(f"{number(_missing(q[k]['mean']))} \u00b1 {number(_missing(q[k]['plus_minus']))}"
+                     for k in ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa"))]
+            for name, q in w["stations"].items()]
+    settled = "settled" if st["settled"] else ("not settled" if st["until"] == "steady" else "run to a set time")
+    return {"from_s": w["from_s"], "to_s": w["to_s"], "samples": w["samples"], "rows": rows, "settled": settled,
+            "residual": _missing(st.get("residual")), "transit_s": _missing(st.get("transit_s")),
+            "tolerance": _missing(st.get("tolerance")), "mass_imbalance": _missing(st.get("mass_imbalance"))}
+
+
 def write_report(path: str | Path, summary: dict, description: str, sim: Simulation, view: str,
                  history: dict[str, np.ndarray] | None, axis: dict[str, np.ndarray] | None = None) -> Path:
     """report.html (templates/report.html.j2): run figures, the last snapshot, history plots and, for a nozzle,
@@ -217,7 +233,7 @@ def write_report(path: str | Path, summary: dict, description: str, sim: Simulat
     text = render("report.html.j2", summary=summary, description=description, caution=CAUTION,
                   run_rows=run_rows, view_label=VIEWS[view][0], snapshot=_plot(snapshot_figure(sim, view), "snapshot"),
                   stations=stations, nozzle_rows=nozzle_rows, axis_plot=axis_plot, history_plots=history_plots,
-                  separation=(nozzle or {}).get("wall_separation"))
+                  separation=(nozzle or {}).get("wall_separation"), steady=_steady_block(summary.get("steady")))
     path = Path(path)
     path.write_text(text, encoding="utf-8")
     return path

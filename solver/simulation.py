@@ -26,6 +26,22 @@ _VARIABLES = ("density", "x-momentum", "y-momentum", "total energy")
 #: Floors, relative to the largest held or initial density / pressure.
 FLOOR_FRACTION = 1.0e-10
 
+# Divergence guards (common practice, no source for the exact values). A healthy flow changes its
+# largest wave speed by a few per cent a step; an unstable one grows it step after step.
+#: A step is "troubled" when floors act, the largest wave speed grows by more than this in a step ...
+RATE_WARN_STEP = 1.5
+#: ... or stands more than this above the reference (the median over the kept snapshots).
+RATE_WARN = 3.0
+#: Diverged: the largest wave speed grows by more than this in one step,
+RATE_JUMP = 4.0
+#: or the time step falls below 1 / RATE_COLLAPSE of the reference,
+RATE_COLLAPSE = 100.0
+#: or floors act in at least max(FLOOR_CELLS_MIN, FLOOR_CELLS_FRACTION of the gas cells) for FLOOR_STEPS steps.
+FLOOR_CELLS_MIN, FLOOR_CELLS_FRACTION, FLOOR_STEPS = 4, 0.005, 20
+#: A snapshot of the state is kept every SNAPSHOT_EVERY untroubled steps, the newest SNAPSHOT_RING of them
+#: (each one 32 bytes per cell; the arrays of a simulation stay under the 300 bytes per cell of the benchmark goal).
+SNAPSHOT_EVERY, SNAPSHOT_RING = 25, 2
+
 
 @dataclass(frozen=True)
 class Edges:
@@ -78,6 +94,7 @@ class Simulation:
         self.steps = 0
         self.floors_total = 0
         self.floors_last_step = 0
+        self.last_dt_s = 0.0
         self._allocate(setup.domain)
         self._set_kind(np.zeros(setup.domain.shape, np.uint8) if mask is None else mask)
         self._refresh_held()
@@ -102,9 +119,16 @@ class Simulation:
         self.Fx = np.zeros((4, ny, nx + 1))
         self.Gy = np.zeros((4, ny + 1, nx))
         self.kind = np.zeros(padded[1:], np.uint8)
+        #: cells whose x- / y-faces take HLL across a strong shock (kernels.shock_switch); zero unless HLLC
+        self._hll_x = np.zeros(padded[1:], np.uint8)
+        self._hll_y = np.zeros(padded[1:], np.uint8)
         self._row_rate = np.zeros(ny)
         self._row_floors = np.zeros(ny, np.int64)
         self._row_bad = np.zeros(ny, np.int64)
+        self._ring_U = np.zeros((SNAPSHOT_RING,) + padded)
+        self._ring_meta: list[tuple[int, int, float, int, float]] = []  # (slot, steps, time_s, floors, rate)
+        self._trouble_since: int | None = None
+        self._floor_streak = 0
         j = np.arange(ny, dtype=float)
         if self.setup.mode == "axisymmetric":
             r_c = (j + 0.5) * domain.dx_m
@@ -166,6 +190,13 @@ class Simulation:
         scale_p = float(np.max(prim[:, 3]))
         self._rho_floor = FLOOR_FRACTION * scale_rho
         self._p_floor = FLOOR_FRACTION * scale_p
+        self._fill_edges()
+
+    def _fill_edges(self) -> None:
+        """Open edges copy the gas beside them; ambient edges are a characteristic pressure boundary."""
+        kernels.fill_open_edges(self.U, self.W, self.kind)
+        amb = self._held_prim[CellKind.AMBIENT]
+        kernels.fill_pressure_edges(self.U, self.W, self.kind, amb[0], amb[3], self.setup.gas.gamma)
 
     def set_conditions(self, conditions: Conditions) -> None:
         """New reservoir, stream or ambient conditions; the flow goes on from where it is."""
@@ -183,6 +214,8 @@ class Simulation:
 
     def set_numerics(self, numerics: Numerics) -> None:
         self.setup = replace(self.setup, numerics=numerics)
+        self._hll_x[:] = 0  # set again each stage while the flux is HLLC
+        self._hll_y[:] = 0
         self._update_rate()
 
     def set_mask(self, mask: np.ndarray) -> None:
@@ -195,7 +228,7 @@ class Simulation:
         if born.any():
             self._fill_born_cells(born, old == CellKind.FLUID)
         self._refresh_held()
-        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._fill_edges()
         self._update_rate()
 
     def set_edges(self, edges: Edges) -> None:
@@ -203,7 +236,7 @@ class Simulation:
         mask = self.mask.copy()
         self._set_kind(mask)
         self._refresh_held()
-        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._fill_edges()
         self._update_rate()
 
     def remesh(self, domain: Domain, mask: np.ndarray) -> None:
@@ -231,7 +264,7 @@ class Simulation:
         self.floors_last_step = 0
         self._fill_uniform_ambient()
         self._refresh_held()
-        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._fill_edges()
         self._update_rate()
 
     def _fill_uniform_ambient(self) -> None:
@@ -261,7 +294,7 @@ class Simulation:
         self.U[2][s][fluid] = (r * vy)[fluid]
         self.U[3][s][fluid] = (pr / gm1 + 0.5 * r * (vx * vx + vy * vy))[fluid]
         self._refresh_held()
-        kernels.fill_open_edges(self.U, self.W, self.kind)
+        self._fill_edges()
         self._update_rate()
 
     def _write_primitive_padded(self, rho, u, v, p) -> None:
@@ -305,6 +338,8 @@ class Simulation:
 
     # -------------------------------------------------------------- stepping
     def _update_rate(self) -> None:
+        """Wave rate of the current state; also the new starting point of the snapshot ring (every live
+        change and every restore ends here, so a later divergence never restores across a change)."""
         self._fluxes_step = -1
         s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
         fluid = self.mask == CellKind.FLUID
@@ -312,8 +347,44 @@ class Simulation:
         if fluid.any():
             r, u, v, p = (self.W[c][s][fluid] for c in range(4))
             c_s = np.sqrt(self.setup.gas.gamma * p / r)
-            rate = float(np.max((np.abs(u) + np.abs(v) + 2.0 * c_s) / self.domain.dx_m))
+            with np.errstate(invalid="ignore"):
+                rate = float(np.max((np.abs(u) + np.abs(v) + 2.0 * c_s) / self.domain.dx_m))
         self._rate = max(rate, self._held_rate)
+        self._ring_meta = []
+        self._trouble_since = None
+        self._floor_streak = 0
+        self._keep_snapshot()
+
+    # ------------------------------------------------------------- snapshots
+    def _keep_snapshot(self) -> None:
+        used = {m[0] for m in self._ring_meta}
+        if len(self._ring_meta) >= SNAPSHOT_RING:
+            slot = self._ring_meta.pop(0)[0]
+        else:
+            slot = min(set(range(SNAPSHOT_RING)) - used)
+        kernels.copy_state(self.U, self._ring_U[slot])
+        self._ring_meta.append((slot, self.steps, self.time_s, self.floors_total, self._rate))
+
+    @property
+    def kept_steps(self) -> list[int]:
+        """The step numbers of the snapshots kept for a restore after a divergence, oldest first."""
+        return [m[1] for m in self._ring_meta]
+
+    def _reference_rate(self) -> float:
+        return float(np.median([m[4] for m in self._ring_meta])) if self._ring_meta else self._rate
+
+    def _restore_before_trouble(self) -> tuple[int, float]:
+        """Go back to the newest snapshot from before the trouble began; returns its (step, time)."""
+        since = self.steps if self._trouble_since is None else self._trouble_since
+        older = [m for m in self._ring_meta if m[1] < since] or self._ring_meta[:1]
+        slot, steps, time_s, floors, _ = older[-1]
+        kernels.copy_state(self._ring_U[slot], self.U)
+        kernels.primitive_from_conserved(self.U, self.W, self.setup.gas.gamma)
+        self.steps, self.time_s, self.floors_total = steps, time_s, floors
+        self.floors_last_step = 0
+        self._refresh_held()
+        self._update_rate()
+        return steps, time_s
 
     @property
     def fluxes_current(self) -> bool:
@@ -348,10 +419,12 @@ class Simulation:
         kernels.copy_state(self.U, self.U0)
         floors = 0
         res = self._held_prim[CellKind.RESERVOIR]
+        if flux == kernels.FLUX_HLLC:  # once a step: a shock moves less than a cell, the marks reach two beyond it
+            kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO)
         for a, b in num.tableau.stages:
             kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
-            kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux)
-            kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux)
+            kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
+            kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
             # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
             kernels.update_stage(self.U, self.U0 if a != 0.0 else self.U, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
@@ -359,32 +432,80 @@ class Simulation:
             kernels.return_wall_imbalance(self.U, self.W, self.Fx, self.Gy, *self.wall_return[:2], self._r_cell,
                                           self._r_face, *self.wall_return[2:], b * dt, inv_dx, gamma,
                                           self._rho_floor, self._p_floor)
-            kernels.fill_open_edges(self.U, self.W, self.kind)
+            self._fill_edges()
             floors += int(self._row_floors.sum())
-        if self._row_bad.any():
-            self._diverged()
+        prev_rate = self._rate
         self.floors_last_step = floors
         self.floors_total += floors
-        self._rate = max(float(self._row_rate.max()), self._held_rate)
         self.time_s += dt
         self.steps += 1
+        self.last_dt_s = dt
+        if self._row_bad.any():
+            self._diverged("non_finite")
+        self._rate = max(float(self._row_rate.max()), self._held_rate)
         self._fluxes_step = self.steps
+        self._watch(prev_rate, floors)
         return dt
 
-    def _diverged(self) -> None:
+    def _watch(self, prev_rate: float, floors: int) -> None:
+        """Stop a run that is going bad before it produces garbage, and keep snapshots while it is well."""
+        rate = self._rate
+        ref = self._reference_rate()
+        troubled = floors > 0 or rate > RATE_WARN_STEP * prev_rate or rate > RATE_WARN * ref
+        if troubled and self._trouble_since is None:
+            self._trouble_since = self.steps
+        elif not troubled:
+            self._trouble_since = None
+        many = max(FLOOR_CELLS_MIN, int(FLOOR_CELLS_FRACTION * self.cells))
+        self._floor_streak = self._floor_streak + 1 if floors >= many else 0
+        if rate > RATE_JUMP * prev_rate and self.steps > 1:
+            self._diverged("wave_speed_jump", prev_rate)
+        if rate > RATE_COLLAPSE * ref:
+            self._diverged("time_step_collapse", ref)
+        if self._floor_streak >= FLOOR_STEPS:
+            self._diverged("floors", float(floors))
+        if self._trouble_since is None and self.steps % SNAPSHOT_EVERY == 0:
+            self._keep_snapshot()
+
+    def _diverged(self, reason: str, before: float = 0.0) -> None:
+        """Find where it went bad, restore the last snapshot from before the trouble, raise SolverDiverged."""
+        if self._trouble_since is None:
+            self._trouble_since = self.steps
         s = (slice(None), slice(GHOST, -GHOST), slice(GHOST, -GHOST))
-        interior = self.U[s]
         fluid = self.mask == CellKind.FLUID
-        bad = ~np.isfinite(interior) & fluid[None]
-        c, j, i = (int(x[0]) for x in np.nonzero(bad))
-        value = float(interior[c, j, i])
+        dx = self.domain.dx_m
+        if reason == "non_finite":
+            interior = self.U[s]
+            bad = ~np.isfinite(interior) & fluid[None]
+            c, j, i = (int(x[0]) for x in np.nonzero(bad))
+            variable, value, detail = _VARIABLES[c], float(interior[c, j, i]), ""
+        elif reason == "floors":
+            p = np.where(fluid, self.W[3][s[1:]], np.inf)
+            j, i = (int(x) for x in np.unravel_index(np.argmin(p), p.shape))
+            variable, value = "pressure", float(p[j, i])
+            detail = (f"density or pressure floors acted in {int(before)} cells, in at least "
+                      f"{max(FLOOR_CELLS_MIN, int(FLOOR_CELLS_FRACTION * self.cells))} cells for {FLOOR_STEPS} steps "
+                      f"in a row; the lowest pressure is {value:.6g} Pa")
+        else:
+            r, u, v, p = (self.W[c][s[1:]] for c in range(4))
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                speed = np.where(fluid, np.abs(u) + np.abs(v) + 2.0 * np.sqrt(np.abs(self.setup.gas.gamma * p / r)), -1.0)
+            speed = np.nan_to_num(speed, nan=-1.0, posinf=np.finfo(float).max)
+            j, i = (int(x) for x in np.unravel_index(np.argmax(speed), speed.shape))
+            variable, value = "wave speed", float(self._rate * dx)
+            if reason == "wave_speed_jump":
+                detail = (f"the largest wave speed (|u| + |v| + 2a) jumped from {before * dx:.6g} to {value:.6g} m/s "
+                          f"in one step (more than {RATE_JUMP:g} times)")
+            else:
+                cfl = self.setup.numerics.cfl
+                detail = (f"the time step fell to {cfl / self._rate:.3g} s, below 1/{RATE_COLLAPSE:g} of its recent "
+                          f"{cfl / before:.3g} s (largest wave speed {value:.6g} m/s)")
         x_m = float(self.domain.x_centres_m()[i])
         y_m = float(self.domain.y_centres_m()[j])
-        kernels.copy_state(self.U0, self.U)
-        kernels.primitive_from_conserved(self.U, self.W, self.setup.gas.gamma)
-        self._refresh_held()
-        self._update_rate()
-        raise SolverDiverged(self.steps + 1, self.time_s, x_m, y_m, _VARIABLES[c], value)
+        step, time_s = self.steps, self.time_s
+        kept_step, kept_time_s = self._restore_before_trouble()
+        raise SolverDiverged(step, time_s, x_m, y_m, variable, value, reason=reason, detail=detail,
+                             kept_step=kept_step, kept_time_s=kept_time_s)
 
     def advance(self, n_steps: int) -> None:
         for _ in range(int(n_steps)):

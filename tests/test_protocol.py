@@ -160,7 +160,7 @@ def test_hello_limits_are_the_ones_validation_applies(ws):
 def test_status_has_the_documented_fields(ws):
     status = receive(ws, "status")
     for key in ("state", "time_s", "steps", "steps_per_s", "cell_updates_per_s", "frames_per_s", "max_mach",
-                "floors", "stations", "probes", "warnings"):
+                "floors", "stations", "probes", "residual", "flow", "warnings"):
         assert key in status, key
     assert status["stations"][0]["name"] == "mid"
     assert {"mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa", "area_m2", "ideal"} <= set(

@@ -9,7 +9,8 @@ import pytest
 
 from shockslate.server import readings
 from shockslate.server.errors import RequestError
-from shockslate.server.session import DIVERGED, PAUSED, RUNNING, TRANSITIONS, Session, TransitionError, SessionState
+from shockslate.server.session import (DIVERGED, PAUSED, RUNNING, TRANSITIONS, Session, SessionState, TransitionError,
+                                       divergence_advice)
 from shockslate.solver import relations
 from shockslate.solver import scenario as scn
 from shockslate.solver.kinds import CellKind
@@ -116,6 +117,24 @@ def test_divergence_advice_follows_the_numerics(session):
     assert session.state is DIVERGED and out.steps == 0
     advice = " ".join(out.divergence.advice)
     assert "CFL" not in advice and "first order" not in advice and "pressure ratio" in advice
+
+
+def test_divergence_advice_is_ordered_by_the_likely_cause_and_names_what_the_scenario_has(session):
+    num, cond = session.scenario.numerics, session.scenario.conditions
+    growing = divergence_advice(num, cond, "wave_speed_jump", frozenset({"stream", "ambient"}))
+    assert "CFL" in growing[0]
+    assert not any("p0 / p_amb" in a for a in growing) and any("stream Mach number" in a for a in growing)
+    floors = divergence_advice(num, cond, "floors", frozenset({"reservoir", "ambient"}))
+    assert floors[0].startswith("soften the conditions") and "p0 / p_amb" in floors[0]
+
+
+def test_inspect_never_fails_on_a_bad_state(session):
+    # a zero pressure in a gas cell (what a run gone bad can leave) must not break the reply
+    j, i = session.sim.domain.cell_index(0.1, 0.05)
+    session.sim.W[3, j + 2, i + 2] = 0.0
+    session.sim.W[0, j + 2, i + 2] = -1.0
+    r = session.inspect(0.1, 0.05)
+    assert r["kind"] == "fluid" and r["p_pa"] == 0.0 and r["mach"] is None
 
 
 # ----------------------------------------------------------------------------- sketch

@@ -269,18 +269,59 @@ def test_axisymmetric_nozzle_chokes_at_theory_mass_flow_and_exit_mach():
     assert exit_mach == pytest.approx(theory, rel=0.03)
 
 
-def test_unstable_setting_raises_with_location_and_keeps_a_finite_state():
-    # CFL 1.9 is beyond the scheme's stability limit (common practice, no source).
-    sim = _blast_box(64, numerics=Numerics(cfl=1.9, limiter="mc"))
+def test_cfl_beyond_the_integrator_limit_is_refused_with_field_value_and_range():
+    # SSP-RK2 / RK3 have an SSP coefficient of 1 (Gottlieb and Shu, Math. Comp. 67, 1998).
+    with pytest.raises(ValueError) as info:
+        Numerics(cfl=1.2)
+    text = str(info.value)
+    assert "cfl = 1.2" in text and "0.01 to 1" in text
+    Numerics(cfl=1.0)
+
+
+def _forced_cfl(cfl):
+    """Numerics with a Courant number the validation refuses: how a bug or a bad edit would look."""
+    num = Numerics(limiter="mc")
+    object.__setattr__(num, "cfl", cfl)
+    return num
+
+
+def test_unstable_run_stops_early_and_restores_a_state_from_before_the_trouble():
+    # CFL 1.9 is beyond the stability limit of SSP-RK2 (Gottlieb and Shu 1998); without guards
+    # this box ran on until speeds of order 1e18 m/s before a non-finite value stopped it.
+    sim = _blast_box(64, numerics=_forced_cfl(1.9))
+    c_hot = math.sqrt(1.4 * 1.0e6 / 4.0)  # the fastest sound speed at the start, m/s
     with pytest.raises(SolverDiverged) as info:
         sim.advance(2000)
     err = info.value
+    assert err.reason in ("wave_speed_jump", "time_step_collapse", "floors", "non_finite")
     assert 0.0 <= err.x_m <= 2.0 and 0.0 <= err.y_m <= 1.0
-    assert err.variable in ("density", "x-momentum", "y-momentum", "total energy")
-    assert f"step {err.step}" in str(err) and "x = " in str(err)
+    assert f"step {err.step}" in str(err) and "x = " in str(err) and f"step {err.kept_step}" in str(err)
+    assert sim.steps == err.kept_step < err.step and sim.time_s == err.kept_time_s
     rho, u, v, p = sim.primitive()
-    assert np.all(np.isfinite(rho)) and np.all(np.isfinite(p))
-    assert sim.steps == err.step - 1
+    assert np.all(np.isfinite(rho)) and np.all(np.isfinite(p)) and p.min() > 0.0
+    # the kept state is physical: no speed beyond what the blast can give (a few times its sound speed)
+    assert np.max(np.hypot(u, v)) < 3.0 * c_hot
+    # and a run with sound numerics goes on from it with a normal time step
+    dt_fresh = _blast_box(64).dt_s
+    sim.set_numerics(Numerics(cfl=0.4, limiter="mc"))
+    assert sim.dt_s > 0.2 * dt_fresh
+    sim.advance(100)
+    assert np.all(np.isfinite(sim.primitive()[3]))
+
+
+def test_non_finite_value_raises_with_location_and_keeps_the_state_before_it():
+    sim = _blast_box(64)
+    sim.advance(5)
+    rho, u, v, p = sim.primitive()
+    u[10, 20] = 1e150
+    sim.set_primitive(rho, u, v, p)
+    kept = sim.U.copy()
+    with pytest.raises(SolverDiverged) as info:
+        sim.advance(5)
+    err = info.value
+    assert err.reason in ("non_finite", "wave_speed_jump")
+    assert err.step == 6 and err.kept_step == 5 and sim.steps == 5
+    np.testing.assert_array_equal(sim.U, kept)
 
 
 def test_changing_conditions_live_keeps_the_flow():

@@ -13,7 +13,8 @@ from pathlib import Path
 from shockslate.solver.fields import VIEWS
 from shockslate.solver.scenario import ScenarioError, builtin_names, builtin_path, load_builtin, load_scenario
 
-#: Exit codes: 0 done, 1 the run diverged or stalled, 2 bad input, 130 stopped with Ctrl+C (shell convention).
+#: Exit codes: 0 done (or steady), 1 the run diverged, stalled or did not settle, 2 bad input, 130 stopped with
+#: Ctrl+C (shell convention).
 EXIT_OK, EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
 
 
@@ -37,6 +38,15 @@ def _positive_int(text: str) -> int:
     return value
 
 
+def _until(text: str) -> float | str:
+    if text == "steady":
+        return text
+    try:
+        return _positive_float(text)
+    except argparse.ArgumentTypeError:
+        raise argparse.ArgumentTypeError(f"{text!r} is neither a time in seconds greater than 0 nor 'steady'") from None
+
+
 def add_batch_commands(subparsers) -> None:
     """Register `run`, `scenarios` and `check` on an argparse sub-parsers object."""
     run = subparsers.add_parser(
@@ -44,8 +54,15 @@ def add_batch_commands(subparsers) -> None:
         description="Run a scenario headless. Writes summary.json, history.csv, fields (.npz, .vti), snapshot "
                     "PNGs, station CSVs and report.html. Ctrl+C stops cleanly and keeps what was written.")
     run.add_argument("scenario", help="a scenario JSON file, or the name of a built-in (see `scenarios`)")
-    run.add_argument("--until", type=_positive_float, metavar="SECONDS",
-                     help="simulated time to stop at (default: the scenario's end time)")
+    run.add_argument("--until", type=_until, metavar="SECONDS|steady",
+                     help="simulated time to stop at (default: the scenario's end time), or 'steady': stop once the "
+                          "flow has settled (see --tolerance, --time-limit)")
+    run.add_argument("--tolerance", type=_positive_float, metavar="R", default=None,
+                     help="with --until steady: largest density residual, as the fraction of the mass changing per "
+                          "acoustic transit of the domain (default 0.001)")
+    run.add_argument("--time-limit", type=_positive_float, metavar="SECONDS", default=None,
+                     help="with --until steady: simulated time at which an unsettled run stops (default: the "
+                          "scenario's end time)")
     run.add_argument("--steps", type=_positive_int, metavar="N", help="stop after N steps at most")
     run.add_argument("--resolution", type=_positive_int, metavar="NX", help="cells across x (default: the scenario's)")
     run.add_argument("--out", default="results", metavar="DIR", help="output folder (default: results)")
@@ -64,15 +81,23 @@ def add_batch_commands(subparsers) -> None:
 
 def cmd_run(args: argparse.Namespace) -> int:
     from shockslate.solver.batch import run_scenario  # matplotlib and friends only when running
+    from shockslate.solver.steady import DEFAULT_TOLERANCE
     from shockslate.solver.warm import warm_kernels
 
+    steady = args.until == "steady"
+    if not steady and (args.tolerance is not None or args.time_limit is not None):
+        print("shockslate run: --tolerance and --time-limit go with --until steady", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    until = args.time_limit if steady else args.until
+    tolerance = DEFAULT_TOLERANCE if args.tolerance is None else args.tolerance
     # Before the clock starts: a first run compiles the kernels, which would otherwise look like a stuck step 1.
     print("shockslate run: loading the solver kernels (a first run compiles them: one to three minutes)",
           file=sys.stderr, flush=True)
     warm_kernels()
     try:
-        summary = run_scenario(args.scenario, Path(args.out), until_s=args.until, steps=args.steps,
-                               nx=args.resolution, every_s=args.every, view=args.view)
+        summary = run_scenario(args.scenario, Path(args.out), until_s=until, steps=args.steps,
+                               nx=args.resolution, every_s=args.every, view=args.view,
+                               until_steady=steady, tolerance=tolerance)
     except (ScenarioError, ValueError) as err:
         print(f"shockslate run: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -88,7 +113,11 @@ def cmd_run(args: argparse.Namespace) -> int:
         print(f"nozzle ({nozzle['regime']}): mass flow {nozzle['mass_flow_ratio']:.4f} of choked, C_F "
               f"{nozzle['thrust_coefficient_ratio']:.4f} of ideal ({nozzle['thrust_coefficient_ratio_with_divergence']:.4f} "
               f"with divergence factor), Isp {nozzle['specific_impulse_s']:.1f} s")
-    return {"finished": EXIT_OK, "interrupted": EXIT_INTERRUPTED}.get(summary["status"], EXIT_FAILED)
+    st = summary["steady"]
+    if steady:
+        print(f"residual {st['residual']} (tolerance {st['tolerance']:g}), station mass-flow imbalance "
+              f"{st['mass_imbalance']}")
+    return {"finished": EXIT_OK, "steady": EXIT_OK, "interrupted": EXIT_INTERRUPTED}.get(summary["status"], EXIT_FAILED)
 
 
 def cmd_scenarios(args: argparse.Namespace) -> int:
