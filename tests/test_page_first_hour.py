@@ -380,9 +380,11 @@ def test_the_top_bar_shows_flow_time_pace_and_state_with_solver_figures_on_reque
     assert page.locator("#fig-steps").is_visible() and page.locator("#fig-frames").is_visible()
     page.uncheck("#show-expert")
     pause(page)
-    # the settled slot shows only when the status carries `steady` (another part of the server adds it)
+    # the settled slot follows the status's `flow` (solver/steady.py); after running it carries one
+    flow = page.evaluate("window.shockslate.status.flow")
+    assert flow in ("settling", "steady") and page.inner_text("#fig-steady") == flow
+    page.evaluate("() => window.shockslate.receive({...window.shockslate.status, flow: null})")
     assert not page.locator("#fig-steady-box").is_visible()
-    page.evaluate("() => window.shockslate.receive({...window.shockslate.status, steady: false})")
-    assert page.inner_text("#fig-steady") == "settling"
-    page.evaluate("() => window.shockslate.receive({...window.shockslate.status, steady: true})")
+    page.evaluate("() => window.shockslate.receive({...window.shockslate.status, flow: 'steady', residual: 2e-4})")
     assert page.inner_text("#fig-steady") == "steady"
+    assert "0.00020 of the mass" in page.get_attribute("#fig-steady-box", "title")

@@ -46,16 +46,20 @@ export class Pace {
 }
 
 /**
- * Whether the flow has settled, from the status: shown only when the server sends the boolean field
- * `steady` (a steady-state check on the residual; the slot hides while the status has no such field).
+ * Whether the flow has settled, from the status's `flow` ("settling" or "steady", from the server's density
+ * residual, solver/steady.py); the slot hides while the status has none (before the first step after a change).
  */
 export function showSteady(status) {
   const box = $("#fig-steady-box");
-  const steady = status.steady;
-  box.hidden = typeof steady !== "boolean";
+  const flow = status.flow;
+  box.hidden = flow !== "steady" && flow !== "settling";
   if (box.hidden) return;
-  $("#fig-steady").textContent = steady ? "steady" : "settling";
-  $("#fig-steady").dataset.steady = String(steady);
+  $("#fig-steady").textContent = flow;
+  $("#fig-steady").dataset.steady = String(flow === "steady");
+  if (Number.isFinite(status.residual)) {
+    box.title = `whether the flow has stopped changing: ${status.residual.toPrecision(2)} of the mass changes ` +
+      "per acoustic transit of the domain (steady below 0.001)";
+  }
 }
 
 /** Top bar: flow time, pace, state, settled or not; the solver figures (behind a toggle) too. */
