@@ -27,7 +27,7 @@ from shockslate.solver.diagnostics import Station, read_probe, station_profile
 from shockslate.solver.domain import Domain
 from shockslate.solver.errors import SolverDiverged
 from shockslate.solver.gas import PRESETS, Gas
-from shockslate.solver.raster import rasterise
+from shockslate.solver.geometry import wall_geometry
 from shockslate.solver.shapes import shape_from_dict
 from shockslate.solver.simulation import Simulation
 
@@ -289,7 +289,8 @@ class Session:
             self._on_change(new)
 
     def _apply_mask(self, new: scn.Scenario) -> None:
-        self.sim.set_mask(rasterise(scn.to_sketch(new), self.sim.domain))
+        geo = wall_geometry(scn.to_sketch(new), self.sim.domain)
+        self.sim.set_mask(geo.mask, geo)
 
     def _change_sketch(self, sketch: dict, prefix_map: dict[str, str] | None = None, *, record: bool = True) -> None:
         doc = self._doc()
@@ -397,7 +398,8 @@ class Session:
 
     def _remesh(self, new: scn.Scenario) -> None:
         domain = scn.to_domain(new)
-        self.sim.remesh(domain, rasterise(scn.to_sketch(new), domain))
+        geo = wall_geometry(scn.to_sketch(new), domain)
+        self.sim.remesh(domain, geo.mask, geo)
 
     def set_resolution(self, nx: int) -> None:
         doc = self._doc()
@@ -523,15 +525,14 @@ def warm_kernels() -> float:
 
     Called at server start in a worker thread, so the first real burst does not stall for compilation.
     """
-    from shockslate.solver.kinds import CellKind
-    from shockslate.solver.shapes import Segment, Sketch
+    from shockslate.solver.shapes import Rectangle, Segment, Sketch
     from shockslate.solver.simulation import Setup
 
     start = time.perf_counter()
     domain = Domain(0.0, 1.0, 0.0, 0.25, 16)
-    mask = rasterise(Sketch((Segment((0.5, 0.0), (0.5, 0.1), 0.05, "wall"),)), domain)
-    mask[:, :2] = CellKind.RESERVOIR
-    sim = Simulation(Setup(domain), mask)
+    geo = wall_geometry(Sketch((Segment((0.5, 0.0), (0.3, 0.1), 0.05, "wall"),
+                                Rectangle((0.0, 0.0), (0.12, 0.25), "reservoir"))), domain)
+    sim = Simulation(Setup(domain), geo.mask, geo)
     sim.step()
     sim.step()
     return time.perf_counter() - start

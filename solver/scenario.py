@@ -24,7 +24,7 @@ from .domain import MAX_NX, Domain
 from .gas import GAMMA_MAX, GAMMA_MIN, PRESETS, Gas
 from .kinds import CellKind
 from .numerics import CFL_MAX, CFL_MIN, Numerics
-from .raster import rasterise
+from .geometry import wall_geometry
 from .shapes import MAX_COORD_M, Sketch, shape_from_dict
 from .simulation import Edges, Setup, Simulation
 
@@ -461,10 +461,10 @@ def initial_region(s: Scenario, domain: Domain) -> np.ndarray:
 
 
 def build_simulation(s: Scenario, nx: int | None = None) -> Simulation:
-    """A Simulation at the scenario's resolution (or nx), its sketch rasterised and `initial` applied."""
+    """A Simulation at the scenario's resolution (or nx), walls where the sketch draws them, `initial` applied."""
     setup = to_setup(s, nx)
-    mask = rasterise(to_sketch(s), setup.domain)
-    sim = Simulation(setup, mask)
+    geo = wall_geometry(to_sketch(s), setup.domain)
+    sim = Simulation(setup, geo.mask, geo)
     gas, cond = setup.gas, setup.conditions
     if s.initial.kind == "stream":
         st = cond.stream
