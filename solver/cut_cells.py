@@ -11,9 +11,10 @@ vectors) in planar mode; in axisymmetric mode (per-radian volumes, r-weighted ar
 part also takes the cell's gas area A_2d, which balances the p/r source. A uniform pressure thus
 exerts no force on any cell and gas at rest stays at rest to round-off.
 
-The wall pressure solves the wall's own Riemann problem (the gas against its mirror image, normal
-velocity u_n towards the wall): an exact shock for u_n > 0, an exact rarefaction for u_n < 0
-(Toro 2009, sec. 4.2, the two-state solution with equal states; the shock form as for a piston).
+The wall pressure is the cell's own pressure. (The wall's Riemann problem, the gas against its mirror
+image, was tried first: its dissipation, driven by the small normal velocity a cut cell's average
+carries, cost 4-14 % of total pressure along an inclined flat wall at Mach 2 against 3-4 % for the
+cell pressure, measured on a 100 x 50 grid.)
 
 Small cells (gas volume below half a full cell) are merged with neighbours through open faces,
 the merged group sharing one state: its update is the group's summed fluxes over its summed
@@ -36,7 +37,6 @@ from .kinds import CellKind
 MERGE_FRACTION = 0.5
 
 _SERIAL = dict(nogil=True, cache=True, error_model="numpy")
-_INLINE = dict(nogil=True, cache=True, error_model="numpy", inline="always")
 
 
 @dataclass(frozen=True)
@@ -57,8 +57,6 @@ class CutCells:
     area_2d: np.ndarray      # gas area (axisymmetric source), 0 in planar mode
     wall_x: np.ndarray       # wall area vector, outward from the gas
     wall_y: np.ndarray
-    normal_x: np.ndarray     # its unit vector ((0, 0) where there is no wall)
-    normal_y: np.ndarray
     start: np.ndarray
 
     @property
@@ -164,29 +162,12 @@ def build(geo: WallGeometry, mode: str) -> tuple[CutCells, np.ndarray]:
     a2 = a2d[jj, ii] if axi else np.zeros(jj.size)
     wx = al - ar
     wy = ab - at + a2
-    length = np.hypot(wx, wy)
-    tiny = length < 1e-9 * np.maximum(1.0, full[jj, ii])
-    with np.errstate(invalid="ignore", divide="ignore"):
-        nxv = np.where(tiny, 0.0, wx / length)
-        nyv = np.where(tiny, 0.0, wy / length)
-    cc = CutCells(jj, ii, vol[jj, ii].astype(float), al, ar, ab, at, a2.astype(float), wx, wy, nxv, nyv, start)
+    cc = CutCells(jj, ii, vol[jj, ii].astype(float), al, ar, ab, at, a2.astype(float), wx, wy, start)
     return cc, owned
 
 
-@njit(**_INLINE)
-def _wall_pressure(rho, un, p, gamma):
-    """Pressure at a wall met by gas of normal velocity un (towards the wall positive)."""
-    a = math.sqrt(gamma * p / rho)
-    if un >= 0.0:
-        k = 0.25 * (gamma + 1.0) * un
-        return p + rho * un * (k + math.sqrt(k * k + a * a))
-    base = 1.0 + 0.5 * (gamma - 1.0) * un / a
-    base = base if base > 0.0 else 0.0
-    return p * base ** (2.0 * gamma / (gamma - 1.0))
-
-
 @njit(**_SERIAL)
-def update_cut_cells(U, U0, W, Fx, Gy, a, b, dt, inv_dx, cj, ci, vol, al, ar, ab, at, a2, wx, wy, nxv, nyv,
+def update_cut_cells(U, U0, W, Fx, Gy, a, b, dt, inv_dx, cj, ci, vol, al, ar, ab, at, a2, wx, wy,
                      start, gamma, rho_floor, p_floor, out):
     """One SSP stage on every merge group of cut cells: U <- a*U0 + b*(U + dt*L(U)); refresh W.
 
@@ -216,10 +197,8 @@ def update_cut_cells(U, U0, W, Fx, Gy, a, b, dt, inv_dx, cj, ci, vol, al, ar, ab
             i = ci[m]
             jj = j + 2
             ii = i + 2
-            rho = W[0, jj, ii]
-            un = W[1, jj, ii] * nxv[m] + W[2, jj, ii] * nyv[m]
             p = W[3, jj, ii]
-            pw = _wall_pressure(rho, un, p, gamma)
+            pw = p
             r0 += -(ar[m] * Fx[0, j, i + 1] - al[m] * Fx[0, j, i]) - (at[m] * Gy[0, j + 1, i] - ab[m] * Gy[0, j, i])
             r1 += (-(ar[m] * Fx[1, j, i + 1] - al[m] * Fx[1, j, i]) - (at[m] * Gy[1, j + 1, i] - ab[m] * Gy[1, j, i])
                    - pw * wx[m])

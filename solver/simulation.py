@@ -422,7 +422,7 @@ class Simulation:
             cc = self._cut_cells
             cut_cells.update_cut_cells(self.U, u0, self.W, self.Fx, self.Gy, a, b, dt, inv_dx, cc.j, cc.i, cc.volume,
                                        cc.area_left, cc.area_right, cc.area_bottom, cc.area_top, cc.area_2d,
-                                       cc.wall_x, cc.wall_y, cc.normal_x, cc.normal_y, cc.start, gamma,
+                                       cc.wall_x, cc.wall_y, cc.start, gamma,
                                        self._rho_floor, self._p_floor, self._cut_out)
             kernels.fill_open_edges(self.U, self.W, self.kind)
             floors += int(self._row_floors.sum()) + int(self._cut_out[1])
