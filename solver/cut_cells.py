@@ -30,11 +30,11 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from .geometry import WallGeometry
+from .geometry import SMALL_GAS_FRACTION, WallGeometry
 from .kinds import CellKind
 
 #: Groups are grown until their gas volume is at least this fraction of a full cell's.
-MERGE_FRACTION = 0.5
+MERGE_FRACTION = SMALL_GAS_FRACTION
 
 _SERIAL = dict(nogil=True, cache=True, error_model="numpy")
 
