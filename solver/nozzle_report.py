@@ -6,10 +6,10 @@ Sources (numbers and equation labels from memory):
      sin(alpha)/alpha for a two-dimensional wedge nozzle).
 [A]  J. D. Anderson, Modern Compressible Flow, ch. 5 (area-Mach relation and the 1D nozzle regimes).
 
-The throat and exit areas are those of the rasterised mask, i.e. the areas the solver actually sees, not
-the drawn ones: for each column the open height is the run of non-wall cells starting at the station's
-first cell (the axis in axisymmetric mode), and the area is pi h^2 (axisymmetric, full revolution) or
-h x 1 m (planar, per metre of depth).
+The throat and exit areas are those the solver sees (its cut-cell geometry, walls where they are drawn to
+within the sampling): for each column the open height is the gas of the cells from the station's first cell
+(the axis in axisymmetric mode) up to the first wall cell, each cell counting its gas fraction, and the area
+is pi h^2 (axisymmetric, full revolution) or h x 1 m (planar, per metre of depth).
 """
 from __future__ import annotations
 
@@ -30,7 +30,7 @@ G0_M_S2 = 9.80665
 
 @dataclass(frozen=True)
 class NozzleGeometry:
-    """Areas and the wall angle read off the mask."""
+    """Areas and the wall angle read off the solver's geometry (cell kinds and gas fractions)."""
 
     throat_area_m2: float
     throat_x_m: float
@@ -82,14 +82,16 @@ class NozzleFigures:
         return asdict(self)
 
 
-def _open_height_cells(mask: np.ndarray, i: int, j0: int) -> int:
-    """Non-wall cells in column i counted upwards from row j0 until the first wall."""
+def _open_height_cells(mask: np.ndarray, gas: np.ndarray, i: int, j0: int) -> float:
+    """Gas of column i, in cells, counted upwards from row j0 until the first wall cell (a cell a wall
+    crosses counts its gas fraction, so the height is that of the drawn wall the solver sees)."""
     col = mask[j0:, i] == CellKind.WALL
-    return int(np.argmax(col)) if col.any() else int(col.size)
+    n = int(np.argmax(col)) if col.any() else int(col.size)
+    return float(np.sum(gas[j0:j0 + n, i]))
 
 
 def geometry(sim: Simulation, throat: Station, exit_: Station) -> NozzleGeometry:
-    """Throat and exit areas of the rasterised mask, and the divergent wall's half angle near the exit.
+    """Throat and exit areas of the solver's cut-cell geometry, and the divergent wall's half angle near the exit.
 
     The throat is the narrowest column between the feed (the last reservoir column) and the exit station;
     the half angle is the least-squares slope of the open height over the last 40 % of the divergent length.
@@ -104,7 +106,7 @@ def geometry(sim: Simulation, throat: Station, exit_: Station) -> NozzleGeometry
     res_cols = np.nonzero((mask == CellKind.RESERVOIR).any(axis=0))[0]
     i_first = int(res_cols.max()) + 1 if res_cols.size and res_cols.max() < i_throat_guess else 0
     cols = np.arange(i_first, i_exit + 1)
-    heights = np.array([_open_height_cells(mask, i, j0) for i in cols]) * dx
+    heights = np.array([_open_height_cells(mask, sim.geometry.gas, i, j0) for i in cols]) * dx
 
     def area(h: float) -> float:
         return math.pi * h * h if axisym else h  # per metre of depth in planar mode
