@@ -196,10 +196,11 @@ class ProbeReading:
 
 
 def read_probe(sim: Simulation, x_m: float, y_m: float) -> ProbeReading:
-    """The state of the cell that holds the point."""
+    """The state of the cell that holds the point; its kind is the one drawn at the cell's centre (a cell that
+    a wall crosses holds gas but reads "wall" when its centre lies in the wall)."""
     j, i = sim.domain.cell_index(x_m, y_m)
     rho, u, v, p = (float(sim.W[c, j + GHOST, i + GHOST]) for c in range(4))
-    kind = CellKind(int(sim.mask[j, i])).name.lower()
+    kind = CellKind(int(sim.geometry.drawn[j, i])).name.lower()
     gas = sim.setup.gas
     if kind == "wall":
         nan = float("nan")

@@ -53,6 +53,7 @@ class WallGeometry:
     open_x      (ny, nx + 1) open fraction of each x-face (face f lies left of cell f)
     open_x_r    (ny, nx + 1) radius moment of the open part of each x-face, in cells (per-radian area / dx^2)
     open_y      (ny + 1, nx) open fraction of each y-face (face f lies below row f)
+    drawn       (ny, nx) uint8 kind painted at each cell centre (what a probe at that cell reads)
     """
 
     mask: np.ndarray
@@ -61,6 +62,7 @@ class WallGeometry:
     open_x: np.ndarray
     open_x_r: np.ndarray
     open_y: np.ndarray
+    drawn: np.ndarray
 
     @property
     def cut(self) -> np.ndarray:
@@ -78,7 +80,7 @@ def staircase_geometry(mask: np.ndarray) -> WallGeometry:
     gas = (mask != _WALL).astype(float)
     rows = np.arange(ny, dtype=float)[:, None]
     open_x, open_y = _faces_from_cells(mask, np.ones((ny, nx + 1)), np.ones((ny + 1, nx)))
-    return WallGeometry(mask.copy(), gas, gas * (rows + 0.5), open_x, open_x * (rows + 0.5), open_y)
+    return WallGeometry(mask.copy(), gas, gas * (rows + 0.5), open_x, open_x * (rows + 0.5), open_y, mask.copy())
 
 
 def _faces_from_cells(mask: np.ndarray, open_x: np.ndarray, open_y: np.ndarray):
@@ -202,7 +204,7 @@ def wall_geometry(sketch: Sketch, domain: Domain, samples: int = SAMPLES,
         solid = ((mask == CellKind.FLUID) & (open_x[:, :-1] == 0) & (open_x[:, 1:] == 0)
                  & (open_y[:-1] == 0) & (open_y[1:] == 0)) | _stranded(mask, gas, open_x, open_y)
     open_x_r = np.where(open_x > 0.0, open_x_r, 0.0)
-    return WallGeometry(mask, gas, gas_r, open_x, open_x_r, open_y)
+    return WallGeometry(mask, gas, gas_r, open_x, open_x_r, open_y, centre_mask)
 
 
 #: Cells with less gas than this are merged with gas neighbours (solver.cut_cells); one without any is wall.
