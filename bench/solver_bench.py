@@ -57,6 +57,48 @@ def build_box(nx: int, ny: int):
     return sim
 
 
+def wall_sketch():
+    """Walls drawn across the box of build_box: a polygon rotated off the grid, a disc and a sloped strip."""
+    import math
+
+    from shockslate.solver.shapes import Circle, Polygon, Sketch, Stroke
+
+    c, s = math.cos(math.radians(23.0)), math.sin(math.radians(23.0))
+    square = tuple((1.45 + 0.15 * (c * x - s * y), 0.3 + 0.15 * (s * x + c * y)) for x, y in ((-1, -1), (1, -1), (1, 1), (-1, 1)))
+    return Sketch((Polygon(square, "wall"), Circle((0.25, 0.75), 0.12, "wall"),
+                   Stroke(((0.9, 0.05), (1.3, 0.7), (1.9, 0.85)), 0.03, "wall")))
+
+
+def build_walled_box(nx: int, ny: int):
+    """build_box with walls drawn inside it (cut cells), the same grid and the same blast."""
+    from shockslate.solver.domain import Domain
+    from shockslate.solver.geometry import wall_geometry
+    from shockslate.solver.simulation import Edges, Setup, Simulation
+
+    dom = Domain(0.0, 2.0, 0.0, 2.0 * ny / nx, nx)
+    geo = wall_geometry(wall_sketch(), dom)
+    sim = Simulation(Setup(domain=dom, edges=Edges("wall", "wall", "wall", "wall")), geo.mask, geo)
+    sim.set_primitive(*blast_initial(nx, ny))
+    return sim
+
+
+def measure_walls(nx: int, ny: int, threads: int, repeats: int) -> tuple[float, float]:
+    """(plain box, box with drawn walls) cell updates per second on the same grid, alternating bursts."""
+    import numba
+
+    numba.set_num_threads(threads)
+    plain, walled = build_box(nx, ny), build_walled_box(nx, ny)
+    develop = max(3, _steps_for(nx * ny) // 2)
+    plain.advance(develop)
+    walled.advance(develop)
+    steps = _steps_for(nx * ny)
+    a, b = [], []
+    for _ in range(repeats):
+        a.append(_median_rate(plain.step, nx * ny, steps, 1))
+        b.append(_median_rate(walled.step, nx * ny, steps, 1))
+    return statistics.median(a), statistics.median(b)
+
+
 def _median_rate(step, cells: int, steps: int, repeats: int) -> float:
     rates = []
     for _ in range(repeats):
@@ -140,6 +182,7 @@ def run_benchmark(repeats: int = 5, grids=GRIDS) -> dict:
             results.append({"nx": nx, "ny": ny, "threads": threads, "cell_updates_per_s": rate,
                             "bare_cell_updates_per_s": bare, "product_over_bare": rate / bare,
                             "numpy_cell_updates_per_s": np_rate, "ratio_to_numpy": rate / np_rate})
+    plain, walled = measure_walls(512, 256, all_threads, repeats)
     numba.set_num_threads(all_threads)
     array_bytes, rss_bytes = measure_memory(2048, 1024)
     key = next((g for g in results if (g["nx"], g["ny"], g["threads"]) == (512, 256, all_threads)), results[-1])
@@ -152,6 +195,9 @@ def run_benchmark(repeats: int = 5, grids=GRIDS) -> dict:
         "cpu_count": os.cpu_count(),
         "repeats": repeats,
         "grids": results,
+        "walls": {"grid": f"512x256, {all_threads} threads", "sketch": "rotated square, disc, sloped stroke",
+                  "plain_cell_updates_per_s": plain, "walls_cell_updates_per_s": walled,
+                  "walls_over_plain": walled / plain},
         "warm_start_s": measure_warm_start(),
         "bytes_per_cell_2048x1024": array_bytes,
         "rss_growth_bytes_per_cell_2048x1024": rss_bytes,
@@ -168,6 +214,9 @@ def _print_table(report: dict) -> None:
         print(f"{g['nx']:>5}x{g['ny']:<5} {g['threads']:>7} {g['cell_updates_per_s'] / 1e6:>16.1f} "
               f"{g['bare_cell_updates_per_s'] / 1e6:>7.1f} {g['product_over_bare']:>6.2f} "
               f"{g['numpy_cell_updates_per_s'] / 1e6:>8.2f} {g['ratio_to_numpy']:>7.1f}")
+    w = report["walls"]
+    print(f"drawn walls ({w['sketch']}) at {w['grid']}: {w['walls_cell_updates_per_s'] / 1e6:.1f} against "
+          f"{w['plain_cell_updates_per_s'] / 1e6:.1f} Mcell-updates/s without, ratio {w['walls_over_plain']:.2f}")
     print(f"warm start to first step: {report['warm_start_s']:.2f} s")
     print(f"memory at 2048x1024: {report['bytes_per_cell_2048x1024']:.0f} bytes/cell in arrays, "
           f"{report['rss_growth_bytes_per_cell_2048x1024']:.0f} bytes/cell resident growth")

@@ -60,7 +60,7 @@ def station_figures(sim: Simulation, scenario: scn.Scenario, noz: nozzle.DrawnNo
         r = read_station(sim, Station(tuple(st.start_m), tuple(st.end_m), st.name))
         ideal = None
         if noz is not None and (st.role is not None or noz.run_m[0] <= _station_x_m(st) <= noz.run_m[1]):
-            resolved = resolved or nozzle.resolved_areas(noz, scenario, sim.mask, sim.domain)
+            resolved = resolved or nozzle.resolved_areas(noz, scenario, sim.mask, sim.domain, sim.geometry.gas)
             ideal = station_ideal(scenario, noz, st, resolved)
         out.append({"name": st.name, "role": st.role, "mass_flow_kg_s": r.mass_flow_kg_s, "thrust_n": r.thrust_n,
                     "mean_mach": r.mean_mach, "mean_pressure_pa": r.mean_pressure_pa, "area_m2": r.area_m2,

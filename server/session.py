@@ -29,7 +29,7 @@ from shockslate.solver.domain import Domain
 from shockslate.solver.errors import SolverDiverged
 from shockslate.solver.kinds import HELD_KINDS, CellKind
 from shockslate.solver.gas import PRESETS, Gas
-from shockslate.solver.raster import rasterise
+from shockslate.solver.geometry import wall_geometry
 from shockslate.solver.shapes import shape_from_dict
 from shockslate.solver.simulation import Simulation
 from shockslate.solver.validation import Refused
@@ -364,7 +364,8 @@ class Session:
             self.sim.set_edges(scn.to_setup(new).edges)
 
     def _apply_mask(self, new: scn.Scenario) -> None:
-        self.sim.set_mask(rasterise(scn.to_sketch(new), self.sim.domain))
+        geo = wall_geometry(scn.to_sketch(new), self.sim.domain)
+        self.sim.set_mask(geo.mask, geo)
 
     def _change_sketch(self, sketch: dict, prefix_map: dict[str, str] | None = None) -> None:
         doc = self._doc()
@@ -488,7 +489,8 @@ class Session:
 
     def _remesh(self, new: scn.Scenario) -> None:
         domain = scn.to_domain(new)
-        self.sim.remesh(domain, rasterise(scn.to_sketch(new), domain))
+        geo = wall_geometry(scn.to_sketch(new), domain)
+        self.sim.remesh(domain, geo.mask, geo)
 
     def set_resolution(self, nx: int) -> None:
         doc = self._doc()

@@ -22,13 +22,9 @@ class Totals:
 
 
 def cell_volumes_m3(sim: Simulation) -> np.ndarray:
-    """Volume of each interior cell: dx^2 per metre depth (planar) or 2*pi*r*dx^2 (axisymmetric)."""
-    dom = sim.domain
-    dx = dom.dx_m
-    if sim.setup.mode == "axisymmetric":
-        r = dom.y_centres_m()
-        return np.broadcast_to((2.0 * math.pi * r * dx * dx)[:, None], dom.shape)
-    return np.full(dom.shape, dx * dx)
+    """Gas volume of each interior cell (Simulation.cell_volumes_m3): per metre depth (planar) or
+    over the full revolution (axisymmetric), less what walls drawn inside the cell take."""
+    return sim.cell_volumes_m3()
 
 
 def totals(sim: Simulation) -> Totals:
@@ -70,20 +66,10 @@ class StationReading:
     area_m2: float
 
 
-#: A station reads the mean over parallel copies shifted this many cells along its normal. Walls
-#: are staircases of cells, and gas crosses their cell faces (in at one step, out at the next),
-#: so a single line of cells reads a little high or low by where it cuts the steps.
-BAND_OFFSETS_CELLS = (-2, -1, 0, 1, 2)
-
-
-def _samples(sim: Simulation, station: Station, shift_cells: float = 0.0):
+def _samples(sim: Simulation, station: Station):
     """Sample points along the station at half-cell spacing, with their weights (m or m^2)."""
     dom = sim.domain
     (x0, y0), (x1, y1) = station.start_m, station.end_m
-    length0 = math.dist((x0, y0), (x1, y1))
-    sx = (y1 - y0) / length0 * shift_cells * dom.dx_m
-    sy = -(x1 - x0) / length0 * shift_cells * dom.dx_m
-    x0, x1, y0, y1 = x0 + sx, x1 + sx, y0 + sy, y1 + sy
     length = math.dist((x0, y0), (x1, y1))
     n = max(2, int(math.ceil(2.0 * length / dom.dx_m)))
     t = (np.arange(n) + 0.5) / n
@@ -104,74 +90,63 @@ def _samples(sim: Simulation, station: Station, shift_cells: float = 0.0):
 def read_station(sim: Simulation, station: Station) -> StationReading:
     """Mass flow, axial thrust ((rho u_x u_n + (p - p_amb) n_x) dA), mean Mach and pressure.
 
-    Mean Mach, pressure and area are the mean over a band of parallel lines of cells
-    (BAND_OFFSETS_CELLS). For a station along x = const, mass flow and thrust come from the
-    scheme's own face fluxes on the nearest cell-face line plus the gas that the wall hand-back
-    carries across that line, so a steady flow reads the same at every such station (discrete
-    conservation); other stations use the band of cell values.
+    A station along x = const reads the line of cell faces nearest it: its area is the faces' open
+    area (walls drawn inside cells take their share), mean Mach and pressure are open-area means of
+    the gas on both sides of each face, and mass flow and thrust are the scheme's own face fluxes
+    through the open areas (`Simulation.x_line_flux`) once a step has been taken, so a steady flow
+    reads the same at every such station (discrete conservation). Other stations sample the cells
+    along the segment, each weighted by its gas fraction.
     """
-    readings = [_read_line(sim, station, k) for k in BAND_OFFSETS_CELLS]
-    band = StationReading(*(float(np.mean([getattr(r, f) for r in readings]))
-                            for f in StationReading.__dataclass_fields__))
     (x0, y0), (x1, y1) = station.start_m, station.end_m
-    if x0 != x1 or not (sim.domain.x_min_m <= x0 <= sim.domain.x_max_m) or not sim.fluxes_current:
-        return band
-    mdot, thrust = _face_line_fluxes(sim, x0, min(y0, y1), max(y0, y1))
-    sign = 1.0 if y1 > y0 else -1.0
-    return StationReading(sign * mdot, sign * thrust, band.mean_mach, band.mean_pressure_pa, band.area_m2)
-
-
-def _face_line_fluxes(sim: Simulation, x_m: float, ya_m: float, yb_m: float) -> tuple[float, float]:
-    """(mass flow, thrust) in +x through the x-face line nearest x_m between heights ya and yb."""
     dom = sim.domain
-    dx = dom.dx_m
-    ny, nx = dom.shape
-    f = int(np.clip(round((x_m - dom.x_min_m) / dx), 0, nx))
-    j0 = int(np.clip(math.floor((ya_m - dom.y_min_m) / dx), 0, ny - 1))
-    j1 = int(np.clip(math.ceil((yb_m - dom.y_min_m) / dx) - 1, j0, ny - 1))
-    rows = np.arange(j0, j1 + 1)
-    axi = sim.setup.mode == "axisymmetric"
-    r_cell = (rows + 0.5) if axi else np.ones(rows.size)
-    area = (2.0 * math.pi * r_cell * dx * dx) if axi else np.full(rows.size, dx)
-    kind = sim.kind[GHOST:-GHOST, :][rows]
-    gas_face = (kind[:, f + GHOST - 1] != CellKind.WALL) & (kind[:, f + GHOST] != CellKind.WALL)
+    if x0 == x1 and dom.x_min_m <= x0 <= dom.x_max_m:
+        return _read_face_line(sim, x0, y0, y1)
+    return _read_line(sim, station)
+
+
+def _read_face_line(sim: Simulation, x_m: float, y0_m: float, y1_m: float) -> StationReading:
+    sign = 1.0 if y1_m > y0_m else -1.0
+    dom = sim.domain
+    nx = dom.nx
+    f = int(np.clip(round((x_m - dom.x_min_m) / dom.dx_m), 0, nx))
+    yc = dom.y_centres_m()
+    rows = np.nonzero((yc >= min(y0_m, y1_m)) & (yc <= max(y0_m, y1_m)))[0]
+    if rows.size == 0:
+        rows = np.array([dom.cell_index(x_m, 0.5 * (y0_m + y1_m))[0]])
+    area = sim.x_face_areas_m2()[rows, f]
+    total = float(area.sum())
+    if total <= 0.0:
+        return StationReading(0.0, 0.0, float("nan"), float("nan"), 0.0)
+    # the gas beside each face: the mean of the cells on both sides that hold gas
+    gas = sim.setup.gas
+    cols = [c for c in (f - 1, f) if 0 <= c < nx]
+    vals = np.zeros((5, rows.size))
+    count = np.zeros(rows.size)
+    for c in cols:
+        rho, u, v, p = (sim.W[k, rows + GHOST, c + GHOST] for k in range(4))
+        here = sim.mask[rows, c] != CellKind.WALL
+        m = mach(gas, rho, u, v, p)
+        for k, q in enumerate((m, p, rho * u, rho * u * u + p, rho)):
+            vals[k] += np.where(here, q, 0.0)
+        count += here
+    vals /= np.maximum(count, 1)[None, :]
     p_amb = sim.setup.conditions.ambient.p_pa
-    # mass: every face (gas crossing a wall face is part of the hand-back counted below);
-    # thrust: gas faces only, a wall face carries the wall's pressure, not gas through the station
-    mdot = float(np.sum(sim.Fx[0, rows, f] * area))
-    thrust = float(np.sum(np.where(gas_face, (sim.Fx[1, rows, f] - p_amb) * area, 0.0)))
-    # gas handed back across the line: source wall cell on one side, receiving cell on the other
-    src_j, src_i, start, rec_j, rec_i, w = sim.wall_return
-    if src_j.size:
-        fx0, gy0 = sim.Fx[0], sim.Gy[0]
-        rc = (src_j + 0.5) if axi else np.ones(src_j.size)
-        rf_lo = src_j.astype(float) if axi else np.ones(src_j.size)
-        rf_hi = (src_j + 1.0) if axi else np.ones(src_j.size)
-        m = ((fx0[src_j, src_i] - fx0[src_j, src_i + 1]) * rc + gy0[src_j, src_i] * rf_lo
-             - gy0[src_j + 1, src_i] * rf_hi)
-        per = np.diff(start)
-        s_of = np.repeat(np.arange(src_j.size), per)
-        left_src = src_i[s_of] < f
-        left_rec = rec_i < f
-        in_rows = ((src_j[s_of] >= j0) & (src_j[s_of] <= j1)) | ((rec_j >= j0) & (rec_j <= j1))
-        crossing = (left_src != left_rec) & in_rows
-        direction = np.where(left_src, 1.0, -1.0)
-        unit = 2.0 * math.pi * dx * dx if axi else dx
-        moved = m[s_of] * w * direction * unit * crossing
-        mdot += float(np.sum(moved))
-        thrust += float(np.sum(moved * sim.W[1, rec_j + GHOST, rec_i + GHOST]))
-    return mdot, thrust
+    mean_mach = float(np.sum(vals[0] * area) / total)
+    mean_p = float(np.sum(vals[1] * area) / total)
+    if sim.fluxes_current:
+        line = sim.x_line_flux(x_m, y0_m, y1_m)
+        mdot, thrust = line.mass_flow_kg_s, line.momentum_flux_n - p_amb * line.area_m2
+    else:
+        mdot = float(np.sum(vals[2] * area))
+        thrust = float(np.sum((vals[3] - p_amb) * area))
+    return StationReading(sign * mdot, sign * thrust, mean_mach, mean_p, total)
 
 
-def _read_line(sim: Simulation, station: Station, shift_cells: float) -> StationReading:
-    jj, ii, w, (nx_, ny_) = _samples(sim, station, shift_cells)
+def _read_line(sim: Simulation, station: Station) -> StationReading:
+    jj, ii, w, (nx_, ny_) = _samples(sim, station)
     s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
     rho, u, v, p = (sim.W[c][s][jj, ii] for c in range(4))
-    # the station's gas cross-section is that of its own line: a shifted line samples the same
-    # stretch of it, so a station at a nozzle's exit plane does not take in the gas beside the lip
-    c_jj, c_ii, _, _ = _samples(sim, station, 0.0) if shift_cells else (jj, ii, None, None)
-    gas_cells = (sim.mask[jj, ii] != CellKind.WALL) & (sim.mask[c_jj, c_ii] != CellKind.WALL)
-    w = np.where(gas_cells, w, 0.0)
+    w = w * sim.geometry.gas[jj, ii]
     area = float(w.sum())
     if area <= 0.0:
         return StationReading(0.0, 0.0, float("nan"), float("nan"), 0.0)
@@ -221,10 +196,11 @@ class ProbeReading:
 
 
 def read_probe(sim: Simulation, x_m: float, y_m: float) -> ProbeReading:
-    """The state of the cell that holds the point."""
+    """The state of the cell that holds the point; its kind is the one drawn at the cell's centre (a cell that
+    a wall crosses holds gas but reads "wall" when its centre lies in the wall)."""
     j, i = sim.domain.cell_index(x_m, y_m)
     rho, u, v, p = (float(sim.W[c, j + GHOST, i + GHOST]) for c in range(4))
-    kind = CellKind(int(sim.mask[j, i])).name.lower()
+    kind = CellKind(int(sim.geometry.drawn[j, i])).name.lower()
     gas = sim.setup.gas
     if kind == "wall":
         nan = float("nan")

@@ -348,9 +348,12 @@ def shock_switch(W, kind, hll_x, hll_y, ratio):
 
 
 @njit(**_PARALLEL)
-def update_stage(U, U0, W, Fx, Gy, kind, a, b, dt, inv_dx, w_plus, w_minus, source,
+def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus, source,
                  gamma, rho_floor, p_floor, row_rate, row_floors, row_bad):
-    """One SSP stage on fluid cells: U <- a*U0 + b*(U + dt*L(U)); refresh W.
+    """One SSP stage on full fluid cells: U <- a*U0 + b*(U + dt*L(U)); refresh W.
+
+    Cells flagged in `cut` (walls cross them, or they are merged with such a cell) are left to
+    cut_cells.update_cut_cells.
 
     w_plus / w_minus weight the upper / lower y-face fluxes and `source` multiplies the cell
     pressure in the y-momentum equation: 1, 1, 0 in planar mode; r_face / r_cell and 1 / r_cell
@@ -364,6 +367,7 @@ def update_stage(U, U0, W, Fx, Gy, kind, a, b, dt, inv_dx, w_plus, w_minus, sour
     for j in prange(ny):
         jj = j + 2
         k = kind[jj]
+        ct = cut[jj]
         u0 = U[0, jj]
         u1 = U[1, jj]
         u2 = U[2, jj]
@@ -396,7 +400,7 @@ def update_stage(U, U0, W, Fx, Gy, kind, a, b, dt, inv_dx, w_plus, w_minus, sour
         bad = 0
         for i in range(nx):
             ii = i + 2
-            if k[ii] != FLUID:
+            if k[ii] != FLUID or ct[ii] != 0:
                 continue
             l0 = -((fx0[i + 1] - fx0[i]) + (wp * gp0[i] - wm * gm0[i])) * inv_dx
             l1 = -((fx1[i + 1] - fx1[i]) + (wp * gp1[i] - wm * gm1_[i])) * inv_dx
@@ -612,54 +616,3 @@ def feed_reservoir_edge(U, W, kind, cells_j, cells_i, rho0, p0, gamma):
         U[1, jj, ii] = rho * u
         U[2, jj, ii] = rho * v
         U[3, jj, ii] = p / gm1 + 0.5 * rho * qsq
-
-
-@njit(**_SERIAL)
-def return_wall_imbalance(U, W, Fx, Gy, src_j, src_i, r_cell, r_face, rec_start, rec_j, rec_i, rec_w,
-                          b_dt, inv_dx, gamma, rho_floor, p_floor):
-    """Give the mass and energy that the last fluxes moved into wall cells back to the gas nearby.
-
-    Walls reflect gas about their own orientation, so on a staircase gas crosses the cell faces
-    of a wall: in at one step, out at the next. Wall cells store nothing, so the net of each
-    wall cell (in units of r * flux, per unit of dx) is handed, with Gaussian weights that sum
-    to one, to the fluid cells within a few cells of it (rec_*, CSR by source). Mass comes
-    with the receiving cell's velocity. Total mass and energy are then conserved to round-off
-    whatever the wall's slope. `b_dt` is the stage weight times the time step.
-    """
-    gm1 = gamma - 1.0
-    for s in range(src_j.shape[0]):
-        j = src_j[s]
-        i = src_i[s]
-        m = (Fx[0, j, i] - Fx[0, j, i + 1]) * r_cell[j] + Gy[0, j, i] * r_face[j] - Gy[0, j + 1, i] * r_face[j + 1]
-        e = (Fx[3, j, i] - Fx[3, j, i + 1]) * r_cell[j] + Gy[3, j, i] * r_face[j] - Gy[3, j + 1, i] * r_face[j + 1]
-        if m == 0.0 and e == 0.0:
-            continue
-        for k in range(rec_start[s], rec_start[s + 1]):
-            jf = rec_j[k]
-            jj = jf + 2
-            ii = rec_i[k] + 2
-            scale = b_dt * rec_w[k] * inv_dx / r_cell[jf]
-            dm = m * scale
-            U[0, jj, ii] += dm
-            U[1, jj, ii] += dm * W[1, jj, ii]
-            U[2, jj, ii] += dm * W[2, jj, ii]
-            U[3, jj, ii] += e * scale
-    # refresh the primitive state of every receiving cell
-    for k in range(rec_j.shape[0]):
-        jj = rec_j[k] + 2
-        ii = rec_i[k] + 2
-        r = U[0, jj, ii]
-        if r < rho_floor:
-            r = rho_floor
-            U[0, jj, ii] = r
-        vx = U[1, jj, ii] / r
-        vy = U[2, jj, ii] / r
-        kin = 0.5 * r * (vx * vx + vy * vy)
-        p = gm1 * (U[3, jj, ii] - kin)
-        if p < p_floor:
-            p = p_floor
-            U[3, jj, ii] = p / gm1 + kin
-        W[0, jj, ii] = r
-        W[1, jj, ii] = vx
-        W[2, jj, ii] = vy
-        W[3, jj, ii] = p

@@ -414,10 +414,16 @@ def drawn_area_m2(scenario, x_m: float) -> float:
 
 # ----------------------------------------------------------------------------- the resolved (cell mask) areas
 
-def resolved_column_areas_m2(mask: np.ndarray, domain: Domain, axis_y_m: float, mode: str) -> np.ndarray:
+def resolved_column_areas_m2(mask: np.ndarray, domain: Domain, axis_y_m: float, mode: str,
+                             gas: np.ndarray | None = None) -> np.ndarray:
     """Per cell column, the gas section the solver sees: from the symmetry line's row to the first wall cell
-    above (and below, for a line inside the domain), NaN where the column is not walled. (nx,)"""
+    above (and below, for a line inside the domain), NaN where the column is not walled. (nx,)
+
+    gas: each cell's gas fraction (the solver's cut-cell geometry, solver/geometry.py); a cell a wall crosses
+    then counts only its gas, so the section is that of the drawn wall as the solver resolves it. Without it
+    every cell that is not wall counts whole."""
     walls = mask == CellKind.WALL
+    frac = np.where(walls, 0.0, 1.0) if gas is None else np.where(walls, 0.0, gas)
     dx = domain.dx_m
     ja = 0 if axis_y_m <= domain.y_min_m else domain.cell_index(domain.x_min_m, axis_y_m)[0]
     above = walls[ja:, :]
@@ -426,8 +432,14 @@ def resolved_column_areas_m2(mask: np.ndarray, domain: Domain, axis_y_m: float, 
     below = walls[: ja + 1, :][::-1]
     has_bottom = below.any(axis=0)
     k_bottom = np.argmax(below, axis=0)
-    y_top = domain.y_min_m + (ja + k_top) * dx
-    y_bottom = np.where(has_bottom, domain.y_min_m + (ja - k_bottom + 1) * dx, domain.y_min_m)
+    # gas of the rows ja .. ja + k_top - 1 (above) and ja - k_bottom + 1 .. ja - 1 (below)
+    before_top = np.cumsum(above, axis=0) == 0
+    gas_above = np.sum(frac[ja:, :] * before_top, axis=0)
+    before_bottom = np.cumsum(below, axis=0) == 0
+    gas_below = np.sum(frac[: ja + 1, :][::-1] * before_bottom, axis=0) - frac[ja, :]
+    y_line = domain.y_min_m + ja * dx
+    y_top = y_line + gas_above * dx
+    y_bottom = np.where(has_bottom, y_line - gas_below * dx, domain.y_min_m)
     bounded = has_top & ~walls[ja, :] & (k_top > 0)
     if ja > 0:
         bounded &= has_bottom & (k_bottom > 0)
@@ -447,9 +459,11 @@ class ResolvedAreas:
     area_ratio_resolved: float
 
 
-def resolved_areas(nozzle: DrawnNozzle, scenario, mask: np.ndarray, domain: Domain) -> ResolvedAreas:
+def resolved_areas(nozzle: DrawnNozzle, scenario, mask: np.ndarray, domain: Domain,
+                   gas: np.ndarray | None = None) -> ResolvedAreas:
+    """The resolved throat and exit areas; gas: the cells' gas fractions (see resolved_column_areas_m2)."""
     d = drawing(scenario)
-    cols = resolved_column_areas_m2(mask, domain, d.axis_y_m, scenario.mode)
+    cols = resolved_column_areas_m2(mask, domain, d.axis_y_m, scenario.mode, gas)
     xc = domain.x_centres_m()
     in_run = (xc >= nozzle.run_m[0]) & (xc <= nozzle.exit_x_m) & np.isfinite(cols)
     throat = float(np.min(cols[in_run])) if in_run.any() else math.nan

@@ -69,7 +69,7 @@ class NozzleFigures:
 def figures(sim: Simulation, scenario, noz: nozzle.DrawnNozzle, throat: Station, exit_: Station) -> NozzleFigures:
     """Theory (solver.nozzle, drawn A*) and simulation (the throat and exit stations) for the current state."""
     ideal = nozzle.scenario_ideal(scenario, noz)
-    resolved = nozzle.resolved_areas(noz, scenario, sim.mask, sim.domain)
+    resolved = nozzle.resolved_areas(noz, scenario, sim.mask, sim.domain, sim.geometry.gas)
     lam = nozzle.divergence_factor(noz.divergence_half_angle_deg, scenario.mode)
     cond = scenario.conditions
     p0, t0, pa = cond.reservoir.p0_pa, cond.reservoir.t0_k, cond.ambient.p_pa

@@ -23,9 +23,9 @@ from .conditions import MACH_MAX, P_MAX_PA, T_MAX_K, T_MIN_K, Ambient, Condition
 from .diagnostics import Station
 from .domain import MAX_NX, Domain
 from .gas import GAMMA_MAX, GAMMA_MIN, PRESET_CHOICES, PRESETS, Gas
+from .geometry import wall_geometry
 from .kinds import EDGES, PAINTS
 from .numerics import CFL_MAX, CFL_MIN, FLUXES, INTEGRATOR_CHOICES, LIMITERS, ORDERS, Numerics
-from .raster import rasterise
 from .shapes import MIRRORS, SHAPE_KINDS, Metres, PositiveMetres, Sketch, SketchModel
 from .simulation import Edges, Setup, Simulation
 from .validation import Invalid, Problem, Refused, numeric_limits, problems, show_value
@@ -445,10 +445,10 @@ def initial_region(s: Scenario, domain: Domain) -> np.ndarray:
 
 
 def build_simulation(s: Scenario, nx: int | None = None) -> Simulation:
-    """A Simulation at the scenario's resolution (or nx), its sketch rasterised and `initial` applied."""
+    """A Simulation at the scenario's resolution (or nx), walls where the sketch draws them, `initial` applied."""
     setup = to_setup(s, nx)
-    mask = rasterise(to_sketch(s), setup.domain)
-    sim = Simulation(setup, mask)
+    geo = wall_geometry(to_sketch(s), setup.domain)
+    sim = Simulation(setup, geo.mask, geo)
     gas, cond = setup.gas, setup.conditions
     if s.initial.kind == "stream":
         st = cond.stream

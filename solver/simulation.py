@@ -11,14 +11,15 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import kernels
+from . import cut_cells, kernels
 from .conditions import Conditions, held_table
 from .domain import Domain
 from .errors import SolverDiverged
 from .gas import AIR, Gas
 from .kinds import EDGE_GHOST_KIND, HELD_KINDS, CellKind
+from .geometry import WallGeometry, staircase_geometry
 from .numerics import Numerics
-from .wall_normals import imbalance_receivers, wall_normals
+from .wall_normals import wall_normals
 
 MODES = ("planar", "axisymmetric")
 GHOST = 2
@@ -85,10 +86,23 @@ class Setup:
             raise ValueError("edges.bottom = 'axis' needs mode = 'axisymmetric'; use 'wall' for a planar symmetry line")
 
 
+@dataclass(frozen=True)
+class LineFlux:
+    """Fluxes through a line of x-faces (Simulation.x_line_flux)."""
+
+    mass_flow_kg_s: float
+    momentum_flux_n: float   #: x-momentum flux including the pressure force, p_amb not subtracted
+    area_m2: float           #: open area of the faces
+    face: int                #: index of the face line (face f lies left of cell column f)
+    rows: np.ndarray         #: the rows it covers
+
+
 class Simulation:
     """Owns the flow arrays and advances them with the configured scheme."""
 
-    def __init__(self, setup: Setup, mask: np.ndarray | None = None):
+    def __init__(self, setup: Setup, mask: np.ndarray | None = None, geometry: WallGeometry | None = None):
+        """`geometry` (solver.geometry.wall_geometry of the sketch) puts walls where they are drawn,
+        inside cells; with a mask alone every cell is wholly wall or gas."""
         self.setup = setup
         self.time_s = 0.0
         self.steps = 0
@@ -96,7 +110,7 @@ class Simulation:
         self.floors_last_step = 0
         self.last_dt_s = 0.0
         self._allocate(setup.domain)
-        self._set_kind(np.zeros(setup.domain.shape, np.uint8) if mask is None else mask)
+        self._set_kind(np.zeros(setup.domain.shape, np.uint8) if mask is None else mask, geometry)
         self._refresh_held()
         self.reset_flow()
 
@@ -144,7 +158,9 @@ class Simulation:
             self._w_minus = np.ones(ny)
             self._source = np.zeros(ny)
 
-    def _set_kind(self, mask: np.ndarray) -> None:
+    def _set_kind(self, mask: np.ndarray, geometry: WallGeometry | None = None) -> None:
+        if geometry is not None:
+            mask = geometry.mask
         mask = np.asarray(mask)
         if mask.shape != self.domain.shape:
             raise ValueError(f"mask shape {mask.shape} does not match the domain's (ny, nx) = {self.domain.shape}")
@@ -168,8 +184,16 @@ class Simulation:
         touches[1:, :] |= fluid[:-1, :]
         self._feed_j, self._feed_i = (a.astype(np.int64) for a in np.nonzero(res & touches))
         self._wall_nx, self._wall_ny = wall_normals(k, GHOST)
-        #: (source j, source i, CSR start, receiver j, receiver i, weight): see wall_normals.imbalance_receivers
-        self.wall_return = imbalance_receivers(k[GHOST:-GHOST, GHOST:-GHOST])
+        self.geometry = staircase_geometry(mask) if geometry is None else geometry
+        if self.geometry.open_x.shape != (mask.shape[0], mask.shape[1] + 1):
+            raise ValueError(f"geometry of shape {self.geometry.mask.shape} does not match the domain's {mask.shape}")
+        self._cut_cells, owned = cut_cells.build(self.geometry, self.setup.mode)
+        self._cut = np.zeros(k.shape, np.uint8)
+        self._cut[GHOST:-GHOST, GHOST:-GHOST] = owned
+        self._cut_out = np.zeros(3)
+        ax, ay, vol, _ = cut_cells.face_areas(self.geometry, self.setup.mode)
+        self._x_face_area = ax  # in cells (per radian / dx^2 in axisymmetric mode)
+        self._cell_volume = vol
 
     # ------------------------------------------------------------ conditions
     def _refresh_held(self) -> None:
@@ -218,11 +242,11 @@ class Simulation:
         self._hll_y[:] = 0
         self._update_rate()
 
-    def set_mask(self, mask: np.ndarray) -> None:
+    def set_mask(self, mask: np.ndarray, geometry: WallGeometry | None = None) -> None:
         """A new sketch at the same resolution. Cells that become fluid take the mean of their
         fluid neighbours (or the ambient state where there are none); the rest of the flow stays."""
         old = self.mask.copy()
-        self._set_kind(mask)
+        self._set_kind(mask, geometry)
         new = self.mask
         born = (new == CellKind.FLUID) & (old != CellKind.FLUID)
         if born.any():
@@ -234,19 +258,19 @@ class Simulation:
     def set_edges(self, edges: Edges) -> None:
         self.setup = replace(self.setup, edges=edges)
         mask = self.mask.copy()
-        self._set_kind(mask)
+        self._set_kind(mask, self.geometry)
         self._refresh_held()
         self._fill_edges()
         self._update_rate()
 
-    def remesh(self, domain: Domain, mask: np.ndarray) -> None:
+    def remesh(self, domain: Domain, mask: np.ndarray, geometry: WallGeometry | None = None) -> None:
         """Change resolution (or extent): the flow is carried over by bilinear interpolation."""
         old_prim = self.primitive()
         old_fluid = self.mask == CellKind.FLUID
         old_domain = self.domain
         self.setup = replace(self.setup, domain=domain)
         self._allocate(domain)
-        self._set_kind(mask)
+        self._set_kind(mask, geometry)
         self._refresh_held()
         self._fill_uniform_ambient()
         new_prim = [_bilinear(old_domain, q, old_fluid, domain) for q in old_prim]
@@ -335,6 +359,44 @@ class Simulation:
         """Copies of (rho, u, v, p) on the interior cells, each (ny, nx). Walls hold filler values."""
         s = (slice(GHOST, -GHOST), slice(GHOST, -GHOST))
         return tuple(self.W[c][s].copy() for c in range(4))  # type: ignore[return-value]
+
+    # ---------------------------------------------------------- measurement
+    def cell_volumes_m3(self) -> np.ndarray:
+        """Gas volume of each interior cell (ny, nx): per metre of depth (planar) or over the full
+        revolution (axisymmetric); walls drawn inside a cell take their share away."""
+        dx = self.domain.dx_m
+        if self.setup.mode == "axisymmetric":
+            return 2.0 * math.pi * self._cell_volume * dx ** 3
+        return self._cell_volume * dx * dx
+
+    def x_face_areas_m2(self) -> np.ndarray:
+        """Open area of each x-face (ny, nx + 1), face f left of cell column f: per metre of depth
+        (planar) or over the full revolution (axisymmetric)."""
+        dx = self.domain.dx_m
+        if self.setup.mode == "axisymmetric":
+            return 2.0 * math.pi * self._x_face_area * dx * dx
+        return self._x_face_area * dx
+
+    def x_line_flux(self, x_m: float, y_lo_m: float, y_hi_m: float) -> "LineFlux":
+        """What the last step's face fluxes carried in +x through the line of x-faces nearest x = x_m,
+        over the rows whose centres lie between y_lo_m and y_hi_m (at least one row).
+
+        Mass flow (kg/s) and x-momentum flux including pressure (N) are the scheme's own fluxes times
+        the faces' open areas, so a steady flow reads the same on every such line. Per metre of depth
+        in planar mode. Needs `fluxes_current`; raises RuntimeError otherwise.
+        """
+        if not self.fluxes_current:
+            raise RuntimeError("x_line_flux needs the fluxes of the last step: advance the flow first")
+        dom = self.domain
+        ny, nx = dom.shape
+        f = int(np.clip(round((x_m - dom.x_min_m) / dom.dx_m), 0, nx))
+        yc = dom.y_centres_m()
+        rows = np.nonzero((yc >= min(y_lo_m, y_hi_m)) & (yc <= max(y_lo_m, y_hi_m)))[0]
+        if rows.size == 0:
+            rows = np.array([dom.cell_index(x_m, 0.5 * (y_lo_m + y_hi_m))[0]])
+        area = self.x_face_areas_m2()[rows, f]
+        return LineFlux(float(np.sum(self.Fx[0, rows, f] * area)), float(np.sum(self.Fx[1, rows, f] * area)),
+                        float(np.sum(area)), f, rows)
 
     # -------------------------------------------------------------- stepping
     def _update_rate(self) -> None:
@@ -426,23 +488,26 @@ class Simulation:
             kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
             kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
             # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
-            kernels.update_stage(self.U, self.U0 if a != 0.0 else self.U, self.W, self.Fx, self.Gy, self.kind, a, b, dt, inv_dx,
+            u0 = self.U0 if a != 0.0 else self.U
+            kernels.update_stage(self.U, u0, self.W, self.Fx, self.Gy, self.kind, self._cut, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
                                  self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
-            kernels.return_wall_imbalance(self.U, self.W, self.Fx, self.Gy, *self.wall_return[:2], self._r_cell,
-                                          self._r_face, *self.wall_return[2:], b * dt, inv_dx, gamma,
-                                          self._rho_floor, self._p_floor)
+            cc = self._cut_cells
+            cut_cells.update_cut_cells(self.U, u0, self.W, self.Fx, self.Gy, a, b, dt, inv_dx, cc.j, cc.i, cc.volume,
+                                       cc.area_left, cc.area_right, cc.area_bottom, cc.area_top, cc.area_2d,
+                                       cc.wall_x, cc.wall_y, cc.start, gamma,
+                                       self._rho_floor, self._p_floor, self._cut_out)
             self._fill_edges()
-            floors += int(self._row_floors.sum())
+            floors += int(self._row_floors.sum()) + int(self._cut_out[1])
         prev_rate = self._rate
         self.floors_last_step = floors
         self.floors_total += floors
         self.time_s += dt
         self.steps += 1
         self.last_dt_s = dt
-        if self._row_bad.any():
+        if self._row_bad.any() or self._cut_out[2] > 0:
             self._diverged("non_finite")
-        self._rate = max(float(self._row_rate.max()), self._held_rate)
+        self._rate = max(float(self._row_rate.max()), float(self._cut_out[0]), self._held_rate)
         self._fluxes_step = self.steps
         self._watch(prev_rate, floors)
         return dt

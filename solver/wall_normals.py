@@ -1,9 +1,9 @@
-"""The orientation of each wall cell, so a staircase of cells can act as the wall it approximates.
+"""The orientation of each wall cell (a cell holding no gas), for the reconstruction beside walls.
 
-A sketch is painted onto square cells, so an inclined wall becomes a staircase. Mirroring the
-gas about each cell face would make every step a tiny forward or backward step, which sheds
-spurious entropy and thickens into a layer that chokes nozzles early. Instead each wall cell
-reflects the gas about the local wall orientation, estimated from the mask itself with a
+Walls cross cells where they are drawn (solver.geometry, solver.cut_cells); a face next to a cell
+that holds no gas is closed. The slopes of the faces one cell away still read that cell: it stands
+for the mirror image of the gas beside it, reflected about the local wall orientation (a face-wise
+mirror would turn a sloped wall into tiny forward and backward steps). The orientation is estimated from the mask itself with a
 structure tensor (smoothed outer product of the gradient of the smoothed wall indicator). The tensor is
 blind to the sign of the normal, which is what a reflection needs, and it stays defined inside
 thin walls that have gas on both sides. Straight walls along the grid come out exactly along an
@@ -67,59 +67,3 @@ def wall_normals(kind: np.ndarray, ghost: int) -> tuple[np.ndarray, np.ndarray]:
     nx[not_wall] = 0.0
     ny[not_wall] = 0.0
     return nx, ny
-
-
-#: Wall imbalance is handed to fluid cells within this radius (cells), Gaussian weights of this width.
-RETURN_RADIUS_CELLS = 4
-RETURN_SIGMA_CELLS = 2.0
-
-
-def imbalance_receivers(mask: np.ndarray):
-    """For each wall cell touching fluid (the sources), the fluid cells that take back what the
-    fluxes carry into it, with normalised Gaussian weights (CSR arrays, interior indices).
-
-    Receivers are fluid cells that touch a wall; a source's weights sum to one, so handing back
-    conserves exactly.
-    """
-    wall = mask == CellKind.WALL
-    fluid = mask == CellKind.FLUID
-
-    def touches(a: np.ndarray) -> np.ndarray:
-        t = np.zeros_like(a)
-        t[:, :-1] |= a[:, 1:]
-        t[:, 1:] |= a[:, :-1]
-        t[:-1, :] |= a[1:, :]
-        t[1:, :] |= a[:-1, :]
-        return t
-
-    sources = np.argwhere(wall & touches(fluid))
-    receiver = fluid & touches(wall)
-    ny, nx = mask.shape
-    R = RETURN_RADIUS_CELLS
-    rows_j, rows_i, rows_w, rows_s = [], [], [], []
-    for dj in range(-R, R + 1):
-        for di in range(-R, R + 1):
-            d2 = dj * dj + di * di
-            if d2 > R * R:
-                continue
-            tj = sources[:, 0] + dj
-            ti = sources[:, 1] + di
-            ok = (tj >= 0) & (tj < ny) & (ti >= 0) & (ti < nx)
-            idx = np.nonzero(ok)[0]
-            hit = idx[receiver[tj[idx], ti[idx]]]
-            rows_s.append(hit)
-            rows_j.append(tj[hit])
-            rows_i.append(ti[hit])
-            rows_w.append(np.full(hit.size, np.exp(-0.5 * d2 / RETURN_SIGMA_CELLS ** 2)))
-    s = np.concatenate(rows_s) if rows_s else np.zeros(0, np.int64)
-    order = np.argsort(s, kind="stable")
-    s = s[order]
-    rec_j = np.concatenate(rows_j)[order].astype(np.int64)
-    rec_i = np.concatenate(rows_i)[order].astype(np.int64)
-    w = np.concatenate(rows_w)[order]
-    counts = np.bincount(s, minlength=len(sources))
-    start = np.zeros(len(sources) + 1, np.int64)
-    np.cumsum(counts, out=start[1:])
-    totals = np.add.reduceat(w, start[:-1]) if w.size else w
-    w = w / np.repeat(totals, counts)
-    return (sources[:, 0].astype(np.int64), sources[:, 1].astype(np.int64), start, rec_j, rec_i, w)

@@ -221,9 +221,8 @@ def test_local_cluster_sweep_of_four_tiny_cases_gives_four_rows(tmp_path):
         assert summary["status"] == "finished" and (case_dir / "history.csv").is_file()
         meta = json.loads((case_dir / "case.json").read_text())
         assert meta["ran_on"].split(":")[-1] != str(os.getpid())  # ran in a worker process, not here
-    # more gas in the charge pushes more through the door
-    flows = [float(r["stations.door.mass_flow_kg_s"]) for r in rows]
-    assert flows == sorted(flows) and flows[-1] > flows[0]
+    # (no ordering of the door's mass flow by charge: at TINY_UNTIL_S the blast has not reached the door, and
+    # its readings are round-off, 1e-15 to 1e-11 kg/s, of either sign)
     doc = json.loads((tmp_path / "sweep.json").read_text())
     assert doc["vary"] == [{"path": "conditions.reservoir.p0_pa", "values": [1e6, 1.5e6, 2e6, 2.5e6]}]
     assert doc["counts"]["finished"] == 4 and len(doc["rows"]) == 4 and doc["caution"] == CAUTION
@@ -259,7 +258,9 @@ def test_starting_a_local_cluster_leaves_this_process_environment_alone():
 
 
 def test_diverging_case_is_a_row_with_its_error_and_the_others_finish(client, tmp_path):
-    plan = blast_plan("numerics.cfl=0.4,1.9,0.6", until_s=None)  # the scenario's 20 ms
+    # the scenario's 20 ms; CFL 1.9 with the MC limiter is beyond the scheme's stability limit (with van Leer
+    # the blast room at nx 60 happens to finish)
+    plan = blast_plan("numerics.cfl=0.4,1.9,0.6", "numerics.limiter=van_leer,mc,van_leer", zip_=True, until_s=None)
     seen: list[sweep.SweepProgress] = []
     result = sweep.run_sweep(plan, tmp_path, client=client, progress=seen.append)
     by_cfl = {r["numerics.cfl"]: r for r in read_csv(tmp_path / "sweep.csv")}

@@ -10,7 +10,7 @@ from shockslate.solver.domain import Domain
 from shockslate.solver.kinds import CellKind
 from shockslate.solver.raster import rasterise
 from shockslate.solver.shapes import Polygon, Rectangle, Sketch
-from shockslate.solver.wall_normals import imbalance_receivers, wall_normals
+from shockslate.solver.wall_normals import wall_normals
 
 
 def _padded(mask):
@@ -52,19 +52,6 @@ def test_straight_grid_walls_are_exact_axes():
     assert edge.sum() == 100
     assert np.all(nx[edge] == 0.0) and np.all(np.abs(ny[edge]) == 1.0)
     assert np.all(nx[kind != CellKind.WALL] == 0.0) and np.all(ny[kind != CellKind.WALL] == 0.0)
-
-
-def test_hand_back_weights_sum_to_one_and_stay_near():
-    dom = Domain(0.0, 1.0, 0.0, 0.5, 80)
-    mask = rasterise(Sketch((Polygon(((0.1, 0.1), (0.9, 0.2), (0.5, 0.45)), "wall"),)), dom)
-    src_j, src_i, start, rec_j, rec_i, w = imbalance_receivers(mask)
-    assert src_j.size > 0
-    sums = np.add.reduceat(w, start[:-1])
-    np.testing.assert_allclose(sums, 1.0, rtol=1e-12)
-    s_of = np.repeat(np.arange(src_j.size), np.diff(start))
-    assert np.all(np.hypot(rec_j - src_j[s_of], rec_i - src_i[s_of]) <= 4.0)
-    assert np.all(mask[rec_j, rec_i] == CellKind.FLUID)
-    assert np.all(mask[src_j, src_i] == CellKind.WALL)
 
 
 def test_a_single_row_of_cells_has_orientations_too():

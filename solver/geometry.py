@@ -1,0 +1,277 @@
+"""Walls where they are drawn: the gas fraction of each cell and the open fraction of each face.
+
+A sketch is vector shapes in metres; the grid is square cells. Instead of turning every cell wholly
+into wall or gas (a staircase), each cell keeps the fraction of its area that is gas, and each
+face the fraction of its length that is open (embedded-boundary or cut-cell finite volumes:
+Colella, Graves, Keen and Modiano 2006; Pember et al. 1995 for the axisymmetric case).
+
+Fractions are found by sub-cell sampling, once per sketch change, never per step:
+  1. the kind (last shape painting it wins, as in `raster`) is evaluated on a lattice of points half a
+     cell apart; a cell whose nine lattice points are not all wall or all gas is a *cut candidate*;
+  2. each candidate is sampled on SAMPLES x SAMPLES sub-cell centres (its gas fraction, and in
+     axisymmetric mode its radius moment), and on FACE_SAMPLES points along each of its faces.
+Only wall samples close a cell; reservoir, stream and ambient samples count as gas (their cells keep
+the kind of their centre, as painted by `raster`). A candidate whose gas falls apart into separate
+pieces (a wall thinner than a cell crossing it) becomes a wall cell, so a thin wall never lets gas
+through a cell; so does a cell without gas or with every face closed. Faces beside wall cells are closed.
+
+Everything the scheme needs follows from these numbers: a cut cell's wall has the area vector that
+closes its faces (divergence theorem), so a uniform pressure exerts no net force on any cell,
+whatever the sampling error.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numba import njit
+
+from .domain import Domain
+from .kinds import HELD_KINDS, PAINTABLE, CellKind
+from .raster import _index_range, footprint, mirror_line_m, rasterise
+from .shapes import Sketch
+
+#: Sub-cell samples per cell side (gas fractions are multiples of 1 / SAMPLES^2).
+SAMPLES = 16
+#: Samples along each face of a cut cell. The wall's area vector is the difference of face fractions,
+#: so their error turns the wall: with 16 samples a flat wall at 25 degrees came out a few degrees off
+#: in single cells and the gas beside it lost 3-5 % of total pressure at Mach 2 whatever the cell size;
+#: 512 samples keep the turn below about 0.1 degree.
+FACE_SAMPLES = 512
+
+_WALL = int(CellKind.WALL)
+
+
+@dataclass(frozen=True)
+class WallGeometry:
+    """Cell kinds and the cut-cell fractions of one sketch on one domain.
+
+    mask        (ny, nx) uint8: WALL where a cell holds no gas, held kinds by cell centre, FLUID else
+    gas         (ny, nx) gas fraction of each cell's area (0 on wall cells)
+    gas_r       (ny, nx) per-radian gas volume / dx^3, i.e. the gas area weighted by radius in cells
+                ((j + 0.5) for a full cell of row j); used in axisymmetric mode
+    open_x      (ny, nx + 1) open fraction of each x-face (face f lies left of cell f)
+    open_x_r    (ny, nx + 1) radius moment of the open part of each x-face, in cells (per-radian area / dx^2)
+    open_y      (ny + 1, nx) open fraction of each y-face (face f lies below row f)
+    drawn       (ny, nx) uint8 kind painted at each cell centre (what a probe at that cell reads)
+    """
+
+    mask: np.ndarray
+    gas: np.ndarray
+    gas_r: np.ndarray
+    open_x: np.ndarray
+    open_x_r: np.ndarray
+    open_y: np.ndarray
+    drawn: np.ndarray
+
+    @property
+    def cut(self) -> np.ndarray:
+        """Gas cells that are not plain full cells: part wall, or a face partly or wholly closed."""
+        fluid = self.mask == CellKind.FLUID
+        partial = (self.gas < 1.0) | (self.open_x[:, :-1] < 1.0) | (self.open_x[:, 1:] < 1.0)
+        partial |= (self.open_y[:-1, :] < 1.0) | (self.open_y[1:, :] < 1.0)
+        return fluid & partial
+
+
+def staircase_geometry(mask: np.ndarray) -> WallGeometry:
+    """The geometry of a bare mask: each cell wholly wall or wholly gas (faces beside walls closed)."""
+    mask = np.asarray(mask, dtype=np.uint8)
+    ny, nx = mask.shape
+    gas = (mask != _WALL).astype(float)
+    rows = np.arange(ny, dtype=float)[:, None]
+    open_x, open_y = _faces_from_cells(mask, np.ones((ny, nx + 1)), np.ones((ny + 1, nx)))
+    return WallGeometry(mask.copy(), gas, gas * (rows + 0.5), open_x, open_x * (rows + 0.5), open_y, mask.copy())
+
+
+def _faces_from_cells(mask: np.ndarray, open_x: np.ndarray, open_y: np.ndarray):
+    """Close every face that has a wall cell on either side (domain-edge faces keep their value)."""
+    wall = mask == _WALL
+    open_x = open_x.copy()
+    open_y = open_y.copy()
+    open_x[:, :-1][wall] = 0.0
+    open_x[:, 1:][wall] = 0.0
+    open_y[:-1, :][wall] = 0.0
+    open_y[1:, :][wall] = 0.0
+    return open_x, open_y
+
+
+def _painted_shapes(sketch: Sketch, domain: Domain):
+    """Shapes in paint order, each followed by its reflection when the sketch is mirrored."""
+    y_line = mirror_line_m(sketch.mirror, domain)
+    out = []
+    for shape in sketch.shapes:
+        out.append(shape)
+        if y_line is not None:
+            out.append(shape.mirrored_about_y(y_line))
+    return out
+
+
+def _kinds_at(shapes, xs: np.ndarray, ys: np.ndarray, dx_m: float) -> np.ndarray:
+    """Kind (uint8) at every point (xs[i], ys[j]) of ascending xs, ys: the last shape containing it."""
+    out = np.full((ys.size, xs.size), int(CellKind.FLUID), np.uint8)
+    if xs.size == 0 or ys.size == 0:
+        return out
+    for shape in shapes:
+        x0, y0, x1, y1 = shape.bounds_m()
+        pad = 0.75 * dx_m + 1e-12
+        i0, i1 = np.searchsorted(xs, x0 - pad, "left"), np.searchsorted(xs, x1 + pad, "right")
+        j0, j1 = np.searchsorted(ys, y0 - pad, "left"), np.searchsorted(ys, y1 + pad, "right")
+        if i0 >= i1 or j0 >= j1:
+            continue
+        inside = footprint(shape, xs[i0:i1], ys[j0:j1], dx_m)
+        out[j0:j1, i0:i1][inside] = PAINTABLE[shape.paints]
+    return out
+
+
+def wall_geometry(sketch: Sketch, domain: Domain, samples: int = SAMPLES,
+                  face_samples: int = FACE_SAMPLES) -> WallGeometry:
+    """Gas fractions of cells and open fractions of faces of the sketch on the domain (see module doc)."""
+    if not isinstance(sketch, Sketch):
+        raise TypeError(f"sketch = {sketch!r} must be a solver.shapes.Sketch")
+    centre_mask = rasterise(sketch, domain)
+    shapes = _painted_shapes(sketch, domain)
+    ny, nx = domain.shape
+    dx = domain.dx_m
+    if not any(s.paints == "wall" for s in shapes):
+        return staircase_geometry(centre_mask)
+    # 1. the half-cell lattice: candidates are cells whose 3 x 3 lattice points disagree on wall
+    lx = domain.x_min_m + np.arange(2 * nx + 1) * (0.5 * dx)
+    ly = domain.y_min_m + np.arange(2 * ny + 1) * (0.5 * dx)
+    lat_wall = _kinds_at(shapes, lx, ly, dx) == _WALL
+    any_wall = np.zeros((ny, nx), bool)
+    all_wall = np.ones((ny, nx), bool)
+    for a in range(3):
+        for b in range(3):
+            blk = lat_wall[a:a + 2 * ny:2, b:b + 2 * nx:2]
+            any_wall |= blk
+            all_wall &= blk
+    cand = any_wall & ~all_wall
+    gas = np.where(all_wall, 0.0, 1.0)
+    rows = np.arange(ny, dtype=float)[:, None]
+    gas_r = gas * (rows + 0.5)
+    # face values of uniform cells: their lattice points along the face
+    face_x_lat = lat_wall[1::2, ::2]  # (ny, nx + 1): mid-point of each x-face
+    face_y_lat = lat_wall[::2, 1::2]  # (ny + 1, nx)
+    open_x = np.where(face_x_lat, 0.0, 1.0)
+    open_y = np.where(face_y_lat, 0.0, 1.0)
+    broken = np.zeros((ny, nx), bool)
+    # 2. sub-cell samples of the candidates, row by row
+    S = int(samples)
+    sub = (np.arange(S) + 0.5) / S
+    F = int(face_samples)
+    sub_f = (np.arange(F) + 0.5) / F
+    for j in np.nonzero(cand.any(axis=1))[0]:
+        cols = np.nonzero(cand[j])[0]
+        y_lo = domain.y_min_m + j * dx
+        ys = y_lo + sub * dx
+        xs_c = (domain.x_min_m + (cols[:, None] + sub[None, :]) * dx).ravel()
+        block = (_kinds_at(shapes, xs_c, ys, dx) != _WALL).reshape(S, cols.size, S)  # gas samples
+        r_s = j + sub  # radius of the sample rows, in cells
+        for n, i in enumerate(cols):
+            cell = block[:, n, :]
+            frac = cell.mean()
+            gas[j, i] = frac
+            gas_r[j, i] = float(np.sum(cell * r_s[:, None])) / (S * S)
+            if frac > 0.0 and _pieces(cell) > 1:
+                broken[j, i] = True
+        xs_f = (domain.x_min_m + (cols[:, None] + sub_f[None, :]) * dx).ravel()
+        edge = _kinds_at(shapes, xs_f, np.array([y_lo, y_lo + dx]), dx) != _WALL
+        edge = edge.reshape(2, cols.size, F)
+        open_y[j, cols] = edge[0].mean(axis=1)
+        open_y[j + 1, cols] = edge[1].mean(axis=1)
+    # x-faces of candidates: open fraction and radius moment from samples along each face
+    open_x_r = _x_face_moments(shapes, domain, cand, open_x, open_x * (rows + 0.5), F)
+    # 3. kinds: held cells keep their centre's kind; a cell with no gas or broken gas is wall. A sliver
+    #    whose sub-cell samples all fell on wall but whose faces open keeps a small estimate of its gas:
+    #    closing its faces would turn the wall of its neighbours (see FACE_SAMPLES).
+    held = np.isin(centre_mask, [int(k) for k in HELD_KINDS])
+    mask = np.where(held, centre_mask, np.uint8(CellKind.FLUID)).astype(np.uint8)
+    any_open = (open_x[:, :-1] > 0) | (open_x[:, 1:] > 0) | (open_y[:-1] > 0) | (open_y[1:] > 0)
+    sliver = (gas <= 0.0) & any_open & ~broken & ~held
+    estimate = 0.25 * (open_x[:, :-1] + open_x[:, 1:]) * (open_y[:-1] + open_y[1:])
+    gas = np.where(sliver, np.maximum(estimate, 0.25 / (S * S)), gas)
+    gas_r = np.where(sliver, gas * (rows + 0.5), gas_r)
+    solid = ((gas <= 0.0) | broken) & ~held
+    gas = np.where(held, 1.0, gas)
+    gas_r = np.where(held, rows + 0.5, gas_r)
+    # 4. close faces beside wall cells; a gas cell closed on every face holds gas no flow can reach, and a
+    #    small one open only to held cells or the domain edge has no gas cell to merge with: wall too
+    while solid.any():
+        mask[solid] = _WALL
+        gas[solid] = 0.0
+        gas_r[solid] = 0.0
+        open_x, open_y = _faces_from_cells(mask, open_x, open_y)
+        solid = ((mask == CellKind.FLUID) & (open_x[:, :-1] == 0) & (open_x[:, 1:] == 0)
+                 & (open_y[:-1] == 0) & (open_y[1:] == 0)) | _stranded(mask, gas, open_x, open_y)
+    open_x_r = np.where(open_x > 0.0, open_x_r, 0.0)
+    return WallGeometry(mask, gas, gas_r, open_x, open_x_r, open_y, centre_mask)
+
+
+#: Cells with less gas than this are merged with gas neighbours (solver.cut_cells); one without any is wall.
+SMALL_GAS_FRACTION = 0.5
+
+
+def _stranded(mask, gas, open_x, open_y) -> np.ndarray:
+    """Small gas cells with no open face to another gas cell."""
+    fluid = mask == CellKind.FLUID
+    reach = np.zeros_like(fluid)
+    reach[:, :-1] |= (open_x[:, 1:-1] > 0) & fluid[:, 1:]
+    reach[:, 1:] |= (open_x[:, 1:-1] > 0) & fluid[:, :-1]
+    reach[:-1, :] |= (open_y[1:-1] > 0) & fluid[1:, :]
+    reach[1:, :] |= (open_y[1:-1] > 0) & fluid[:-1, :]
+    return fluid & ~reach & (gas < SMALL_GAS_FRACTION)
+
+
+def _x_face_moments(shapes, domain: Domain, cand: np.ndarray, open_x, open_x_r, S: int) -> np.ndarray:
+    """Radius moments (in cells) of the x-faces of candidate cells, from samples along each face."""
+    ny, nx = cand.shape
+    dx = domain.dx_m
+    sub = (np.arange(S) + 0.5) / S
+    out = open_x_r.copy()
+    faces = np.zeros((ny, nx + 1), bool)
+    faces[:, :-1] |= cand
+    faces[:, 1:] |= cand
+    for j in np.nonzero(faces.any(axis=1))[0]:
+        fs = np.nonzero(faces[j])[0]
+        xs = domain.x_min_m + fs * dx
+        ys = domain.y_min_m + (j + sub) * dx
+        gas = _kinds_at(shapes, xs, ys, dx) != _WALL  # (S, len(fs))
+        out[j, fs] = np.sum(gas * (j + sub)[:, None], axis=0) / S
+        open_x[j, fs] = gas.mean(axis=0)
+    return out
+
+
+@njit(cache=True)
+def _pieces_kernel(cell):
+    """Number of 4-connected pieces of True in a small boolean block (flood fill)."""
+    n0, n1 = cell.shape
+    label = np.zeros((n0, n1), np.int64)
+    stack = np.empty((n0 * n1, 2), np.int64)
+    count = 0
+    for a in range(n0):
+        for b in range(n1):
+            if not cell[a, b] or label[a, b] != 0:
+                continue
+            count += 1
+            top = 0
+            stack[0, 0] = a
+            stack[0, 1] = b
+            label[a, b] = count
+            top = 1
+            while top > 0:
+                top -= 1
+                p = stack[top, 0]
+                q = stack[top, 1]
+                for d in range(4):
+                    pp = p + (1 if d == 0 else (-1 if d == 1 else 0))
+                    qq = q + (1 if d == 2 else (-1 if d == 3 else 0))
+                    if 0 <= pp < n0 and 0 <= qq < n1 and cell[pp, qq] and label[pp, qq] == 0:
+                        label[pp, qq] = count
+                        stack[top, 0] = pp
+                        stack[top, 1] = qq
+                        top += 1
+    return count
+
+
+def _pieces(cell: np.ndarray) -> int:
+    return int(_pieces_kernel(np.ascontiguousarray(cell)))
