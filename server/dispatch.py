@@ -202,9 +202,12 @@ class Dispatcher:
         if message.what == "npz":
             snap, scenario = await self.runner.read(lambda: (s.snapshot(), s.scenario))
             path = await asyncio.to_thread(self.exports.write_npz, snap, scenario)
+        elif message.what == "vti":
+            snap, scenario = await self.runner.read(lambda: (s.snapshot(), s.scenario))
+            path = await asyncio.to_thread(self.exports.write_vti, snap, scenario)
         elif message.what == "csv":
             if not s.scenario.stations:
-                raise RequestError("what", "csv", "npz or scenario (csv holds station distributions: add a station "
+                raise RequestError("what", "csv", "npz, vti or scenario (csv holds station distributions: add a station "
                                    "first)", "A CSV export holds station distributions; add a station first.",
                                    "needs_station")
             path = await self.runner.read(lambda: self.exports.write_csv(s.sim, s.scenario))

@@ -316,7 +316,7 @@ class DeleteScenario(_Message):
 
 class Export(_Message):
     type: Literal["export"]
-    what: Literal["npz", "csv", "scenario"]
+    what: Literal["npz", "vti", "csv", "scenario"]
 
 
 class ListExports(_Message):

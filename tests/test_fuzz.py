@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import random
+import re
 
 import pytest
 from starlette.testclient import TestClient
@@ -22,6 +23,9 @@ WS = "ws://127.0.0.1:8765/ws"
 SEED = 20261202
 MESSAGES = 2000
 MAX_READS = 400
+#: What a refusal must not show a user: Python's own words (exception and class names, tracebacks).
+PYTHON_WORDS = re.compile(r"Traceback|Error\b|Exception|<class|NoneType|\bdict\b|\bstr\b|\bint\b|"
+                          r"sys\.set_int_max_str_digits|pydantic|validation error")
 
 TYPES = ["add_shape", "remove_shape", "undo", "redo", "clear_sketch", "set_mirror", "set_gas", "set_conditions",
          "set_numerics", "set_resolution", "set_domain", "set_edges", "set_mode", "run", "pause", "reset_flow",
@@ -104,7 +108,7 @@ def _until_sentinel(sock, rid: str) -> list[dict]:
 
 def test_thousands_of_random_and_malformed_messages_get_answers_and_never_drop_the_tab(client):
     rng = random.Random(SEED)
-    internal, refusals = [], 0
+    internal, wording, refusals = [], [], 0
     with client.websocket_connect(WS) as sock:
         sock.receive_json()
         for n in range(MESSAGES):
@@ -117,7 +121,11 @@ def test_thousands_of_random_and_malformed_messages_get_answers_and_never_drop_t
             for reply in _until_sentinel(sock, rid):
                 if reply.get("type") == "error":
                     refusals += 1
-                    if reply.get("field") == "server" or "internal error" in str(reply.get("message")):
-                        internal.append((text[:300], reply["message"][:300]))
+                    said = str(reply.get("message"))
+                    if reply.get("field") == "server" or "internal error" in said:
+                        internal.append((text[:300], said[:300]))
+                    if PYTHON_WORDS.search(said) or not (said[:1].isupper() and said.endswith((".", "?"))):
+                        wording.append((text[:300], said[:300]))
     assert not internal, f"{len(internal)} internal errors, e.g. {internal[:3]}"
+    assert not wording, f"{len(wording)} refusals not in plain sentences, e.g. {wording[:3]}"
     assert refusals > MESSAGES // 2  # most of what the fuzzer sends is wrong and must be refused, not ignored

@@ -526,15 +526,15 @@ def test_station_and_probe_tools_add_marks(page, tmp_path):
 
 
 def test_exports_download_picture_fields_and_station_csv(page, tmp_path):
-    """The three exports arrive as files of their kind: a PNG of the picture, the fields .npz with the
-    documented arrays on the cell grid, and the station CSV with the documented columns."""
+    """The exports arrive as files of their kind: a PNG of the picture, the fields .npz with the documented
+    arrays on the cell grid, the same fields as VTK image data, and the station CSV with the documented columns."""
     import numpy as np
 
     load_through_upload(page, fed_channel(), tmp_path)
     pause(page)
     step(page, 20)
     files = {}
-    for button in ("#export-png", "#export-npz", "#export-csv"):
+    for button in ("#export-png", "#export-npz", "#export-vti", "#export-csv"):
         with page.expect_download(timeout=WAIT_MS) as info:
             page.click(button)
         path = tmp_path / info.value.suggested_filename
@@ -547,5 +547,6 @@ def test_exports_download_picture_fields_and_station_csv(page, tmp_path):
     with np.load(files["#export-npz"]) as fields:
         assert fields["p_pa"].shape == (16, 64)  # (ny, nx) of the fed channel
         assert float(np.nanmax(fields["p_pa"])) == pytest.approx(3.0e5, rel=0.01)  # the reservoir holds p0 (walls NaN)
+    assert files["#export-vti"].suffix == ".vti" and b"<VTKFile" in files["#export-vti"].read_bytes()[:200]
     header = files["#export-csv"].read_text().splitlines()[0]
     assert header.split(",")[:4] == ["station", "s_m", "x_m", "y_m"] and "mach" in header

@@ -416,7 +416,7 @@ def test_load_a_document_and_refuse_bad_ones(ws):
 
 
 def test_exports_download(server, ws):
-    for what, check in (("npz", "npz"), ("csv", "csv"), ("scenario", "json")):
+    for what, check in (("npz", "npz"), ("vti", "vti"), ("csv", "csv"), ("scenario", "json")):
         ready = ask(ws, {"type": "export", "what": what}, "export_ready")
         assert ready["what"] == what and ready["url"].startswith("/exports/") and ready["url"].endswith(check)
         body = server.get(ready["url"])
@@ -424,6 +424,8 @@ def test_exports_download(server, ws):
         if what == "npz":
             data = np.load(io.BytesIO(body.content))
             assert data["p_pa"].shape == (16, 64) and data["mach"].shape == (16, 64) and data["kind"].dtype == np.uint8
+        elif what == "vti":  # VTK XML ImageData: one cell per solver cell (VTK file formats, ImageData; from memory)
+            assert b'<VTKFile type="ImageData"' in body.content and b'WholeExtent="0 64 0 16 0 0"' in body.content
         elif what == "csv":
             lines = body.text.strip().splitlines()
             assert lines[0].startswith("station,s_m,x_m,y_m,p_pa") and lines[1].startswith("mid,")

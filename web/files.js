@@ -79,6 +79,7 @@ export function setupFiles(app) {
 
   $("#export-png").addEventListener("click", () => app.exportPicture());
   $("#export-npz").addEventListener("click", () => app.send("export", { what: "npz" }));
+  $("#export-vti").addEventListener("click", () => app.send("export", { what: "vti" }));
   $("#export-csv").addEventListener("click", () => app.send("export", { what: "csv" }));
   $("#export-delete-all").addEventListener("click", () => {
     if (window.confirm("Delete every export file made on this machine?")) app.send("delete_export", { all: true });
@@ -143,6 +144,6 @@ export function syncScenarioPick(current) {
 
 /** Follow an `export_ready` message: fetch the file the server made. */
 export function fetchExport(msg) {
-  const ext = { npz: "npz", csv: "csv", scenario: "json" }[msg.what] || "";
+  const ext = { npz: "npz", vti: "vti", csv: "csv", scenario: "json" }[msg.what] || "";
   download(withToken(msg.url), msg.filename || (ext ? `shockslate-${msg.what}.${ext}` : undefined));
 }
