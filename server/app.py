@@ -76,6 +76,8 @@ class ServerParts:
     dispatcher: Dispatcher
     exports: Exports
     warnings: list[str]
+    #: True while the solver kernels load or compile at start; tabs are told, and told again when it ends.
+    warming: bool = False
 
 
 class HostGuard:
@@ -161,10 +163,16 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
 
             await parts.runner.in_worker(numba.set_num_threads, config.solver_threads)
         if config.warm:
+            parts.warming = True
             print("shockslate: loading the solver kernels (compiled once per user; a first start compiles them, "
                   "which takes one to three minutes)", flush=True)
-            seconds = await parts.runner.in_worker(warm_kernels)
+            try:
+                seconds = await parts.runner.in_worker(warm_kernels)
+            finally:
+                parts.warming = False
             print(f"shockslate: solver kernels ready in {seconds:.1f} s", flush=True)
+            parts.hub.broadcast({"type": "notice", "kind": "ready",
+                                 "message": f"The solver kernels are ready ({seconds:.0f} s)."})
         if config.start_running:
             await parts.runner.call(parts.session.run)
         if config.open_browser:
@@ -227,7 +235,10 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
         return
     client = hub.new_client(websocket)
     sender = asyncio.create_task(_run_sender(hub, client), name=f"sender-{client.id}")
-    hub.send(client, hello_message(client, runner))
+    hello = hello_message(client, runner)
+    hello["notices"] = list(parts.warnings)  # e.g. a damaged autosave set aside at start, naming the kept file
+    hello["warming"] = parts.warming
+    hub.send(client, hello)
     hub.send(client, runner.history.message())  # what the probes and stations saw before this tab came
     if runner.session.divergence is not None:  # a tab opened after a divergence learns why the run stopped
         hub.send(client, runner.session.divergence.to_message())

@@ -388,3 +388,20 @@ def test_the_top_bar_shows_flow_time_pace_and_state_with_solver_figures_on_reque
     page.evaluate("() => window.shockslate.receive({...window.shockslate.status, flow: 'steady', residual: 2e-4})")
     assert page.inner_text("#fig-steady") == "steady"
     assert "0.00020 of the mass" in page.get_attribute("#fig-steady-box", "title")
+
+
+def test_a_start_that_is_still_compiling_says_so_and_notices_stay_until_dismissed(page):
+    # issue 'the first hour': while the kernels compile the page says so (not a dead 'paused' picture), and a
+    # notice from the start (a damaged autosave set aside) stays until the user dismisses it
+    page.evaluate("""() => window.shockslate.receive({...window.shockslate.hello, warming: true,
+        notices: ['The scenario of the last session could not be restored; it was kept as current.damaged-x.json.']})""")
+    warming = page.locator('#messages [data-field="warming"]')
+    assert warming.is_visible() and "compiles them" in warming.inner_text()
+    notice = page.locator("#messages .message", has_text="current.damaged-x.json")
+    assert notice.is_visible()
+    page.evaluate("() => window.shockslate.receive({type: 'notice', kind: 'ready', message: 'The solver kernels are ready (1 s).'})")
+    assert warming.count() == 0
+    page.wait_for_timeout(4500)  # longer than a fading note
+    assert notice.is_visible()
+    notice.locator("button.close").click()
+    assert notice.count() == 0

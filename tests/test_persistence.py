@@ -189,3 +189,19 @@ def test_a_kept_scenario_can_be_deleted_and_nothing_else(tmp_path):
             store.delete_named(name)
         assert info.value.field == field and info.value.value == name
     assert (tmp_path / "current.json").is_file()
+
+
+def test_a_tab_is_told_that_the_last_scenario_was_set_aside(tmp_path):
+    # issue 'safe start after damage': the console and the page say so, naming the kept file
+    data = tmp_path / "data"
+    data.mkdir()
+    (data / "current.json").write_bytes(b"[" * 100_000)
+    config = ServerConfig(data_dir=data, start_running=False, warm=False)
+    with TestClient(create_app(config), base_url="http://127.0.0.1:8765") as client:
+        with client.websocket_connect("ws://127.0.0.1:8765/ws") as sock:
+            hello = sock.receive_json()
+    assert hello["warming"] is False
+    kept = [p.name for p in data.iterdir() if p.name.startswith("current.damaged-")]
+    assert len(kept) == 1 and len(hello["notices"]) == 1
+    assert kept[0] in hello["notices"][0] and "could not be restored" in hello["notices"][0]
+    assert hello["scenario"]["name"] == scn.DEFAULT_SCENARIO

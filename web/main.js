@@ -67,11 +67,11 @@ const app = {
 
 app.send = (type, fields = {}) => app.conn.send(type, fields);
 
-/** A visible message; kind "error" stays until dismissed or replaced, "note" fades. */
+/** A visible message; "note" fades after 4 s, "error" after 20 s, "lasting" stays until dismissed. */
 app.showMessage = (text, kind = "error", field = null) => {
   const box = $("#messages");
   const div = document.createElement("div");
-  div.className = `message ${kind === "note" ? "note" : ""}`;
+  div.className = `message ${kind === "error" ? "" : "note"}`;
   div.dataset.kind = kind;
   if (field) div.dataset.field = field;
   div.append(Object.assign(document.createElement("span"), { textContent: text }));
@@ -80,7 +80,7 @@ app.showMessage = (text, kind = "error", field = null) => {
   div.append(close);
   box.prepend(div);
   while (box.children.length > 4) box.lastChild.remove();
-  setTimeout(() => div.remove(), kind === "note" ? 4000 : 20000);
+  if (kind !== "lasting") setTimeout(() => div.remove(), kind === "note" ? 4000 : 20000);
 };
 
 /**
@@ -662,8 +662,17 @@ function onMessage(msg) {
       takeScenario(msg.scenario, msg.revision, msg.edited, msg.origin);
       app.send("list_scenarios");
       app.send("list_exports");
+      for (const text of msg.notices || []) app.showMessage(text, "lasting");
+      if (msg.warming) {
+        app.showMessage("Loading the solver kernels: a first start compiles them, which takes one to three minutes. " +
+          "The picture starts moving when they are ready.", "lasting", "warming");
+      }
       break;
     }
+    case "notice":
+      if (msg.kind === "ready") for (const el of $$('#messages [data-field="warming"]')) el.remove();
+      if (msg.message) app.showMessage(msg.message, "note");
+      break;
     case "history":
       app.histories.seed(msg);
       drawStrip();
