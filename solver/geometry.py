@@ -182,12 +182,14 @@ def wall_geometry(sketch: Sketch, domain: Domain, samples: int = SAMPLES,
     # x-faces of candidates: open fraction and radius moment from samples along each face
     open_x_r = _x_face_moments(shapes, domain, cand, open_x, open_x * (rows + 0.5), F)
     # 3. kinds: held cells keep their centre's kind; a cell with no gas or broken gas is wall. A sliver
-    #    whose sub-cell samples all fell on wall but whose faces open keeps a small estimate of its gas:
+    #    whose sub-cell samples all fell on wall but whose faces open (two or more) keeps a small estimate of its gas:
     #    closing its faces would turn the wall of its neighbours (see FACE_SAMPLES).
     held = np.isin(centre_mask, [int(k) for k in HELD_KINDS])
     mask = np.where(held, centre_mask, np.uint8(CellKind.FLUID)).astype(np.uint8)
-    any_open = (open_x[:, :-1] > 0) | (open_x[:, 1:] > 0) | (open_y[:-1] > 0) | (open_y[1:] > 0)
-    sliver = (gas <= 0.0) & any_open & ~broken & ~held
+    # a sliver is crossed by gas: open on two faces or more. A wall cell with one open face is a drawn edge
+    # lying exactly on that face (a rectangle on the grid lines), not gas: it stays wall.
+    n_open = ((open_x[:, :-1] > 0).astype(int) + (open_x[:, 1:] > 0) + (open_y[:-1] > 0) + (open_y[1:] > 0))
+    sliver = (gas <= 0.0) & (n_open >= 2) & ~broken & ~held
     estimate = 0.25 * (open_x[:, :-1] + open_x[:, 1:]) * (open_y[:-1] + open_y[1:])
     gas = np.where(sliver, np.maximum(estimate, 0.25 / (S * S)), gas)
     gas_r = np.where(sliver, gas * (rows + 0.5), gas_r)

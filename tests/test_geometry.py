@@ -98,3 +98,19 @@ def test_a_closed_thin_stroke_seals_its_inside(width_cells):
                 stack.append((j2, i2))
     assert not reached[DOM.cell_index(0.05, 0.05)]
     assert reached.sum() > 100
+
+
+def test_a_wall_edge_on_a_grid_line_leaves_no_gas_in_the_cell_below_it():
+    # a rectangle drawn on the grid lines (as snapping draws it): every cell inside it is wall, including the
+    # row whose top face is the rectangle's top edge (its one "open" face is the drawn edge itself)
+    from shockslate.solver.domain import Domain
+    from shockslate.solver.geometry import wall_geometry
+    from shockslate.solver.kinds import CellKind
+    from shockslate.solver.shapes import Polygon, Sketch
+
+    domain = Domain(0.0, 1.0, 0.0, 0.02, 400)
+    plate = Polygon(((0.4, 0.005), (0.6, 0.005), (0.6, 0.01), (0.4, 0.01), (0.4, 0.005)), "wall")
+    geo = wall_geometry(Sketch((plate,)), domain)
+    i = 200
+    assert list(geo.mask[:, i]) == [0, 0, 1, 1, 0, 0, 0, 0]
+    assert geo.gas[2, i] == 0.0 and geo.gas[3, i] == 0.0

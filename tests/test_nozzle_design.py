@@ -100,16 +100,22 @@ def test_scenario_validates_and_the_cells_have_the_areas(key):
     mask = sim.mask
     x = sim.domain.x_centres_m()
 
+    gas = sim.geometry.gas  # each cell's gas fraction: the walls are drawn inside the cells (cut cells)
+
     def open_height(i):
-        col = mask[:, i] == CellKind.WALL
-        return int(np.argmax(col)) * dx
+        """Gas height of column i from the axis up to the first cell that is mostly wall."""
+        n = int(np.argmax(gas[:, i] < 0.5))
+        return float(np.sum(gas[:n, i])) * dx
 
     c = nd.build_contour(spec)
     i_t = int(np.argmin(np.abs(x - c.throat_x_m)))
-    # the throat radius lies on a cell face, so the cells' throat is the drawn one
-    assert open_height(i_t) == pytest.approx(RT, rel=1e-9)
-    i_e = int(np.searchsorted(x, c.exit_x_m)) - 1
-    assert abs(open_height(i_e) - spec.exit_radius_m) <= dx
+    # the cells hold the drawn throat: the gas over the throat column's width is the throat radius, up to the
+    # rise of the wall across the column (the rounding's sagitta, and the column centre lying up to half a cell
+    # from the drawn throat); at 10 cells per throat radius that stays within a fifth of a cell
+    assert abs(open_height(i_t) - RT) <= 0.2 * dx
+    i_e = int(np.searchsorted(x, c.exit_x_m)) - 2  # the last column wholly inside the nozzle
+    # the drawn wall at that column's centre, read to within the half cell the 'mostly wall' cut leaves
+    assert abs(open_height(i_e) - c.radius_at(float(x[i_e]))) <= 0.5 * dx
     assert station_by_role(s, "throat") is not None and station_by_role(s, "exit") is not None
     assert (mask == CellKind.RESERVOIR).any()
 
