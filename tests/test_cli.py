@@ -91,3 +91,19 @@ def test_a_misspelt_saved_or_built_in_name_from_the_page_gets_a_suggestion(tmp_p
     with pytest.raises(RequestError) as info:
         ScenarioStore(tmp_path).load_named("shock_tube_reflektion")
     assert "did you mean 'shock_tube_reflection'?" in info.value.message
+
+
+def test_check_says_which_defaults_a_file_relies_on(tmp_path, capsys):
+    # issue 'the first hour': a file with a value left out is accepted, and check says the default was used
+    from shockslate.solver.scenario import builtin_path
+
+    doc = json.loads(builtin_path("shock_tube_reflection").read_text())
+    del doc["numerics"]["cfl"]
+    del doc["edges"]
+    path = tmp_path / "short.json"
+    path.write_text(json.dumps(doc))
+    assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "defaults are used" in out and "numerics.cfl = 0.4" in out and "edges.left = " in out
+    assert main(["check", str(builtin_path("shock_tube_reflection"))]) == 0
+    assert "defaults are used" not in capsys.readouterr().out  # the built-ins say everything they mean

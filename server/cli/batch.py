@@ -6,12 +6,14 @@ The command itself lives with the server; it calls `add_batch_commands(subparser
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 import textwrap
 from pathlib import Path
 
 from shockslate.solver.fields import VIEWS
-from shockslate.solver.scenario import ScenarioError, builtin_names, builtin_path, load_builtin, load_scenario
+from shockslate.solver.scenario import (ScenarioError, builtin_names, builtin_path, load_builtin, load_scenario,
+                                        scenario_to_dict)
 
 #: Exit codes: 0 done (or steady), 1 the run diverged, stalled or did not settle, 2 bad input, 130 stopped with
 #: Ctrl+C (shell convention).
@@ -137,4 +139,24 @@ def cmd_check(args: argparse.Namespace) -> int:
         return EXIT_BAD_INPUT
     print(f"ok: {s.name} ({s.mode}, {len(s.sketch.shapes)} shapes, {len(s.stations)} stations, "
           f"{len(s.probes)} probes, end time {s.end_time_s:g} s)")
+    defaulted = defaults_used(json.loads(Path(args.file).read_text(encoding="utf-8")), scenario_to_dict(s))
+    if defaulted:
+        print("note: the file leaves these out, so their defaults are used: "
+              + ", ".join(f"{path} = {json.dumps(value)}" for path, value in defaulted))
     return EXIT_OK
+
+
+def defaults_used(given: dict, full: dict, prefix: str = "") -> list[tuple[str, object]]:
+    """(JSON path, value) of every setting the full scenario holds that the file did not give (objects only;
+    list items are the file's own)."""
+    out: list[tuple[str, object]] = []
+    for key, value in full.items():
+        path = f"{prefix}{key}"
+        if key not in given:
+            if isinstance(value, dict):
+                out.extend(defaults_used({}, value, path + "."))
+            else:
+                out.append((path, value))
+        elif isinstance(value, dict) and isinstance(given[key], dict):
+            out.extend(defaults_used(given[key], value, path + "."))
+    return out
