@@ -194,12 +194,13 @@ class Session:
         self._undo: list[dict] = []
         self._redo: list[dict] = []
         self._on_change = on_change
+        self._dicts: list[tuple[scn.Scenario, dict]] = []
         self._set_origin(scenario)
 
     # ------------------------------------------------------------------ what was loaded, what is edited
     def _set_origin(self, scenario: scn.Scenario) -> None:
         """Remember the loaded scenario: a change away from it marks the scenario edited."""
-        doc = scn.scenario_to_dict(scenario)
+        doc = self._as_dict(scenario)
         self._origin_name = scenario.name
         self._origin_description = scenario.description
         self._origin_content = _content(doc)
@@ -207,7 +208,7 @@ class Session:
     @property
     def edited(self) -> bool:
         """Whether the scenario differs from the one loaded (undo back to it, and it is not edited again)."""
-        return _content(scn.scenario_to_dict(self.scenario)) != self._origin_content
+        return _content(self._as_dict(self.scenario)) != self._origin_content
 
     @property
     def origin_name(self) -> str:
@@ -216,7 +217,7 @@ class Session:
     def _marked(self, new: scn.Scenario) -> scn.Scenario:
         """The scenario with the name and description that say what it is: the loaded one's, or, once it
         differs from that, '<name> edited' and a description of the values it now holds."""
-        if _content(scn.scenario_to_dict(new)) == self._origin_content:
+        if _content(self._as_dict(new)) == self._origin_content:
             name, description = self._origin_name, self._origin_description
         else:
             base = self._origin_name
@@ -311,7 +312,18 @@ class Session:
 
     # ------------------------------------------------------------------ scenario changes
     def _doc(self) -> dict:
-        return scn.scenario_to_dict(self.scenario)
+        """The current scenario document, a copy the caller may change."""
+        return _copy_doc(self._as_dict(self.scenario))
+
+    def _as_dict(self, scenario: scn.Scenario) -> dict:
+        """scenario_to_dict of a scenario, read-only, remembered for the last few scenario objects: a change
+        reads the document several times, and a big sketch takes half a second to turn into one."""
+        for obj, doc in self._dicts:
+            if obj is scenario:
+                return doc
+        doc = scn.scenario_to_dict(scenario)
+        self._dicts = [(scenario, doc), *self._dicts[:3]]
+        return doc
 
     def _validated(self, doc: dict, prefix_map: dict[str, str] | None = None) -> scn.Scenario:
         try:
@@ -338,7 +350,7 @@ class Session:
         self.scenario = new
         self.revision += 1
         self.flow_version += 1
-        if record and before != self._doc():  # a change to the same values (a repeated input) is not one
+        if record and before != self._as_dict(self.scenario):  # the same values again (a repeated input) is no change
             self._undo.append(before)
             del self._undo[:-UNDO_DEPTH]
             self._redo.clear()
@@ -648,6 +660,16 @@ class Session:
         rho, u, v, p = self.sim.primitive()
         return FlowSnapshot(self.flow_version, self.sim.time_s, self.sim.steps, rho, u, v, p,
                             self.sim.mask.copy(), self.sim.setup.gas, self.sim.domain)
+
+
+def _copy_doc(value: Any) -> Any:
+    """A copy of a scenario document to change: dicts and lists are new, but the [x, y] pairs of a shape's
+    points are shared (nothing changes a point in place; a changed shape is a new dict)."""
+    if isinstance(value, dict):
+        return {k: (list(v) if k == "points_m" else _copy_doc(v)) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_copy_doc(v) for v in value]
+    return value
 
 
 def _content(doc: dict) -> dict:

@@ -47,6 +47,15 @@ def _reflect(point: Point, y_line_m: float) -> Point:
     return (point[0], 2.0 * y_line_m - point[1])
 
 
+def _remembered_bounds(shape: object, compute) -> tuple[float, float, float, float]:
+    """The bounds of a frozen shape, computed once and kept on it (its fields never change)."""
+    bounds = shape.__dict__.get("_bounds_m")
+    if bounds is None:
+        bounds = compute()
+        object.__setattr__(shape, "_bounds_m", bounds)
+    return bounds
+
+
 def _points_bounds(points: tuple[Point, ...], pad_m: float = 0.0) -> tuple[float, float, float, float]:
     xs = [p[0] for p in points]
     ys = [p[1] for p in points]
@@ -72,8 +81,8 @@ class Stroke:
         return "stroke"
 
     def bounds_m(self) -> tuple[float, float, float, float]:
-        """(x0, y0, x1, y1) of the path grown by half the width."""
-        return _points_bounds(self.points_m, 0.5 * self.width_m)
+        """(x0, y0, x1, y1) of the path grown by half the width (remembered: a long path is read often)."""
+        return _remembered_bounds(self, lambda: _points_bounds(self.points_m, 0.5 * self.width_m))
 
     def mirrored_about_y(self, y_line_m: float) -> "Stroke":
         return Stroke(tuple(_reflect(p, y_line_m) for p in self.points_m), self.width_m, self.paints)
@@ -143,7 +152,7 @@ class Polygon:
         return "polygon"
 
     def bounds_m(self) -> tuple[float, float, float, float]:
-        return _points_bounds(self.points_m)
+        return _remembered_bounds(self, lambda: _points_bounds(self.points_m))
 
     def mirrored_about_y(self, y_line_m: float) -> "Polygon":
         return Polygon(tuple(_reflect(p, y_line_m) for p in self.points_m), self.paints)
