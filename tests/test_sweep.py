@@ -112,6 +112,8 @@ def test_case_key_is_the_scenario_resolution_and_end_time():
     a = blast_plan("numerics.cfl=0.4").cases[0]
     b = blast_plan("numerics.cfl=0.4").cases[0]
     assert a.key == b.key and a.folder == b.folder and a.folder.startswith("case-")
+    # issue 'the first hour': a case folder says what varies in it, then a short hash that keeps it unique
+    assert a.folder == "case-numerics.cfl=0.4-" + a.key[:10]
     assert a.key == sweep.case_key(json.loads(json.dumps(a.scenario, sort_keys=False)), TINY_NX, TINY_UNTIL_S)
     assert blast_plan("numerics.cfl=0.4", until_s=0.005).cases[0].key != a.key
     assert sweep.case_key(a.scenario, TINY_NX + 1, TINY_UNTIL_S) != a.key

@@ -230,6 +230,27 @@ def allowed_values(path: str) -> Optional[str]:
 
 # ----------------------------------------------------------------------------- cases
 
+#: Characters kept in a case folder's readable part; the rest become "_". Its length is capped.
+_FOLDER_UNSAFE = re.compile(r"[^A-Za-z0-9._=+-]+")
+FOLDER_TEXT_MAX = 80
+
+
+def _leaf(path: str) -> str:
+    """The last two names of a --vary path (conditions.ambient.p_pa -> ambient.p_pa; sketch.shapes[1].paints ->
+    shapes[1].paints)."""
+    names: list[str] = []
+    for part in split_path(path):
+        if isinstance(part, int) and names:
+            names[-1] += f"[{part}]"
+        else:
+            names.append(str(part))
+    return ".".join(names[-2:])
+
+
+def _short(value: Any) -> str:
+    return f"{value:g}" if isinstance(value, float) else str(value)
+
+
 def canonical_json(value: Any) -> str:
     return json.dumps(value, sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False)
 
@@ -253,7 +274,11 @@ class Case:
 
     @property
     def folder(self) -> str:
-        return CASE_PREFIX + self.key[:16]
+        """case-<what varies>-<hash>: readable at a glance (ambient.p_pa=50662.5), unique and stable by the hash
+        of the whole case, so a re-run of the same sweep finds its finished cases."""
+        readable = _FOLDER_UNSAFE.sub("_", "_".join(f"{_leaf(p)}={_short(v)}" for p, v in self.values.items()))
+        readable = readable.strip("_")[:FOLDER_TEXT_MAX]
+        return f"{CASE_PREFIX}{readable}-{self.key[:10]}" if readable else CASE_PREFIX + self.key[:16]
 
     def label(self) -> str:
         return ", ".join(f"{p} = {v!r}" for p, v in self.values.items())
