@@ -15,36 +15,18 @@ from shockslate.solver.fields import VIEWS
 from shockslate.solver.scenario import (ScenarioError, builtin_names, builtin_path, load_builtin, load_scenario,
                                         scenario_to_dict)
 
+from .arguments import positive_float, positive_int
+
 #: Exit codes: 0 done (or steady), 1 the run diverged, stalled or did not settle, 2 bad input, 130 stopped with
 #: Ctrl+C (shell convention).
 EXIT_OK, EXIT_FAILED, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
-
-
-def _positive_float(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-    if not (value > 0.0 and value < float("inf")):
-        raise argparse.ArgumentTypeError(f"{text!r} must be a number greater than 0")
-    return value
-
-
-def _positive_int(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"{text!r} must be at least 1")
-    return value
 
 
 def _until(text: str) -> float | str:
     if text == "steady":
         return text
     try:
-        return _positive_float(text)
+        return positive_float(text)
     except argparse.ArgumentTypeError:
         raise argparse.ArgumentTypeError(f"{text!r} is neither a time in seconds greater than 0 nor 'steady'") from None
 
@@ -59,16 +41,16 @@ def add_batch_commands(subparsers) -> None:
     run.add_argument("--until", type=_until, metavar="SECONDS|steady",
                      help="simulated time to stop at (default: the scenario's end time), or 'steady': stop once the "
                           "flow has settled (see --tolerance, --time-limit)")
-    run.add_argument("--tolerance", type=_positive_float, metavar="R", default=None,
+    run.add_argument("--tolerance", type=positive_float, metavar="R", default=None,
                      help="with --until steady: largest density residual, as the fraction of the mass changing per "
                           "acoustic transit of the domain (default 0.001)")
-    run.add_argument("--time-limit", type=_positive_float, metavar="SECONDS", default=None,
+    run.add_argument("--time-limit", type=positive_float, metavar="SECONDS", default=None,
                      help="with --until steady: simulated time at which an unsettled run stops (default: the "
                           "scenario's end time)")
-    run.add_argument("--steps", type=_positive_int, metavar="N", help="stop after N steps at most")
-    run.add_argument("--resolution", type=_positive_int, metavar="NX", help="cells across x (default: the scenario's)")
+    run.add_argument("--steps", type=positive_int, metavar="N", help="stop after N steps at most")
+    run.add_argument("--resolution", type=positive_int, metavar="NX", help="cells across x (default: the scenario's)")
     run.add_argument("--out", default="results", metavar="DIR", help="output folder (default: results)")
-    run.add_argument("--every", type=_positive_float, metavar="SECONDS",
+    run.add_argument("--every", type=positive_float, metavar="SECONDS",
                      help="interval of field files and snapshots (default: a tenth of the run)")
     run.add_argument("--view", default="mach", choices=list(VIEWS), help="field drawn in the snapshots (default: mach)")
     run.set_defaults(func=cmd_run)

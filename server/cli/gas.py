@@ -11,17 +11,12 @@ import json
 import sys
 from pathlib import Path
 
+from .arguments import number
+
 EXIT_OK, EXIT_BAD_INPUT, EXIT_UNAVAILABLE = 0, 2, 3
 
 FLAGS = {"fuel": "--fuel", "oxidiser": "--oxidiser", "mixture_ratio": "--mixture-ratio", "p0_pa": "--p0",
          "reactant_state": "--liquid", "gamma_frozen": "gamma"}
-
-
-def _number(text: str) -> float:
-    try:
-        return float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
 
 
 def add_gas_command(sub) -> argparse.ArgumentParser:
@@ -35,9 +30,9 @@ def add_gas_command(sub) -> argparse.ArgumentParser:
                     "pip install 'shockslate[design]'.")
     p.add_argument("--fuel", required=True, metavar="NAME", help="one of " + ", ".join(FUELS))
     p.add_argument("--oxidiser", "--oxidizer", required=True, metavar="NAME", help="one of " + ", ".join(OXIDISERS))
-    p.add_argument("--mixture-ratio", type=_number, required=True, metavar="O/F",
+    p.add_argument("--mixture-ratio", type=number, required=True, metavar="O/F",
                    help="oxidiser-to-fuel mass ratio")
-    p.add_argument("--p0", type=_number, required=True, metavar="PA", help="chamber pressure (Pa)")
+    p.add_argument("--p0", type=number, required=True, metavar="PA", help="chamber pressure (Pa)")
     p.add_argument("--liquid", action="store_true",
                    help="propellants enter as cryogenic liquids at their boiling points (H2, O2, CH4); default: "
                         "gases at 298.15 K")

@@ -11,6 +11,8 @@ import json
 import sys
 from pathlib import Path
 
+from .arguments import number, whole
+
 EXIT_OK, EXIT_BAD_INPUT = 0, 2
 
 #: Design and run fields -> the flag that sets them, so errors name what the user typed.
@@ -26,20 +28,6 @@ FLAGS = {
 }
 
 
-def _number(text: str) -> float:
-    try:
-        return float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-
-
-def _whole(text: str) -> int:
-    try:
-        return int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-
-
 def add_nozzle_command(sub) -> argparse.ArgumentParser:
     p = sub.add_parser(
         "nozzle", help="write a scenario for a chamber and nozzle given by its numbers",
@@ -49,13 +37,13 @@ def add_nozzle_command(sub) -> argparse.ArgumentParser:
                     "angles in degrees, pressures in Pa, temperatures in K. In planar mode 'radius' means the half "
                     "height above the symmetry line and areas are per metre of depth.")
     g = p.add_argument_group("shape")
-    g.add_argument("--throat-radius", type=_number, required=True, metavar="M", help="throat radius (m)")
-    g.add_argument("--contraction-ratio", type=_number, required=True, metavar="RATIO",
+    g.add_argument("--throat-radius", type=number, required=True, metavar="M", help="throat radius (m)")
+    g.add_argument("--contraction-ratio", type=number, required=True, metavar="RATIO",
                    help="chamber area / throat area (> 1)")
-    g.add_argument("--chamber-length", type=_number, required=True, metavar="M",
+    g.add_argument("--chamber-length", type=number, required=True, metavar="M",
                    help="length of the cylindrical chamber before the convergent (m)")
-    g.add_argument("--area-ratio", type=_number, required=True, metavar="RATIO", help="exit area / throat area (> 1)")
-    g.add_argument("--half-angle", type=_number, default=15.0, metavar="DEG",
+    g.add_argument("--area-ratio", type=number, required=True, metavar="RATIO", help="exit area / throat area (> 1)")
+    g.add_argument("--half-angle", type=number, default=15.0, metavar="DEG",
                    help="conical divergent half angle (default 15)")
     kind = g.add_mutually_exclusive_group()
     kind.add_argument("--bell", action="store_true",
@@ -63,33 +51,33 @@ def add_nozzle_command(sub) -> argparse.ArgumentParser:
     kind.add_argument("--moc", action="store_true",
                       help="the minimum-length contour by the method of characteristics for the gas's gamma "
                            "(sharp throat corner), planar or axisymmetric")
-    g.add_argument("--bell-length", type=_number, default=0.8, metavar="FRACTION",
+    g.add_argument("--bell-length", type=number, default=0.8, metavar="FRACTION",
                    help="bell length as a fraction of the 15 degree cone's (default 0.8)")
-    g.add_argument("--inflection-angle", type=_number, metavar="DEG",
+    g.add_argument("--inflection-angle", type=number, metavar="DEG",
                    help="bell wall angle after the throat rounding (default for an 80 %% bell: from a table of "
                         "Rao's chart, approximate)")
-    g.add_argument("--exit-angle", type=_number, metavar="DEG", help="bell wall angle at the exit (same default)")
-    g.add_argument("--convergent-angle", type=_number, default=30.0, metavar="DEG",
+    g.add_argument("--exit-angle", type=number, metavar="DEG", help="bell wall angle at the exit (same default)")
+    g.add_argument("--convergent-angle", type=number, default=30.0, metavar="DEG",
                    help="convergent half angle (default 30)")
-    g.add_argument("--upstream-rounding", type=_number, default=1.5, metavar="RT",
+    g.add_argument("--upstream-rounding", type=number, default=1.5, metavar="RT",
                    help="throat radius of curvature before the throat, in throat radii (default 1.5)")
-    g.add_argument("--downstream-rounding", type=_number, default=0.382, metavar="RT",
+    g.add_argument("--downstream-rounding", type=number, default=0.382, metavar="RT",
                    help="throat radius of curvature after the throat, in throat radii (default 0.382)")
     g.add_argument("--planar", action="store_true", help="a planar (two-dimensional) nozzle instead of axisymmetric")
     r = p.add_argument_group("run")
-    r.add_argument("--p0", type=_number, default=2.0e6, metavar="PA", help="chamber stagnation pressure (default 2e6)")
-    r.add_argument("--t0", type=_number, metavar="K",
+    r.add_argument("--p0", type=number, default=2.0e6, metavar="PA", help="chamber stagnation pressure (default 2e6)")
+    r.add_argument("--t0", type=number, metavar="K",
                    help="chamber stagnation temperature (default: the --gas file's, else 3000)")
-    r.add_argument("--p-ambient", type=_number, default=101325.0, metavar="PA", help="ambient pressure (default 101325)")
-    r.add_argument("--t-ambient", type=_number, default=288.15, metavar="K", help="ambient temperature (default 288.15)")
+    r.add_argument("--p-ambient", type=number, default=101325.0, metavar="PA", help="ambient pressure (default 101325)")
+    r.add_argument("--t-ambient", type=number, default=288.15, metavar="K", help="ambient temperature (default 288.15)")
     r.add_argument("--gas", type=Path, metavar="FILE",
                    help="gas of the products: a JSON file written by `shockslate gas --out` (gamma, molar mass, "
                         "chamber temperature); default the 'hot products' preset")
-    r.add_argument("--cells-per-throat-radius", type=_whole, default=10, metavar="N",
+    r.add_argument("--cells-per-throat-radius", type=whole, default=10, metavar="N",
                    help="resolution: cells across the throat radius (default 10)")
-    r.add_argument("--plume-length", type=_number, metavar="M",
+    r.add_argument("--plume-length", type=number, metavar="M",
                    help="room behind the exit (default 4 exit radii)")
-    r.add_argument("--end-time", type=_number, metavar="S", help="simulated time (default about 12 sound crossings)")
+    r.add_argument("--end-time", type=number, metavar="S", help="simulated time (default about 12 sound crossings)")
     p.add_argument("--name", default="designed_nozzle", help="scenario name (default designed_nozzle)")
     p.add_argument("--out", required=True, type=Path, metavar="FILE", help="scenario file to write")
     p.set_defaults(func=cmd_nozzle)

@@ -9,7 +9,8 @@ import argparse
 import sys
 from pathlib import Path
 
-from .batch import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_INTERRUPTED, EXIT_OK, _positive_float, _positive_int
+from .arguments import positive_float, positive_int
+from .batch import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_INTERRUPTED, EXIT_OK
 from shockslate.solver.scenario import ScenarioError
 
 EPILOG = """\
@@ -45,13 +46,13 @@ def add_sweep_command(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--vary", action="append", default=[], metavar="PATH=START:STOP:COUNT|PATH=v1,v2,...",
                    help="a varied value; repeat for more (every combination, or pairs with --zip)")
     p.add_argument("--zip", action="store_true", help="pair the --vary lists value by value (equal lengths)")
-    p.add_argument("--until", type=_positive_float, metavar="SECONDS",
+    p.add_argument("--until", type=positive_float, metavar="SECONDS",
                    help="simulated time of every case (default: the scenario's end time)")
-    p.add_argument("--resolution", type=_positive_int, metavar="NX", help="cells across x (default: the scenario's)")
+    p.add_argument("--resolution", type=positive_int, metavar="NX", help="cells across x (default: the scenario's)")
     p.add_argument("--out", default="sweep_results", metavar="DIR", help="output folder (default: sweep_results)")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="submit to the existing Dask cluster at tcp://HOST:PORT instead of starting a local one")
-    p.add_argument("--workers", type=_positive_int, metavar="N",
+    p.add_argument("--workers", type=positive_int, metavar="N",
                    help="process workers of the local cluster (default: one per core)")
     p.add_argument("--full", action="store_true",
                    help="also write each case's fields, snapshots and report.html, as `shockslate run` does")
