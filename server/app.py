@@ -27,6 +27,7 @@ from starlette.types import ASGIApp, Receive, Scope, Send
 from shockslate.solver import scenario as scn
 from shockslate.solver.warm import warm_kernels
 
+from . import design
 from . import protocol as p
 from .dispatch import Dispatcher, hello_message
 from .errors import RequestError
@@ -62,6 +63,8 @@ class ServerConfig:
     #: numba threads for the solver (None: numba's default, all cores). 1 is kinder to a shared machine.
     solver_threads: int | None = None
     runner_options: dict[str, Any] = field(default_factory=dict)
+    #: False: gas from propellants answers as if Cantera were not installed (what a `make run` install shows).
+    thermochemistry: bool = True
 
 
 @dataclass
@@ -78,6 +81,8 @@ class ServerParts:
     warnings: list[str]
     #: True while the solver kernels load or compile at start; tabs are told, and told again when it ends.
     warming: bool = False
+    #: The stage of the warm-up now running ({stage, done, total, label}), None when none runs.
+    warming_stage: dict | None = None
 
 
 class HostGuard:
@@ -142,7 +147,8 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
         hub = Hub()
         runner = Runner(session, hub, **config.runner_options)
         exports = Exports(store.exports_dir)
-        parts = ServerParts(config, store, session, hub, runner, Dispatcher(runner, hub, store, exports, access),
+        parts = ServerParts(config, store, session, hub, runner, Dispatcher(runner, hub, store, exports, access,
+                                                                           config.thermochemistry),
                             exports, warnings)
         app.state.parts = parts
         runner.start()
@@ -166,10 +172,18 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
             parts.warming = True
             print("shockslate: loading the solver kernels (compiled once per user; a first start compiles them, "
                   "which takes one to three minutes)", flush=True)
+            loop = asyncio.get_running_loop()
+
+            def stage(done: int, total: int, name: str, label: str) -> None:  # called in the solver thread
+                print(f"shockslate: compiling the solver kernels, stage {done + 1} of {total}: {label}", flush=True)
+                loop.call_soon_threadsafe(_tell_stage, parts, {"stage": name, "done": done, "total": total,
+                                                                "label": label})
+
             try:
-                seconds = await parts.runner.in_worker(warm_kernels)
+                seconds = await parts.runner.in_worker(warm_kernels, stage)
             finally:
                 parts.warming = False
+                parts.warming_stage = None
             print(f"shockslate: solver kernels ready in {seconds:.1f} s", flush=True)
             parts.hub.broadcast({"type": "notice", "kind": "ready",
                                  "message": f"The solver kernels are ready ({seconds:.0f} s)."})
@@ -177,6 +191,15 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
             await parts.runner.call(parts.session.run)
         if config.open_browser:
             await asyncio.to_thread(webbrowser.open, access.url())
+
+    def _tell_stage(parts: ServerParts, stage: dict) -> None:
+        """Every tab learns which kernels compile now (a `notice` of kind `warming`), a joining tab from hello."""
+        if not parts.warming:
+            return
+        parts.warming_stage = stage
+        parts.hub.broadcast({"type": "notice", "kind": "warming", **stage,
+                             "message": f"Compiling the solver kernels: {stage['label']} "
+                                        f"(stage {stage['done'] + 1} of {stage['total']})."})
 
     app = FastAPI(title="shockslate", lifespan=lifespan, docs_url=None, redoc_url=None, openapi_url=None)
     app.add_middleware(HostGuard, access=access)
@@ -238,6 +261,8 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
     hello = hello_message(client, runner)
     hello["notices"] = list(parts.warnings)  # e.g. a damaged autosave set aside at start, naming the kept file
     hello["warming"] = parts.warming
+    hello["warming_stage"] = parts.warming_stage  # what compiles now: {stage, done, total, label} or None
+    hello["thermochemistry"] = design.thermochemistry(parts.config.thermochemistry).as_dict()
     hub.send(client, hello)
     hub.send(client, runner.history.message())  # what the probes and stations saw before this tab came
     if runner.session.divergence is not None:  # a tab opened after a divergence learns why the run stopped

@@ -16,7 +16,7 @@ from shockslate.solver.fields import VIEWS
 
 from . import protocol as p
 from .errors import RequestError
-from . import export_list
+from . import design, export_list
 from .exports import Exports
 from .hub import Client, Hub, ViewChoice
 from .persistence import ScenarioStore
@@ -43,14 +43,33 @@ def hello_message(client: Client, runner: Runner) -> dict:
 STEP_SLICE_S = 0.05
 
 
+#: Refusals of a harmless action that changes nothing (undo with nothing to undo, clearing an empty sketch, deleting
+#: what is not there, stepping while running): still an `error` reply, marked `harmless` so the page shows a calm
+#: note rather than a red error. (request type, rule).
+HARMLESS = {("undo", "nothing_to_undo"), ("redo", "nothing_to_redo"), ("clear_sketch", "empty"),
+            ("remove_probe", "one_of"), ("remove_station", "one_of"), ("step", "state")}
+
+
+def is_harmless(request: str, err: RequestError) -> bool:
+    """Whether a refusal only says that nothing needed doing."""
+    if (request, err.rule) in HARMLESS:
+        return True
+    if request == "delete_scenario":  # a kept scenario that is not there (a built-in's name stays an error)
+        return "see list_scenarios" in err.allowed
+    return request == "delete_export" and err.field == "name" and err.value is not None
+
+
 class Dispatcher:
-    def __init__(self, runner: Runner, hub: Hub, store: ScenarioStore, exports: Exports, access: Access):
+    def __init__(self, runner: Runner, hub: Hub, store: ScenarioStore, exports: Exports, access: Access,
+                 thermochemistry: bool = True):
         self.runner = runner
         self.hub = hub
         self.store = store
         self.exports = exports
         self.access = access
         self.session = runner.session
+        #: False: answer gas-from-propellants as if Cantera were not installed (serve --without-thermochemistry)
+        self.thermochemistry = thermochemistry
         self._handlers: dict[str, Callable[[Client, Any], Awaitable[None]]] = {
             "add_shape": lambda c, m: self._change(c, m, self.session.add_shape, m.shape),
             "remove_shape": lambda c, m: self._change(c, m, self.session.remove_shape, m.index),
@@ -87,12 +106,19 @@ class Dispatcher:
             "export": self._export,
             "list_exports": self._list_exports,
             "delete_export": self._delete_export,
+            "build_nozzle": self._build_nozzle,
+            "propellant_gas": self._propellant_gas,
         }
         missing = set(p.MESSAGE_TYPES) - set(self._handlers)
         assert not missing, f"message types without a handler: {missing}"
 
     async def handle(self, client: Client, message: Any) -> None:
-        await self._handlers[message.type](client, message)
+        try:
+            await self._handlers[message.type](client, message)
+        except RequestError as err:
+            if is_harmless(message.type, err):
+                err.harmless = True  # error_message marks it; the page shows a calm note
+            raise
 
     # ------------------------------------------------------------ replies
     def _reply(self, client: Client, message: Any, reply: dict) -> None:
@@ -173,6 +199,23 @@ class Dispatcher:
             except scn.ScenarioError as err:
                 raise request_error_from_scenario(err, message.scenario, {"": "scenario."}) from None
         await self._change(client, message, self.session.load, scenario)
+
+    async def _build_nozzle(self, client: Client, message: p.BuildNozzle) -> None:
+        """The designed nozzle (server/design.py) becomes the current scenario: one change, undo takes it back."""
+        current = self.session.scenario
+        doc = await asyncio.to_thread(design.nozzle_document, _fields(message), current)
+        try:
+            scenario = scn.parse_scenario(doc)
+        except scn.ScenarioError as err:
+            raise request_error_from_scenario(err) from None
+        await self._change(client, message, self.session.replace, scenario)
+
+    async def _propellant_gas(self, client: Client, message: p.PropellantGas) -> None:
+        """Chamber gas by chemical equilibrium; its frozen gamma, molar mass, T0 and p0 applied as one change."""
+        result = await asyncio.to_thread(design.chamber_gas, _fields(message), self.thermochemistry)
+        await self.runner.call(lambda: self.session.change_document(design.gas_document(result, self.session.scenario)))
+        self._reply(client, message, design.chamber_gas_message(result))
+        self._broadcast_scenario(client, message)
 
     async def _list(self, client: Client, message: p.ListScenarios) -> None:
         listing = await asyncio.to_thread(self.store.listing)

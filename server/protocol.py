@@ -338,11 +338,47 @@ class DeleteExport(_Message):
         return self
 
 
+# ----------------------------------------------------------------------------- design (server/design.py)
+
+class BuildNozzle(_Message):
+    """A chamber and nozzle from its numbers (solver/nozzle_design.py), made the current scenario as one change
+    that undo takes back. SI units; ranges are the design module's own (its refusals name these fields). Fields
+    left out take the designer's defaults. Runs at the current chamber, ambient and gas."""
+
+    type: Literal["build_nozzle"]
+    throat_radius_m: Finite = Field(description="throat radius (half height in planar mode), metres, above 0")
+    contraction_ratio: Finite = Field(description="chamber area / throat area, above 1")
+    chamber_length_m: Finite = Field(description="cylindrical chamber length, metres, above 0")
+    exit_area_ratio: Finite = Field(description="exit area / throat area, above 1")
+    mode: literal(scn.MODES) = "axisymmetric"  # type: ignore[valid-type]
+    shape: Literal["cone", "bell", "moc"] = "cone"
+    half_angle_deg: Optional[Finite] = None
+    convergent_half_angle_deg: Optional[Finite] = None
+    upstream_rounding: Optional[Finite] = None
+    downstream_rounding: Optional[Finite] = None
+    bell_fraction: Optional[Finite] = None
+    inflection_angle_deg: Optional[Finite] = None
+    exit_angle_deg: Optional[Finite] = None
+    cells_per_throat_radius: Optional[Annotated[int, Field(strict=True)]] = None
+
+
+class PropellantGas(_Message):
+    """The chamber gas of a propellant pair by chemical equilibrium (solver/propellant.py, Cantera): frozen gamma,
+    molar mass and chamber temperature applied to the gas and reservoir (with p0) as one change."""
+
+    type: Literal["propellant_gas"]
+    fuel: Annotated[str, Field(max_length=16)]
+    oxidiser: Annotated[str, Field(max_length=16)]
+    mixture_ratio: Finite = Field(description="oxidiser-to-fuel mass ratio")
+    p0_pa: Finite = Field(description="chamber pressure, Pa")
+    reactant_state: Literal["gas", "liquid"] = "gas"
+
+
 ClientMessage = Annotated[
     Union[AddShape, RemoveShape, Undo, Redo, ClearSketch, ClearAll, SetMirror, SetGas, SetConditions, SetNumerics,
           SetResolution, SetDomain, SetEdges, SetMode, SetInitial, Run, Pause, ResetFlow, Step, AddStation,
           RemoveStation, AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios,
-          DeleteScenario, Export, ListExports, DeleteExport],
+          DeleteScenario, Export, ListExports, DeleteExport, BuildNozzle, PropellantGas],
     Field(discriminator="type"),
 ]
 _ADAPTER: TypeAdapter = TypeAdapter(ClientMessage)
@@ -440,6 +476,8 @@ def error_message(request: str, err: RequestError, rid: Any = None) -> dict:
     """The `error` reply (PROTOCOL.md)."""
     out = {"type": "error", "request": request, "field": err.field, "value": _jsonable(err.value),
            "rule": err.rule, "allowed": err.allowed, "message": err.message}
+    if getattr(err, "harmless", False):  # a no-op refused (undo with nothing to undo ...): a calm note on the page
+        out["harmless"] = True
     if rid is not None:
         out["id"] = rid
     return out

@@ -18,7 +18,7 @@ import logging
 import time
 from typing import Any, Callable
 
-from . import readings
+from . import engine, readings
 from .history import FlowHistory
 from .hub import Hub
 from .session import Advanced, Session
@@ -223,6 +223,7 @@ class Runner:
                   "steps_per_s": self.steps_per_s, "cell_updates_per_s": self.cell_updates_per_s,
                   "nx": sim.domain.nx, "ny": sim.domain.ny, "undo_depth": s.undo_depth, "redo_depth": s.redo_depth}
         status.update(readings.status_figures(sim, s.scenario, nozzle, floors))
+        status.update(engine.engine_status(sim, s.scenario, nozzle))  # engine figures, separation marks
         if s.divergence is not None:
             status["warnings"].insert(0, "the run diverged and was paused: " + s.divergence.message)
         self._last_status_t = now

@@ -553,6 +553,21 @@ class Session:
         self._undo.clear()
         self._redo.clear()
 
+    def replace(self, scenario: scn.Scenario) -> None:
+        """A whole new scenario made on the page (a nozzle built from numbers) as ONE change that undo takes
+        back: new flow, its name and description are what is loaded now, the undo history is kept."""
+        origin = (self._origin_name, self._origin_description, self._origin_content)
+        self._set_origin(scenario)
+        try:
+            self._commit(scenario, self._new_flow)
+        except RequestError:
+            self._origin_name, self._origin_description, self._origin_content = origin
+            raise
+
+    def change_document(self, doc: dict) -> None:
+        """Several values changed at once (gas and chamber from propellants) as one undoable change."""
+        self._commit(self._validated(doc), self._apply_difference)
+
     def kept_as(self, name: str) -> None:
         """The scenario was kept under `name`: it now is that scenario, not an edited one."""
         doc = self._doc()

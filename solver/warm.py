@@ -7,19 +7,40 @@ batch command before its clock starts call this, so nobody meets the compilation
 from __future__ import annotations
 
 import time
+from typing import Callable
 
 from . import scenario as scn
 from .fields import VIEWS, derived
 
 
-def warm_kernels() -> float:
+#: The warm-up's stages in order: (name, what compiles, for the page and the console).
+STAGES = (("geometry", "sketch to cells: cut-cell geometry, axisymmetric"),
+          ("flux", "face fluxes and stage update, axisymmetric"),
+          ("views", "derived views (Mach, pressure, ...)"),
+          ("geometry_planar", "sketch to cells, planar"),
+          ("flux_planar", "face fluxes and stage update, planar"),
+          ("views_planar", "derived views, planar"))
+
+
+def warm_kernels(progress: Callable[[int, int, str, str], None] | None = None) -> float:
     """Build the default scenario and a planar one at a tiny resolution through the same path every run takes,
-    step each twice and draw every view; returns the seconds taken."""
+    step each twice and draw every view; returns the seconds taken. progress(done, total, stage, label) is
+    called before each stage (STAGES), so a page and a console can say what is compiling."""
     start = time.perf_counter()
+    stages = iter(enumerate(STAGES))
+
+    def next_stage() -> None:
+        k, (name, label) = next(stages)
+        if progress is not None:
+            progress(k, len(STAGES), name, label)
+
     for name in (scn.DEFAULT_SCENARIO, "shock_tube_reflection"):
+        next_stage()
         sim = scn.build_simulation(scn.load_builtin(name), nx=32)
+        next_stage()
         sim.step()
         sim.step()
+        next_stage()
         rho, u, v, p = sim.primitive()
         for view in VIEWS:
             derived(view, sim.setup.gas, rho, u, v, p, sim.domain.dx_m, sim.mask)

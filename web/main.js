@@ -9,6 +9,8 @@ import { Histories, Pace, showClock, showLists, showProbes, showReadout, showSta
 import { fetchExport, safeName, setupFiles, showExportList, showScenarioList, syncScenarioPick, download } from "./files.js";
 import { fillInitial, setupInitial } from "./initial.js";
 import { decodeFrame } from "./frame.js";
+import { designMessage, setupDialogs } from "./dialogs.js";
+import { drawSeparation, engineMessage } from "./engine.js";
 import { Placement } from "./geometry.js";
 import { drawArrows, drawAxis, drawInitial, drawProbes, drawShape, drawSketch, drawSonicLine, drawStations, STATION_COLOUR } from "./overlays.js";
 import { applyLimits, fillChoices, fillPanels, setupPanels } from "./panels.js";
@@ -90,13 +92,14 @@ app.showMessage = (text, kind = "error", field = null) => {
 function showServerError(msg) {
   const where = [msg.request && msg.request !== "unknown" ? msg.request : "", msg.field].filter(Boolean).join(": ");
   const text = `${msg.message || `${msg.field} was refused.`}${where ? ` (${where})` : ""}`;
-  app.showMessage(text, "error", msg.field);
+  // a harmless no-op (undo with nothing to undo, clearing an empty sketch ...) is a calm note, not a red error
+  app.showMessage(text, msg.harmless ? "note" : "error", msg.harmless ? null : msg.field);
   const box = $("#messages").firstElementChild;
   if (box) {
     box.dataset.rule = msg.rule || "";
     box.dataset.allowed = msg.allowed || "";
   }
-  if (msg.field) {
+  if (msg.field && !msg.harmless) {
     const leaf = String(msg.field).split(".").pop();
     for (const el of $$(`[data-field="${msg.field}"], [data-field="${leaf}"]`)) el.classList.add("invalid");
   }
@@ -243,6 +246,7 @@ function drawPicture() {
     if ($("#ov-marks").checked) {
       app.labelBoxes = drawStations(ctx, place, sc.stations, []);
       drawProbes(ctx, place, sc.probes);
+      drawSeparation(ctx, place, app.status && app.status.separation);
     } else app.labelBoxes = [];
   }
   const draft = app.tools && app.tools.draft;
@@ -644,6 +648,8 @@ function takeScenario(scenario, revision, edited, origin) {
 }
 
 function onMessage(msg) {
+  designMessage(app, msg);
+  engineMessage(app, msg);
   switch (msg.type) {
     case "hello": {
       app.hello = msg;
@@ -671,7 +677,7 @@ function onMessage(msg) {
     }
     case "notice":
       if (msg.kind === "ready") for (const el of $$('#messages [data-field="warming"]')) el.remove();
-      if (msg.message) app.showMessage(msg.message, "note");
+      if (msg.message && msg.kind !== "warming") app.showMessage(msg.message, "note"); // warming: the bar says it
       break;
     case "history":
       app.histories.seed(msg);
@@ -759,6 +765,7 @@ function start() {
   setupRunControls();
   setupPanels(app);
   setupFiles(app);
+  setupDialogs(app);
   setupStrip();
   app.conn = new Connection({ onMessage, onFrame, onState: onLinkState });
   app.conn.open();

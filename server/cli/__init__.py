@@ -60,6 +60,9 @@ def add_serve_command(sub) -> argparse.ArgumentParser:
     p.add_argument("--paused", action="store_true", help="start paused instead of running")
     p.add_argument("--threads", type=int, metavar="N",
                    help="solver threads (default: all cores; 1 is kinder to a machine shared with other work)")
+    p.add_argument("--without-thermochemistry", action="store_true",
+                   help="answer 'gas from propellants' as if Cantera were not installed (what a `make run` install "
+                        "without the design extra shows)")
     p.set_defaults(func=serve)
     return p
 
@@ -113,7 +116,8 @@ def serve(args: argparse.Namespace) -> int:
             return EXIT_BAD_INPUT
     access = Access.for_bind(args.host, args.port)
     config = ServerConfig(access=access, data_dir=store.data_dir, scenario=scenario,
-                          start_running=not args.paused, open_browser=args.open, solver_threads=args.threads)
+                          start_running=not args.paused, open_browser=args.open, solver_threads=args.threads,
+                          thermochemistry=not args.without_thermochemistry)
     app = create_app(config)
     print(f"shockslate: open {access.url()}", flush=True)
     print(f"shockslate: scenarios are kept in {store.data_dir}", flush=True)
