@@ -93,7 +93,7 @@ def nozzle_document(fields: dict, current: scn.Scenario) -> dict:
         allowed = err.allowed[len("must be "):] if err.allowed.startswith("must be ") else err.allowed
         sentence = (f"The nozzle cannot be built: the {label} is missing; {allowed}." if err.value is None else
                     f"The nozzle cannot be built: the {label} of {_sentence_value(err.value, unit)} is not allowed; "
-                    f"it {err.allowed}.")
+                    f"allowed: {allowed}.")
         raise RequestError(err.field, err.value, allowed, sentence, "design") from None
     return doc
 
@@ -115,7 +115,7 @@ def chamber_gas(fields: dict, enabled: bool = True) -> propellant.ChamberGas:
         unit = "Pa" if err.field == "p0_pa" else ""
         raise RequestError(err.field, err.value, allowed,
                            f"The chamber gas cannot be computed: the {label} {_sentence_value(err.value, unit)} is "
-                           f"not allowed; it {err.allowed}.", "propellant") from None
+                           f"not allowed; allowed: {allowed}.", "propellant") from None
     except propellant.ThermochemistryUnavailable as err:
         raise RequestError("fuel", fields.get("fuel"), "a server with the thermochemistry library (Cantera)",
                            f"Gas from propellants is not available: {err}. {HOW_TO_ADD_THERMOCHEMISTRY}",

@@ -206,8 +206,10 @@ class Dispatcher:
         doc = await asyncio.to_thread(design.nozzle_document, _fields(message), current)
         try:
             scenario = scn.parse_scenario(doc)
-        except scn.ScenarioError as err:
-            raise request_error_from_scenario(err) from None
+        except scn.ScenarioError as err:  # numbers the designer took but the solver cannot hold (a huge domain)
+            refused = request_error_from_scenario(err)
+            raise RequestError(refused.field, refused.value, refused.allowed, "The nozzle built from these numbers "
+                               f"does not fit the solver: {refused.message}", refused.rule) from None
         await self._change(client, message, self.session.replace, scenario)
 
     async def _propellant_gas(self, client: Client, message: p.PropellantGas) -> None:

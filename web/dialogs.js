@@ -40,14 +40,17 @@ function dialogError(dialog, text, field) {
   if (field) for (const el of $$(`[data-nz="${field}"], [data-pg="${field}"]`, dialog)) el.classList.add("invalid");
 }
 
+/** A number as the user would type it back: up to 6 significant figures, no trailing zeros, a true minus. */
+const typed = (v) => String(Number(v.toPrecision(6))).replace("-", "\u2212");
+
 /** The value of a refusal in the unit of the dialog field it names ("−5 mm" for −0.005 m). */
 function valueInUnits(dialog, msg) {
   const input = $(`[data-nz="${msg.field}"], [data-pg="${msg.field}"]`, dialog);
   if (msg.value === null || msg.value === undefined) return "nothing";
   if (typeof msg.value !== "number" || !input) return JSON.stringify(msg.value);
-  if (input.dataset.length !== undefined) return `${num(msg.value / lengthScale(), 4)} ${$("#nz-length-unit").value}`;
-  if (input.dataset.pg === "p0_pa") return `${num(msg.value / PRESSURE_UNITS[getPressureUnit()], 4)} ${getPressureUnit()}`;
-  return `${num(msg.value, 4)}${input.dataset.unit ? ` ${input.dataset.unit}` : ""}`;
+  if (input.dataset.length !== undefined) return `${typed(msg.value / lengthScale())} ${$("#nz-length-unit").value}`;
+  if (input.dataset.pg === "p0_pa") return `${typed(msg.value / PRESSURE_UNITS[getPressureUnit()])} ${getPressureUnit()}`;
+  return `${typed(msg.value)}${input.dataset.unit ? ` ${input.dataset.unit}` : ""}`;
 }
 
 function labelOf(dialog, field) {
