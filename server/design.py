@@ -33,6 +33,18 @@ NOZZLE_FIELDS = {
     "exit_angle_deg": ("bell exit angle", "deg"), "cells_per_throat_radius": ("cells per throat radius", ""),
     "mode": ("mode", ""), "shape": ("contour", ""), "design_gamma": ("gamma of the gas", ""),
 }
+#: The choices of the design dialogs, in the order to offer them (sent in hello.vocabulary.choices).
+NOZZLE_SHAPE_LABELS = {"cone": "conical", "bell": "bell (parabolic approximation, Rao)",
+                       "moc": "minimum length (method of characteristics)"}
+REACTANT_STATE_LABELS = {"gas": "gases at 298 K", "liquid": "liquids at their boiling points"}
+
+
+def choices() -> dict:
+    """`nozzle_shape` and `reactant_state` choices, {name, label}, from the solver's own tables."""
+    return {"nozzle_shape": [{"name": n, "label": NOZZLE_SHAPE_LABELS.get(n, n)} for n in nd.SHAPES],
+            "reactant_state": [{"name": n, "label": REACTANT_STATE_LABELS.get(n, n)} for n in propellant.STATES]}
+
+
 PROPELLANT_FIELDS = {"fuel": "fuel", "oxidiser": "oxidiser", "mixture_ratio": "mixture ratio",
                      "p0_pa": "chamber pressure", "reactant_state": "propellant state",
                      "gamma_frozen": "frozen gamma"}

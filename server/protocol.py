@@ -22,10 +22,13 @@ from shockslate.solver.domain import MAX_NX
 from shockslate.solver.fields import VIEWS
 from shockslate.solver.gas import PRESET_CHOICES
 from shockslate.solver.kinds import EDGES
+from shockslate.solver.nozzle_design import SHAPES
 from shockslate.solver.numerics import FLUXES, INTEGRATOR_CHOICES, LIMITERS, ORDERS
+from shockslate.solver.propellant import STATES
 from shockslate.solver.shapes import MIRRORS
 from shockslate.solver.validation import numeric_limits, problem_from_record
 
+from . import design
 from .errors import RequestError
 
 PROTOCOL_VERSION = 1
@@ -351,7 +354,7 @@ class BuildNozzle(_Message):
     chamber_length_m: Finite = Field(description="cylindrical chamber length, metres, above 0")
     exit_area_ratio: Finite = Field(description="exit area / throat area, above 1")
     mode: literal(scn.MODES) = "axisymmetric"  # type: ignore[valid-type]
-    shape: Literal["cone", "bell", "moc"] = "cone"
+    shape: literal(SHAPES) = "cone"  # type: ignore[valid-type]
     half_angle_deg: Optional[Finite] = None
     convergent_half_angle_deg: Optional[Finite] = None
     upstream_rounding: Optional[Finite] = None
@@ -371,7 +374,7 @@ class PropellantGas(_Message):
     oxidiser: Annotated[str, Field(max_length=16)]
     mixture_ratio: Finite = Field(description="oxidiser-to-fuel mass ratio")
     p0_pa: Finite = Field(description="chamber pressure, Pa")
-    reactant_state: Literal["gas", "liquid"] = "gas"
+    reactant_state: literal(STATES) = "gas"  # type: ignore[valid-type]
 
 
 ClientMessage = Annotated[
@@ -469,6 +472,7 @@ def vocabulary() -> dict:
     out["limits"] = {**out["limits"], **numeric_limits(Step, "step."), **numeric_limits(SetView, "view.")}
     out["choices"]["view"] = [{"name": n, "label": label} for n, (label, _unit) in VIEWS.items()]
     out["choices"]["overlay"] = [{"name": n, "label": n.replace("_", " ")} for n in OVERLAYS]
+    out["choices"].update(design.choices())  # the design dialogs' contour shapes and propellant states
     return out
 
 

@@ -181,6 +181,8 @@ export function designMessage(app, msg) {
 
 export function setupDialogs(app) {
   const dialog = $("#nozzle-dialog");
+  // display units of the dialog's lengths (the page's own, like the pressure units)
+  $("#nz-length-unit").replaceChildren(...Object.keys(LENGTH_UNITS).map((u) => new Option(u, u)));
   $("#open-nozzle-dialog").addEventListener("click", () => {
     dialogError(dialog, "", null);
     const sc = app.scenario;
