@@ -44,10 +44,11 @@ STEP_SLICE_S = 0.05
 
 
 #: Refusals of a harmless action that changes nothing (undo with nothing to undo, clearing an empty sketch, deleting
-#: what is not there, stepping while running): still an `error` reply, marked `harmless` so the page shows a calm
+#: what is not there (another tab may have deleted it), stepping while running, a station export with no station): still an `error` reply, marked `harmless` so the page shows a calm
 #: note rather than a red error. (request type, rule).
 HARMLESS = {("undo", "nothing_to_undo"), ("redo", "nothing_to_redo"), ("clear_sketch", "empty"),
-            ("remove_probe", "one_of"), ("remove_station", "one_of"), ("step", "state")}
+            ("remove_probe", "one_of"), ("remove_station", "one_of"), ("remove_shape", "range"), ("step", "state"),
+            ("profile", "one_of"), ("export", "needs_station")}
 
 
 def is_harmless(request: str, err: RequestError) -> bool:

@@ -143,6 +143,8 @@ def test_without_thermochemistry_the_server_says_so_and_how_to_add_it(tmp_path):
     ({"type": "remove_station", "name": "nowhere"}, "one_of"),
     ({"type": "delete_scenario", "name": "never kept"}, None),
     ({"type": "delete_export", "name": "gone.npz"}, None),
+    ({"type": "remove_shape", "index": 7}, "range"),
+    ({"type": "profile", "station": "gone"}, "one_of"),
 ])
 def test_a_harmless_no_op_is_marked_harmless(ws, message, rule):
     err = refused(ws, message)
@@ -153,10 +155,20 @@ def test_clearing_an_empty_sketch_is_harmless_but_a_bad_value_is_not(ws):
     ask(ws, {"type": "clear_sketch"}, "scenario")
     err = refused(ws, {"type": "clear_sketch"})
     assert err["rule"] == "empty" and err["harmless"] is True
+    # setting the value it already has is no refusal at all, and adds nothing to undo
+    depth = ask(ws, {"type": "pause"}, "status")["undo_depth"]
+    cfl = ws.hello["scenario"]["numerics"]["cfl"]
+    for same in ({"type": "set_gas", "preset": "air"}, {"type": "set_mirror", "mirror": "none"},
+                 {"type": "set_edges", "left": "wall"}, {"type": "set_numerics", "cfl": cfl}):
+        assert ask(ws, same, "scenario")["type"] == "scenario"
+    assert ask(ws, {"type": "pause"}, "status")["undo_depth"] == depth
     err = refused(ws, {"type": "set_numerics", "cfl": 5.0})
     assert "harmless" not in err
     err = refused(ws, {"type": "delete_scenario", "name": scn.DEFAULT_SCENARIO})  # a built-in: a real refusal
     assert "harmless" not in err
+    ask(ws, {"type": "remove_station", "name": "mid"}, "scenario")
+    err = refused(ws, {"type": "export", "what": "csv"})  # a station export with no station: nothing to export
+    assert err["rule"] == "needs_station" and err["harmless"] is True
 
 
 def test_engine_figures_and_separation_marks_are_the_reports_own(server, ws):

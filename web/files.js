@@ -71,7 +71,7 @@ export function setupFiles(app) {
   $("#save-server").addEventListener("click", () => {
     const name = $("#save-name").value.trim() || (app.scenario && app.scenario.name) || "";
     if (!name) {
-      app.showMessage("Give the scenario a name to keep it on this machine.");
+      app.showMessage("Give the scenario a name to keep it on this machine.", "note"); // nothing was lost: a calm note
       return;
     }
     app.send("save_scenario", { name });
