@@ -20,7 +20,7 @@ from shockslate.solver.simulation import Simulation
 ENGINE_FIELDS = ("regime", "p_amb_pa", "throat_area_m2", "exit_area_m2", "area_ratio", "thrust_n",
                  "mass_flow_throat_kg_s", "choked_mass_flow_kg_s",
                  "thrust_coefficient", "ideal_thrust_coefficient", "ideal_thrust_coefficient_with_divergence",
-                 "thrust_coefficient_ratio", "c_star_sim_m_s", "c_star_m_s", "c_star_ratio",
+                 "thrust_coefficient_ratio", "thrust_coefficient_ratio_with_divergence", "c_star_sim_m_s", "c_star_m_s", "c_star_ratio",
                  "specific_impulse_s", "ideal_specific_impulse_s", "specific_impulse_ratio")
 
 

@@ -193,8 +193,10 @@ def test_engine_figures_and_separation_marks_show_on_the_page(page):
     rows = page.evaluate("""() => Array.from(document.querySelectorAll('#engine-table tbody tr')).map((tr) =>
         Array.from(tr.children).map((td) => td.textContent))""")
     labels = [r[0] for r in rows]
-    assert labels == ["thrust coefficient C_F", "characteristic velocity c*", "specific impulse I_sp"]
-    cf, cstar, isp = rows
+    assert labels == ["thrust coefficient C_F", "C_F, ideal with divergence factor", "characteristic velocity c*",
+                      "specific impulse I_sp"]
+    cf, cf_div, cstar, isp = rows
+    assert number(cf_div[2]) == pytest.approx(eng["ideal_thrust_coefficient_with_divergence"], rel=1e-3)
     # each beside its ideal, with its unit, the very numbers of the status (4 significant figures)
     assert number(cf[2]) == pytest.approx(eng["ideal_thrust_coefficient"], rel=1e-3)
     assert cstar[1].endswith(" m/s") and cstar[2].endswith(" m/s")

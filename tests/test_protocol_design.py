@@ -185,8 +185,9 @@ def test_engine_figures_and_separation_marks_are_the_reports_own(server, ws):
     throat, exit_ = scn.station_by_role(s, "throat"), scn.station_by_role(s, "exit")
     fig = nozzle_report.figures(session.sim, s, nozzle.drawn_nozzle(s), throat, exit_)
     eng = status["engine"]
-    for key in ("thrust_coefficient", "ideal_thrust_coefficient", "c_star_sim_m_s", "c_star_m_s",
-                "specific_impulse_s", "ideal_specific_impulse_s"):
+    for key in ("thrust_coefficient", "ideal_thrust_coefficient", "ideal_thrust_coefficient_with_divergence",
+                "thrust_coefficient_ratio_with_divergence", "c_star_sim_m_s", "c_star_m_s", "specific_impulse_s",
+                "ideal_specific_impulse_s"):
         assert eng[key] == pytest.approx(getattr(fig, key), rel=1e-12), key
     # sanity of the ideal figures: c* = p0 A* / mdot_choked (Sutton and Biblarz ch. 3)
     assert eng["c_star_m_s"] == pytest.approx(4.0e5 * eng["throat_area_m2"] / eng["choked_mass_flow_kg_s"], rel=1e-9)
@@ -201,3 +202,14 @@ def test_engine_figures_and_separation_marks_are_the_reports_own(server, ws):
 def test_a_scenario_without_a_nozzle_has_no_engine_figures(ws):
     status = ask(ws, {"type": "step", "count": 1}, "status")
     assert status["engine"] is None and status["separation"] is None
+
+
+def test_the_warm_up_reports_each_stage_before_it_runs():
+    """What the server tells the tabs and prints while the kernels compile: every stage of solver/warm.py, in
+    order, each before it runs, with a label of what compiles."""
+    from shockslate.solver.warm import STAGES, warm_kernels
+
+    seen = []
+    warm_kernels(lambda done, total, stage, label: seen.append((done, total, stage, label)))
+    assert [s[0] for s in seen] == list(range(len(STAGES))) and {s[1] for s in seen} == {len(STAGES)}
+    assert [(s[2], s[3]) for s in seen] == list(STAGES)

@@ -11,6 +11,8 @@ const $ = (sel, root = document) => root.querySelector(sel);
 /** Rows of the engine table: label, simulated key, ideal key, ratio key, unit, digits. */
 const ROWS = [
   ["thrust coefficient C_F", "thrust_coefficient", "ideal_thrust_coefficient", "thrust_coefficient_ratio", "", 4],
+  ["C_F, ideal with divergence factor", "thrust_coefficient", "ideal_thrust_coefficient_with_divergence",
+    "thrust_coefficient_ratio_with_divergence", "", 4],
   ["characteristic velocity c*", "c_star_sim_m_s", "c_star_m_s", "c_star_ratio", "m/s", 4],
   ["specific impulse I_sp", "specific_impulse_s", "ideal_specific_impulse_s", "specific_impulse_ratio", "s", 4],
 ];
