@@ -107,6 +107,13 @@ def nozzle_document(fields: dict, current: scn.Scenario) -> dict:
                     f"The nozzle cannot be built: the {label} of {_sentence_value(err.value, unit)} is not allowed; "
                     f"allowed: {allowed}.")
         raise RequestError(err.field, err.value, allowed, sentence, "design") from None
+    except (ArithmeticError, ValueError):  # a length that overflows (numbers near 1e300) before any range check
+        given = {k: v for k, v in fields.items() if isinstance(v, float)}
+        field = max(given, key=lambda k: abs(given[k])) if given else "throat_radius_m"
+        label, unit = NOZZLE_FIELDS.get(field, (field, ""))
+        raise RequestError(field, fields.get(field), "numbers that give a nozzle of a size the solver can hold",
+                           f"The nozzle cannot be built: with the {label} of {_sentence_value(fields.get(field), unit)} "
+                           "its lengths overflow; give numbers of an engine's size.", "design") from None
     return doc
 
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import csv
 import importlib.util
+import json
 import math
 from pathlib import Path
 
@@ -213,3 +214,39 @@ def test_the_warm_up_reports_each_stage_before_it_runs():
     warm_kernels(lambda done, total, stage, label: seen.append((done, total, stage, label)))
     assert [s[0] for s in seen] == list(range(len(STAGES))) and {s[1] for s in seen} == {len(STAGES)}
     assert [(s[2], s[3]) for s in seen] == list(STAGES)
+
+
+HOSTILE = [0.0, -1.0, 1e-300, 1e300, 1.0, 1.0000001, 89.9, 1e6]
+
+
+def answer(sock, rid: str) -> dict:
+    """The reply (of any type) that echoes request id `rid`, skipping frames and other messages."""
+    for _ in range(400):
+        msg = sock.receive()
+        if msg.get("text") is not None:
+            data = json.loads(msg["text"])
+            if data.get("id") == rid:
+                return data
+    raise AssertionError(f"no reply to {rid}")
+
+
+def test_hostile_design_numbers_get_plain_refusals_never_an_internal_error(ws):
+    """Every design field at values from zero to 1e300: a scenario, or a refusal naming a field in plain words
+    (no Python words such as exception names), and the connection stays usable."""
+    python_words = ("Traceback", "Error", "Exception", "NoneType", "<class")
+    for field in ("throat_radius_m", "contraction_ratio", "chamber_length_m", "exit_area_ratio", "half_angle_deg",
+                  "convergent_half_angle_deg", "upstream_rounding", "downstream_rounding"):
+        for shape in (("cone", "moc") if field in ("throat_radius_m", "exit_area_ratio") else ("cone",)):
+            for value in HOSTILE:
+                ws.send_json({**NOZZLE, "shape": shape, field: value, "id": "h"})
+                reply = answer(ws, "h")
+                if reply["type"] == "error":
+                    assert reply["rule"] != "internal" and reply["field"], reply
+                    assert not any(w in reply["message"] for w in python_words), reply["message"]
+                else:
+                    assert reply["type"] == "scenario"
+    for fuel, oxidiser, ratio in (("", "O2", 6.0), ("H2", "H2", 6.0), ("../x", "O2", 1e300), ("H2", "O2", 0.0)):
+        err = refused(ws, {"type": "propellant_gas", "fuel": fuel, "oxidiser": oxidiser, "mixture_ratio": ratio,
+                           "p0_pa": 7e6})
+        assert err["rule"] != "internal" and not any(w in err["message"] for w in python_words), err
+    assert ask(ws, {"type": "inspect", "x_m": 0.001, "y_m": 0.001}, "inspect")["type"] == "inspect"
