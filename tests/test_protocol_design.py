@@ -250,3 +250,14 @@ def test_hostile_design_numbers_get_plain_refusals_never_an_internal_error(ws):
                            "p0_pa": 7e6})
         assert err["rule"] != "internal" and not any(w in err["message"] for w in python_words), err
     assert ask(ws, {"type": "inspect", "x_m": 0.001, "y_m": 0.001}, "inspect")["type"] == "inspect"
+
+
+def test_shockslate_warm_prints_each_stage(capsys):
+    """Set-up (`make run` calls `shockslate warm`) says what compiles, stage by stage, on the console too."""
+    from shockslate.server.cli import main
+    from shockslate.solver.warm import STAGES
+
+    assert main(["warm"]) == 0
+    out = capsys.readouterr().out
+    for k, (_name, label) in enumerate(STAGES):
+        assert f"stage {k + 1} of {len(STAGES)}: {label}" in out

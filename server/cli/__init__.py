@@ -83,7 +83,8 @@ def warm(args: argparse.Namespace) -> int:
 
     print(f"shockslate: compiling the solver kernels into {cache_dir()} "
           "(the first time takes one to three minutes; later starts load them in about a second)", flush=True)
-    seconds = warm_kernels()
+    seconds = warm_kernels(lambda done, total, _stage, label: print(
+        f"shockslate: compiling the solver kernels, stage {done + 1} of {total}: {label}", flush=True))
     print(f"shockslate: kernels ready in {seconds:.1f} s", flush=True)
     return EXIT_OK
 
