@@ -148,6 +148,10 @@ function showChamberGas(msg) {
 export function designMessage(app, msg) {
   if (msg.type === "hello") {
     takeThermochemistry(msg.thermochemistry);
+    // the chamber pressure box starts at the reservoir's p0, in the page's pressure unit, until the user types
+    const box = $("#pg-p0");
+    const p0 = msg.scenario && msg.scenario.conditions && msg.scenario.conditions.reservoir.p0_pa;
+    if (!box.dataset.typed && Number.isFinite(p0)) box.value = String(Number((p0 / PRESSURE_UNITS[getPressureUnit()]).toPrecision(6)));
     return;
   }
   if (msg.type === "chamber_gas") {
@@ -209,6 +213,7 @@ export function setupDialogs(app) {
   });
   $("#nz-length-unit").dataset.was = $("#nz-length-unit").value;
   $("#pg-compute").addEventListener("click", () => computeGas(app));
+  $("#pg-p0").addEventListener("input", () => { $("#pg-p0").dataset.typed = "yes"; });
   // the chamber pressure box keeps its pressure when the page's pressure unit changes (panels.js switches it)
   let unitWas = getPressureUnit();
   $("#pressure-unit").addEventListener("change", () => {
