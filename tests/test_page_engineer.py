@@ -209,8 +209,13 @@ def test_engine_figures_and_separation_marks_show_on_the_page(page):
     caution = page.inner_text("#separation-caution")
     assert "Summerfield" in caution and "not what a real nozzle does" in caution and " mm" in caution
     marks = page.evaluate("window.shockslate.status.separation.marks_m")
-    page.wait_for_function("window.shockslate.framesDrawn > 0", timeout=WAIT_MS)
+    # draw the picture once more now that the status holding the marks is in hand (while paused no new frame
+    # need come): turning the stations-and-probes layer off and on redraws it
+    page.click("#ov-marks")
+    page.click("#ov-marks")
     page.evaluate("window.shockslate.framesDrawn = 0")
+    page.click("#ov-marks")
+    page.click("#ov-marks")
     page.wait_for_function("window.shockslate.framesDrawn > 0", timeout=WAIT_MS)
     red = page.evaluate("""(m) => {
         const c = document.querySelector('#view'), dpr = window.devicePixelRatio || 1;
@@ -232,7 +237,12 @@ def test_a_sketch_without_a_nozzle_shows_no_engine_figures(page, tmp_path):
     load_through_upload(page, stream_duct(), tmp_path)
     pause(page)
     step(page, 2)
-    page.wait_for_function("window.shockslate.status.engine === null", timeout=WAIT_MS)
+    try:
+        page.wait_for_function("window.shockslate.status.revision === window.shockslate.revision && "
+                               "window.shockslate.status.engine === null", timeout=WAIT_MS)
+    except Exception:
+        raise AssertionError(page.evaluate("JSON.stringify({rev: window.shockslate.revision, "
+                                           "status: window.shockslate.status}).slice(0, 3000)")) from None
     assert page.locator("#engine-block").is_hidden() and page.locator("#separation-caution").is_hidden()
 
 
