@@ -18,11 +18,12 @@ from . import protocol as p
 from .errors import RequestError
 from . import export_list
 from .exports import Exports
-from .hub import Client, Hub, ViewChoice
+from .hub import Client, Hub, ViewChoice, ring_key
 from .persistence import ScenarioStore
 from .runner import Runner
 from .security import Access
 from .session import SessionState, request_error_from_scenario
+from .wave_history import WaveLine
 
 
 def hello_message(client: Client, runner: Runner) -> dict:
@@ -87,6 +88,10 @@ class Dispatcher:
             "export": self._export,
             "list_exports": self._list_exports,
             "delete_export": self._delete_export,
+            "list_frames": self._list_frames,
+            "recall_frame": self._recall_frame,
+            "set_wave_line": self._set_wave_line,
+            "wave_history": self._wave_history,
         }
         missing = set(p.MESSAGE_TYPES) - set(self._handlers)
         assert not missing, f"message types without a handler: {missing}"
@@ -216,6 +221,42 @@ class Dispatcher:
         query = f"?token={self.access.token}" if self.access.token else ""
         self._reply(client, message, {"type": "export_ready", "what": message.what,
                                       "url": f"/exports/{path.name}{query}", "filename": path.name})
+
+
+    # ------------------------------------------------------------ presenting: frame ring, wave diagram
+    async def _list_frames(self, client: Client, message: p.ListFrames) -> None:
+        self._reply(client, message, self.hub.ring.listing())
+
+    async def _recall_frame(self, client: Client, message: p.RecallFrame) -> None:
+        frame = self.hub.ring.recall(message.steps, ring_key(client.view))
+        if frame is None:
+            span = self.hub.ring.span()
+            allowed = (f"a step from {span[0]} (the oldest kept) upwards" if span is not None
+                       else "a step of a kept frame (none is kept yet: the ring fills while tabs watch the flow)")
+            raise RequestError("steps", message.steps, allowed,
+                               f"No frame at or before step {message.steps} is kept any more.", "kept")
+        self.hub.send_frame(client, frame)
+
+    async def _set_wave_line(self, client: Client, message: p.SetWaveLine) -> None:
+        line = None
+        if message.station is not None:
+            found = [st for st in self.session.scenario.stations if st.name == message.station]
+            if not found:
+                names = [st.name for st in self.session.scenario.stations]
+                raise RequestError("station", message.station,
+                                   "one of the stations: " + (", ".join(names) or "(there are none)"),
+                                   f"There is no station called {message.station}.", "one_of")
+            st = found[0]
+            line = WaveLine(tuple(st.start_m), tuple(st.end_m), message.field, st.name)
+        elif not message.off:
+            line = WaveLine(tuple(message.start_m), tuple(message.end_m), message.field)
+        waves = self.runner.waves
+        await self.runner.read(lambda: (setattr(waves, "every_steps", message.every_steps), waves.set_line(line),
+                                        waves.record(self.session.sim)))
+        self.hub.broadcast(waves.line_message(), reply_to=client, request_id=message.id)
+
+    async def _wave_history(self, client: Client, message: p.WaveHistoryRequest) -> None:
+        self._reply(client, message, self.runner.waves.message(message.after_steps))
 
 
 def _fields(message: Any) -> dict:

@@ -21,6 +21,7 @@ from starlette.websockets import WebSocket
 from shockslate.solver.kinds import CellKind
 
 from . import frames
+from .frame_ring import FrameRing
 from .protocol import OVERLAYS, dumps
 from .session import FlowSnapshot
 
@@ -73,7 +74,8 @@ class Client:
             return 0.0
         return (len(recent) - 1) / max(recent[-1] - recent[0], 1e-6)
 
-    def queue(self, text: str) -> None:
+    def queue(self, text: str | bytes) -> None:
+        """A reply to send: text, or bytes sent as a binary frame (a recalled frame)."""
         size = len(text)
         if len(self.outbox) >= MAX_QUEUED_MESSAGES or self.queued_bytes + size > MAX_QUEUED_BYTES:
             self.closed = True
@@ -82,7 +84,7 @@ class Client:
             self.queued_bytes += size
         self.wake.set()
 
-    def next_queued(self) -> str:
+    def next_queued(self) -> str | bytes:
         text = self.outbox.popleft()
         self.queued_bytes -= len(text)
         return text
@@ -103,6 +105,8 @@ class Hub:
         #: Whether the newest snapshot came from a running flow (more will follow soon).
         self.snapshot_live = False
         self.frames_built = 0
+        #: The last few seconds of prepared frames, for scrubbing back (frame_ring.py).
+        self.ring = FrameRing()
 
     # ------------------------------------------------------------ membership
     def new_client(self, websocket: WebSocket) -> Client:
@@ -122,6 +126,10 @@ class Hub:
     # ------------------------------------------------------------ publishing
     def send(self, client: Client, message: dict) -> None:
         client.queue(dumps(message))
+
+    def send_frame(self, client: Client, frame: bytes) -> None:
+        """A binary frame for this client only, in turn with its replies (a recalled frame)."""
+        client.queue(frame)
 
     def broadcast(self, message: dict, reply_to: Client | None = None, request_id: Any = None) -> None:
         """The same message to every client; the one that asked gets its id echoed."""
@@ -158,6 +166,7 @@ class Hub:
         for view in {c.view for c in clients}:
             ready[_frame_key(snap, view)] = build_frame(snap, view, fields)
             self.frames_built += 1
+            self.ring.add(snap.steps, snap.time_s, ring_key(view), ready[_frame_key(snap, view)])
         now = time.monotonic()
         if with_overlays or now - self._overlays_prepared_t >= 1.0 / OVERLAYS_PER_S:
             for overlays in {c.view.overlays for c in clients if c.view.overlays}:
@@ -203,7 +212,11 @@ class Hub:
             if client.closed:
                 break
             while client.outbox:
-                await ws.send_text(client.next_queued())
+                item = client.next_queued()
+                if isinstance(item, bytes):
+                    await ws.send_bytes(item)
+                else:
+                    await ws.send_text(item)
             now = time.monotonic()
             if client.status is not None:
                 status, client.status = client.status, None
@@ -246,6 +259,11 @@ class Hub:
                         client.last_overlay_key = okey
                         client.last_overlay_t = time.monotonic()
         return wait_s
+
+
+def ring_key(view: ViewChoice) -> str:
+    """The key a view's frames have in the frame ring: its name and canvas size ("mach 800x400")."""
+    return f"{view.view} {view.width}x{view.height}"
 
 
 def _frame_key(snap: FlowSnapshot, view: ViewChoice) -> tuple:

@@ -22,6 +22,7 @@ from . import readings
 from .history import FlowHistory
 from .hub import Hub
 from .session import Advanced, Session
+from .wave_history import WaveHistory
 
 log = logging.getLogger("shockslate.runner")
 
@@ -57,6 +58,8 @@ class Runner:
         self._status_failure: str | None = None
         #: Probe and station histories, sent to a tab when it joins.
         self.history = FlowHistory()
+        #: Rows of a field along the wave diagram's line, taken every few steps (wave_history.py).
+        self.waves = WaveHistory()
 
     # ------------------------------------------------------------ life cycle
     def start(self) -> None:
@@ -102,6 +105,7 @@ class Runner:
 
     def _call_and_observe(self, fn, args, kwargs, fresh_status: bool):
         result = fn(*args, **kwargs)
+        self.waves.record(self.session.sim)  # a step request, or a reset: the wave diagram follows
         snap = None
         if self.hub.wants_frames:
             snap = self.session.snapshot()
@@ -145,7 +149,7 @@ class Runner:
         budget = self.burst_s
         if self.hub.wants_frames:
             budget = min(budget, max(self._next_snapshot_t - now, 0.0))
-        advanced = self.session.advance(budget)
+        advanced = self._advance_sampling(budget)
         now = time.monotonic()
         snap = None
         if self.hub.wants_frames and (now >= self._next_snapshot_t or advanced.divergence is not None):
@@ -164,6 +168,21 @@ class Runner:
                 self._update_rates(now)
                 self._last_status_t = now
         return advanced, snap, status
+
+    def _advance_sampling(self, budget: float) -> Advanced:
+        """session.advance(budget); with a wave line set, in pieces of `every_steps` steps, a row after each."""
+        waves = self.waves
+        if waves.line is None:
+            return self.session.advance(budget)
+        start = time.perf_counter()
+        steps = 0
+        while True:
+            left = max(budget - (time.perf_counter() - start), 0.0)
+            piece = self.session.advance(left, max_steps=waves.every_steps)
+            steps += piece.steps
+            waves.record(self.session.sim)
+            if piece.divergence is not None or piece.steps == 0 or time.perf_counter() - start >= budget:
+                return Advanced(steps, time.perf_counter() - start, piece.divergence)
 
     async def _status_ticker(self) -> None:
         """A status a few times per second even while paused, so every tab sees the run state."""
