@@ -14,6 +14,8 @@ import { drawArrows, drawAxis, drawInitial, drawProbes, drawShape, drawSketch, d
 import { applyLimits, fillChoices, fillPanels, setupPanels } from "./panels.js";
 import { drawPlot } from "./plotstrip.js";
 import { SketchTools } from "./sketch.js";
+import { Presenter } from "./presenter.js";
+import { WaveDiagram } from "./xt_diagram.js";
 import * as U from "./units.js";
 
 const $ = (sel) => document.querySelector(sel);
@@ -132,15 +134,16 @@ function layoutCanvas() {
   const whole = wholeShown();
   const aspect = Placement.aspect(dom, whole);
   const maxW = Math.max(200, wrap.clientWidth);
-  const maxH = Math.max(160, window.innerHeight * 0.62);
+  const maxH = Math.max(160, window.innerHeight * (app.presenter && app.presenter.presenting ? 0.8 : 0.62));
   let w = maxW, h = w * aspect;
   if (h > maxH) { h = maxH; w = h / aspect; }
   w = Math.floor(w); h = Math.floor(h);
   const dpr = window.devicePixelRatio || 1;
   canvas.style.width = `${w}px`;
-  canvas.style.height = `${h}px`;
+  const band = app.presenter ? app.presenter.bandPx(w) : 0; // room for the presenter's labels under the flow
+  canvas.style.height = `${h + band}px`;
   canvas.width = Math.round(w * dpr);
-  canvas.height = Math.round(h * dpr);
+  canvas.height = Math.round((h + band) * dpr);
   app.place = new Placement(dom, w, h, whole);
   $("#ov-whole-label").hidden = !(app.scenario && app.scenario.mode === "axisymmetric");
   const rect = app.place.flowRect();
@@ -218,7 +221,7 @@ function drawPicture() {
   const ctx = canvas.getContext("2d");
   ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
   ctx.fillStyle = "#0b0e11";
-  ctx.fillRect(0, 0, place.widthPx, place.heightPx);
+  ctx.fillRect(0, 0, place.widthPx, canvas.height / dpr);
   const rect = place.flowRect();
   if (app.frame) {
     ctx.imageSmoothingEnabled = true;
@@ -245,6 +248,7 @@ function drawPicture() {
       drawProbes(ctx, place, sc.probes);
     } else app.labelBoxes = [];
   }
+  if (app.presenter) app.presenter.drawOn(ctx, place, canvas.height / dpr);
   const draft = app.tools && app.tools.draft;
   if (draft) {
     if (draft.kind === "station") drawStations(ctx, place, [{ name: "new station", ...draft }]);
@@ -278,6 +282,7 @@ function onFrame(buffer) {
     console.warn(err.message);
     return;
   }
+  if (app.presenter && !app.presenter.takeFrame(f)) return;
   app.frame = f;
   const now = performance.now();
   app.frameTimes.push(now);
@@ -634,6 +639,7 @@ function takeScenario(scenario, revision, edited, origin) {
   fillInitial(app);
   showLists(app);
   fillSources();
+  if (app.waves) app.waves.fillChoices();
   const d0 = before && before.domain, d1 = scenario.domain;
   const reshaped = !before || before.mode !== scenario.mode ||
     ["x_min_m", "x_max_m", "y_min_m", "y_max_m"].some((k) => d0[k] !== d1[k]);
@@ -704,6 +710,15 @@ function onMessage(msg) {
       app.profile = msg;
       drawStrip();
       break;
+    case "frame_ring":
+      app.presenter.takeRing(msg);
+      break;
+    case "wave_line":
+      app.waves.takeLine(msg);
+      break;
+    case "wave_history":
+      app.waves.takeHistory(msg);
+      break;
     case "error":
       showServerError(msg);
       break;
@@ -750,6 +765,23 @@ function setupExpert() {
   });
 }
 
+/** Presenter tools (presenter.js) and the wave diagram (xt_diagram.js), with the few hooks they use. */
+function setupPresenting() {
+  app.layoutCanvas = layoutCanvas;
+  app.scheduleDraw = scheduleDraw;
+  app.viewInfo = viewInfo;
+  app.showFrame = (f) => {
+    app.frame = f;
+    paintFrame();
+    updateColourBar();
+    scheduleDraw();
+  };
+  app.presenter = new Presenter(app);
+  app.presenter.setup();
+  app.waves = new WaveDiagram(app);
+  app.waves.setup();
+}
+
 function start() {
   setupExpert();
   setupInitial(app);
@@ -760,12 +792,13 @@ function start() {
   setupPanels(app);
   setupFiles(app);
   setupStrip();
+  setupPresenting();
   app.conn = new Connection({ onMessage, onFrame, onState: onLinkState });
   app.conn.open();
   let resizeTimer = null;
   window.addEventListener("resize", () => {
     clearTimeout(resizeTimer);
-    resizeTimer = setTimeout(() => { layoutCanvas(); updateColourBar(); drawStrip(); }, 150);
+    resizeTimer = setTimeout(() => { layoutCanvas(); updateColourBar(); drawStrip(); if (app.waves) app.waves.draw(); }, 150);
   });
   setInterval(() => { if (app.status) $("#fig-frames").textContent = `${U.num(tabFps(), 3)} (server ${U.num(app.status.frames_per_s || 0, 3)})`; }, 1000);
   // A handle for tests and the console; `receive` takes a server message as if it had arrived.
