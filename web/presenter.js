@@ -4,6 +4,7 @@
 //
 // The labels are drawn onto the picture itself, so a recorded clip and a screenshot carry them too.
 
+import { cssAt } from "./colourmaps.js";
 import { download, safeName } from "./files.js";
 import * as U from "./units.js";
 
@@ -172,6 +173,15 @@ export class Presenter {
       ctx.textAlign = "right";
       ctx.fillText(legend, w - pad, base + px * 0.45);
       this.labels.push(legend);
+      // the colour ramp of the legend, low to high, left of its text
+      const rampW = Math.round(px * 7), rampH = Math.round(px * 0.7);
+      const rampX = w - pad - ctx.measureText(legend).width - pad - rampW;
+      if (rampX > used + ctx.measureText(t).width + pad) {
+        const grad = ctx.createLinearGradient(rampX, 0, rampX + rampW, 0);
+        for (let k = 0; k <= 10; k++) grad.addColorStop(k / 10, cssAt(this.app.mapName, k / 10));
+        ctx.fillStyle = grad;
+        ctx.fillRect(rampX, base + px * 0.45 - rampH, rampW, rampH);
+      }
     }
     ctx.restore();
   }

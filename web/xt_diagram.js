@@ -148,7 +148,7 @@ export class WaveDiagram {
     const horizontal = Math.abs(line.end_m[1] - line.start_m[1]) < 1e-12;
     const xLabel = horizontal ? "x, mm" : "distance along the line, mm";
     const yLabel = "flow time, ms";
-    ctx.font = "12px system-ui, sans-serif";
+    ctx.font = `${document.body.classList.contains("presenting") ? 16 : 12}px system-ui, sans-serif`;
     ctx.fillStyle = "#9aa6b2";
     if (this.rows.length < 2 || plot.w < 20 || plot.h < 20) {
       ctx.fillText("waiting for rows: run or step the flow", plot.x, plot.y + 20);
