@@ -23,6 +23,7 @@ from .persistence import ScenarioStore
 from .runner import Runner
 from .security import Access
 from .session import SessionState, request_error_from_scenario
+from .comparison import Comparison, off_message as comparison_off_message
 from .wave_history import WaveLine
 
 
@@ -92,6 +93,7 @@ class Dispatcher:
             "recall_frame": self._recall_frame,
             "set_wave_line": self._set_wave_line,
             "wave_history": self._wave_history,
+            "set_comparison": self._set_comparison,
         }
         missing = set(p.MESSAGE_TYPES) - set(self._handlers)
         assert not missing, f"message types without a handler: {missing}"
@@ -257,6 +259,23 @@ class Dispatcher:
 
     async def _wave_history(self, client: Client, message: p.WaveHistoryRequest) -> None:
         self._reply(client, message, self.runner.waves.message(message.after_steps))
+
+
+    async def _set_comparison(self, client: Client, message: p.SetComparison) -> None:
+        runner, s = self.runner, self.session
+        if message.off:
+            await runner.read(lambda: setattr(runner, "comparison", None))
+            self.hub.broadcast(comparison_off_message(), reply_to=client, request_id=message.id)
+            return
+
+        def start() -> dict:
+            c = Comparison.build(s.scenario, message.setting, message.value, s.revision)
+            c.start_from(s.sim)
+            runner.comparison = c
+            return c.message(s.scenario)
+
+        reply = await runner.call(start)
+        self.hub.broadcast(reply, reply_to=client, request_id=message.id)
 
 
 def _fields(message: Any) -> dict:

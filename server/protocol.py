@@ -27,6 +27,7 @@ from shockslate.solver.shapes import MIRRORS
 from shockslate.solver.validation import numeric_limits, problem_from_record
 
 from .errors import RequestError
+from .comparison import COMPARE_SETTINGS
 from .wave_history import EVERY_STEPS, WAVE_FIELDS
 
 PROTOCOL_VERSION = 1
@@ -379,6 +380,28 @@ class SetWaveLine(_Message):
         return self
 
 
+class SetComparison(_Message):
+    """Run the main scenario a second time beside it with one setting changed (`value` in its SI unit), starting
+    from the main run's flow as it is now; `off: true` ends the comparison."""
+
+    type: Literal["set_comparison"]
+    setting: Optional[Literal[tuple(COMPARE_SETTINGS)]] = None  # type: ignore[valid-type]
+    value: Optional[Finite] = None
+    off: Optional[bool] = None
+
+    @model_validator(mode="after")
+    def _one_way(self) -> "SetComparison":
+        if bool(self.off) == (self.setting is not None or self.value is not None):
+            raise RequestError("setting", self.setting, "a setting with its value, or off: true, not both",
+                               "Give the setting to change and its value, or switch the comparison off.", "one_way")
+        if not self.off and (self.setting is None or self.value is None):
+            missing = "value" if self.value is None else "setting"
+            raise RequestError(missing, None, "a setting of vocabulary.choices.compare_setting with its value (SI)",
+                               f"A comparison needs both the setting and its value; the {missing} is missing.",
+                               "required")
+        return self
+
+
 class WaveHistoryRequest(_Message):
     """The wave diagram's rows after a step (all of them with -1); answered with `wave_history`."""
 
@@ -391,7 +414,7 @@ ClientMessage = Annotated[
           SetResolution, SetDomain, SetEdges, SetMode, SetInitial, Run, Pause, ResetFlow, Step, AddStation,
           RemoveStation, AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios,
           DeleteScenario, Export, ListExports, DeleteExport, ListFrames, RecallFrame, SetWaveLine,
-          WaveHistoryRequest],
+          WaveHistoryRequest, SetComparison],
     Field(discriminator="type"),
 ]
 _ADAPTER: TypeAdapter = TypeAdapter(ClientMessage)
@@ -482,6 +505,8 @@ def vocabulary() -> dict:
     out["limits"] = {**out["limits"], **numeric_limits(Step, "step."), **numeric_limits(SetView, "view.")}
     out["choices"]["view"] = [{"name": n, "label": label} for n, (label, _unit) in VIEWS.items()]
     out["choices"]["overlay"] = [{"name": n, "label": n.replace("_", " ")} for n in OVERLAYS]
+    out["choices"]["compare_setting"] = [{"name": n, "label": label, "unit": unit}
+                                         for n, (label, unit) in COMPARE_SETTINGS.items()]
     out["choices"]["wave_field"] = [{"name": n, "label": label, "unit": unit} for n, (label, unit) in WAVE_FIELDS.items()]
     return out
 

@@ -101,3 +101,37 @@ def test_bad_wave_lines_are_refused_by_name(ws, message, field, rule):
     assert err["field"] == field
     if rule:
         assert err["rule"] == rule
+
+
+def _channel_frame(sock, channel: int) -> bytes:
+    for _ in range(MAX_READS):
+        data = receive(sock, "frame")
+        if data[14] == channel:
+            return data
+    raise AssertionError(f"no frame of channel {channel}")
+
+
+def test_a_comparison_run_sends_its_frames_beside_the_main_ones(ws):
+    ws.send_json({"type": "set_view", "view": "pressure", "width": 128, "height": 32})
+    on = ask(ws, {"type": "set_comparison", "setting": "conditions.ambient.p_pa", "value": 5.0e4}, "comparison")
+    assert on["active"] and on["label"] == "ambient pressure" and on["unit"] == "Pa"
+    assert on["value"] == 5.0e4 and on["main_value"] == 1.0e5 and on["time_s"] == 0.0
+    ws.send_json({"type": "step", "count": 4})
+    head, _ = decode_frame(_channel_frame(ws, 2))  # it comes with the main frame, before the step's status
+    assert head.step >= 1 and head.view_index == list(VIEWS).index("pressure")
+    status = receive(ws, "status")
+    assert status["comparison"]["steps"] >= 1 and status["comparison"]["diverged"] is None
+    off = ask(ws, {"type": "set_comparison", "off": True}, "comparison")
+    assert off["active"] is False
+    assert "comparison" not in ask(ws, {"type": "step", "count": 1}, "status")
+
+
+@pytest.mark.parametrize("message, field", [
+    ({"setting": "conditions.ambient.p_pa", "value": -1.0}, "value"),
+    ({"setting": "domain.nx", "value": 10.0}, "setting"),
+    ({"setting": "conditions.ambient.p_pa"}, "value"),
+    ({"off": True, "value": 1.0}, "setting"),
+])
+def test_bad_comparisons_are_refused_by_name(ws, message, field):
+    err = refused(ws, {"type": "set_comparison", **message})
+    assert err["field"] == field
