@@ -142,3 +142,32 @@ def test_wave_diagram_of_the_shock_tube_draws_position_against_time(page):
     assert colours > 20
     page.select_option("#wave-line", "")
     page.wait_for_selector("#xt-block", state="hidden", timeout=WAIT_MS)
+
+
+def test_a_comparison_run_is_drawn_beside_the_main_picture_and_ends_on_request(page):
+    load_builtin(page, "shock_tube_reflection")
+    page.wait_for_function("document.querySelector('#compare-setting').options.length > 3", timeout=WAIT_MS)
+    page.select_option("#compare-setting", "conditions.reservoir.p0_pa")
+    assert page.input_value("#compare-value") == "1000" and page.inner_text("#compare-unit") == "kPa"  # the main's
+    page.fill("#compare-value", "500")
+    page.click("#compare-start")
+    page.wait_for_selector("#compare-wrap", state="visible", timeout=WAIT_MS)
+    label = page.inner_text("#compare-label")
+    assert label.startswith("comparison — reservoir pressure p0 500.0 kPa (main run: 1000 kPa)"), label
+    page.click("#reset-flow")  # both runs start again from their own starting gas
+    run(page)
+    page.wait_for_function("window.shockslate.compare.frame && window.shockslate.compare.frame.step > 100",
+                           timeout=WAIT_MS)
+    drawn = page.evaluate("""() => {
+        const a = window.shockslate, c = document.querySelector('#compare-view'), dpr = window.devicePixelRatio || 1;
+        const d = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;
+        const seen = new Set();
+        for (let k = 0; k < d.length; k += 4) seen.add((d[k] << 16) | (d[k + 1] << 8) | d[k + 2]);
+        return {colours: seen.size, w: c.width / dpr, mainW: a.place.widthPx, channel: a.compare.frame.channel,
+                mainChannel: a.frame.channel};
+    }""")
+    assert drawn["channel"] == 2 and drawn["mainChannel"] == 0  # tagged frames, each drawn in its own place
+    assert drawn["w"] == pytest.approx(drawn["mainW"]) and drawn["colours"] > 10
+    assert " ms" in page.inner_text("#compare-label")
+    page.click("#compare-stop")
+    page.wait_for_selector("#compare-wrap", state="hidden", timeout=WAIT_MS)

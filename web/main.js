@@ -16,6 +16,7 @@ import { drawPlot } from "./plotstrip.js";
 import { SketchTools } from "./sketch.js";
 import { Presenter } from "./presenter.js";
 import { WaveDiagram } from "./xt_diagram.js";
+import { Comparison } from "./compare.js";
 import * as U from "./units.js";
 
 const $ = (sel) => document.querySelector(sel);
@@ -640,6 +641,7 @@ function takeScenario(scenario, revision, edited, origin) {
   showLists(app);
   fillSources();
   if (app.waves) app.waves.fillChoices();
+  if (app.compare) app.compare.fillChoices();
   const d0 = before && before.domain, d1 = scenario.domain;
   const reshaped = !before || before.mode !== scenario.mode ||
     ["x_min_m", "x_max_m", "y_min_m", "y_max_m"].some((k) => d0[k] !== d1[k]);
@@ -695,6 +697,7 @@ function onMessage(msg) {
       showStations(msg, app.scenario && app.scenario.mode);
       showProbes(msg);
       app.histories.add(msg);
+      if (app.compare) app.compare.takeStatus(msg);
       if (/^(probe|stationt):/.test($("#plot-source").value || "")) drawStrip();
       if (app.hover && app.state === "running") requestInspect();
       break;
@@ -718,6 +721,9 @@ function onMessage(msg) {
       break;
     case "wave_history":
       app.waves.takeHistory(msg);
+      break;
+    case "comparison":
+      app.compare.takeMessage(msg);
       break;
     case "error":
       showServerError(msg);
@@ -780,6 +786,8 @@ function setupPresenting() {
   app.presenter.setup();
   app.waves = new WaveDiagram(app);
   app.waves.setup();
+  app.compare = new Comparison(app);
+  app.compare.setup();
 }
 
 function start() {

@@ -14,9 +14,10 @@ const $ = (sel) => document.querySelector(sel);
 export const CLIP_MAX_S = 60;
 /** Frames per second the clip samples the picture at. */
 export const CLIP_FPS = 30;
-/** Frame channels (PROTOCOL.md "Binary frames"): 0 live, 1 recalled from the server's ring. */
+/** Frame channels (PROTOCOL.md "Binary frames"): 0 live, 1 recalled from the server's ring, 2 the comparison run. */
 export const LIVE = 0;
 export const RECALLED = 1;
+export const COMPARISON = 2;
 
 /**
  * A round length for a scale bar, in mm: the largest 1, 2 or 5 times a power of ten that is at most
@@ -258,6 +259,10 @@ export class Presenter {
   // ---------------------------------------------------------------- looking back
   /** Decide what to do with a frame (main.js onFrame): true to show it. */
   takeFrame(f) {
+    if (f.channel === COMPARISON) { // the comparison run's picture, drawn under the main one (compare.js)
+      if (this.app.compare) this.app.compare.takeFrame(f);
+      return false;
+    }
     if (f.channel === RECALLED) {
       if (!this.scrubbing) return false; // a late answer after going back to live
       this.recalled = f;
