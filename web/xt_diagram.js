@@ -10,7 +10,7 @@ const $ = (sel) => document.querySelector(sel);
 
 /** How often the page asks for new rows while a line is set, ms. */
 export const POLL_MS = 300;
-const MARGIN = { left: 64, right: 14, top: 26, bottom: 40 };
+const MARGIN = { left: 64, right: 26, top: 26, bottom: 40 };
 
 /** The rows as float32 arrays from the base64 of a `wave_history` message. */
 export function decodeRows(msg) {
