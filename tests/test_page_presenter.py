@@ -55,6 +55,8 @@ def test_full_screen_shows_a_round_millimetre_scale_and_large_labels(page):
     assert any(t.startswith("t = ") and t.endswith(" ms") for t in shown["labels"])  # time in ms
     assert any(t.startswith("pressure, kPa: ") for t in shown["labels"])  # legend with its unit
     assert shown["px"] >= 18  # large labels (the page's own text is 13 px)
+    assert any("not for sizing pressure hardware" in t for t in shown["labels"])  # the caution stays on the picture
+    assert page.locator(".stage-caution").is_visible()  # and under it in full screen
     assert shown["w"] >= width_before  # the picture grew (or stayed) in full screen
     assert shown["rgba"][:3] == [255, 255, 255], shown["rgba"]  # the bar is painted, white, on the picture
     page.click("#present-full")
@@ -166,8 +168,9 @@ def test_a_comparison_run_is_drawn_beside_the_main_picture_and_ends_on_request(p
         return {colours: seen.size, w: c.width / dpr, mainW: a.place.widthPx, channel: a.compare.frame.channel,
                 mainChannel: a.frame.channel};
     }""")
-    assert drawn["channel"] == 2 and drawn["mainChannel"] == 0  # tagged frames, each drawn in its own place
-    assert drawn["w"] == pytest.approx(drawn["mainW"]) and drawn["colours"] > 10
+    assert drawn["channel"] == 2 and drawn["mainChannel"] == 0, drawn  # tagged frames, each in its own place
+    # as wide as the main picture, and a flow drawn in it (two gas states and the waves between), not a blank
+    assert drawn["w"] == pytest.approx(drawn["mainW"]) and drawn["colours"] > 3, drawn
     assert " ms" in page.inner_text("#compare-label")
     page.click("#compare-stop")
     page.wait_for_selector("#compare-wrap", state="hidden", timeout=WAIT_MS)

@@ -12,6 +12,10 @@ const $ = (sel) => document.querySelector(sel);
 
 /** Longest clip, seconds: recording stops by itself there (a minute of WebM is a few MB). */
 export const CLIP_MAX_S = 60;
+/** The caution drawn under the labels, so that clips and screens carry it (README "Caution"). */
+export const CAUTION = "shockslate: inviscid, calorically perfect gas model; not for sizing pressure hardware " +
+  "or clearing a test; defer to local codes and licensed engineering review.";
+const CAUTION_PX = 12;
 /** Frames per second the clip samples the picture at. */
 export const CLIP_FPS = 30;
 /** Frame channels (PROTOCOL.md "Binary frames"): 0 live, 1 recalled from the server's ring, 2 the comparison run. */
@@ -117,7 +121,7 @@ export class Presenter {
 
   /** Height of the band under the flow that holds the labels (0 when they are off), CSS px. */
   bandPx(widthPx) {
-    return this.labelsShown() ? Math.round(2.4 * Presenter.labelSize(widthPx)) : 0;
+    return this.labelsShown() ? Math.round(2.4 * Presenter.labelSize(widthPx)) + CAUTION_PX + 6 : 0;
   }
 
   /** Labels switched on or off: the canvas gains or loses its band. */
@@ -137,7 +141,7 @@ export class Presenter {
     const band = canvasHeightPx - place.heightPx;
     if (!this.labelsShown() || band < 20) return;
     const w = place.widthPx, top = place.heightPx;
-    const px = Math.min(Presenter.labelSize(w), Math.floor(band / 2.4));
+    const px = Math.min(Presenter.labelSize(w), Math.floor((band - CAUTION_PX - 6) / 2.4));
     this.labelPx = px;
     ctx.save();
     ctx.font = `600 ${px}px system-ui, sans-serif`;
@@ -184,6 +188,12 @@ export class Presenter {
         ctx.fillRect(rampX, base + px * 0.45 - rampH, rampW, rampH);
       }
     }
+    // the caution goes wherever the picture goes (a clip, a screen in a meeting room)
+    ctx.font = `${CAUTION_PX}px system-ui, sans-serif`;
+    ctx.textAlign = "left";
+    ctx.fillStyle = "#9aa6b2";
+    ctx.fillText(CAUTION, pad, top + band - 5);
+    this.labels.push(CAUTION);
     ctx.restore();
   }
 
