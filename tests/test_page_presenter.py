@@ -88,6 +88,22 @@ def test_a_recorded_clip_is_a_non_empty_webm_file(page):
     assert head == [0x1A, 0x45, 0xDF, 0xA3]  # the EBML magic number that opens every WebM (Matroska) file
 
 
+def test_a_clip_stops_by_itself_at_its_length_cap(page):
+    run(page)
+    assert page.evaluate("window.shockslate.presenter.clipMaxS") == 60  # the page's cap: one minute
+    page.evaluate("window.shockslate.presenter.clipMaxS = 1")  # a short cap, so the test need not wait a minute
+    with page.expect_download(timeout=WAIT_MS):
+        page.click("#clip-toggle")
+        page.wait_for_selector("#clip-mark", state="visible", timeout=WAIT_MS)
+        assert page.inner_text("#clip-time").endswith("of 1 s")
+        page.wait_for_selector("#clip-mark", state="hidden", timeout=WAIT_MS)  # no click: the cap stopped it
+    page.wait_for_function("window.shockslate.presenter.lastClip && window.shockslate.presenter.lastClip.size > 0",
+                           timeout=WAIT_MS)
+    seconds = page.evaluate("window.shockslate.presenter.lastClip.seconds")
+    assert seconds >= 1.0  # not before the cap; that it stopped at all, with no click, is the cap at work
+    assert page.inner_text("#clip-toggle") == "record clip"
+
+
 def test_looking_back_shows_an_earlier_frame_while_the_run_goes_on_then_live(page):
     load_builtin(page, "shock_tube_reflection")
     run(page)

@@ -58,6 +58,7 @@ export class Presenter {
     this.labelPx = 0; // their font size, CSS px
     this.recorder = null;
     this.recording = false; // from start until the recorder has stopped (the labels stay that long)
+    this.clipMaxS = CLIP_MAX_S; // the cap on a clip's length, s
     this.clipStart = 0;
     this.clipTimer = null;
     this.lastClip = null; // {size, type, seconds, name} of the last recorded clip
@@ -250,8 +251,8 @@ export class Presenter {
 
   tickClip() {
     const s = (performance.now() - this.clipStart) / 1000;
-    $("#clip-time").textContent = `${Math.floor(s)} s of ${CLIP_MAX_S} s`;
-    if (s >= CLIP_MAX_S) this.stopClip();
+    $("#clip-time").textContent = `${Math.floor(s)} s of ${this.clipMaxS} s`;
+    if (s >= this.clipMaxS) this.stopClip();
     else this.app.scheduleDraw(); // a fresh picture for the stream even while the flow stands still
   }
 
