@@ -73,7 +73,8 @@ class FrameRing:
             return  # one frame larger than the whole ring: nothing sensible to keep
         with self._lock:
             last = self._instants[-1] if self._instants else None
-            if last is not None and steps < last.steps:  # the flow started again
+            if last is not None and (steps < last.steps or (steps == last.steps and time_s != last.time_s)):
+                # the flow started again (a reset or a load; at the same step count only the time tells)
                 self._instants.clear()
                 self._bytes = 0
                 last = None

@@ -54,6 +54,8 @@ def test_earlier_step_starts_the_ring_again_and_recall_marks_the_channel():
     assert frames.decode_frame(ring.recall(30, "mach 10x10"))[0].step == 30  # another view: what was kept
     ring.add(2, 2e-6, "pressure 64x32", _frame(2))  # the flow was reset
     assert ring.listing()["steps"] == [2]
+    ring.add(2, 5e-6, "mach 64x32", _frame(2))  # another flow at the same step count: its time tells
+    assert ring.listing()["time_s"] == [5e-6] and ring.nbytes == len(_frame(2))
 
 
 def test_frames_of_a_real_session_fit_the_documented_bound():
