@@ -15,6 +15,7 @@ export const CLIP_MAX_S = 60;
 /** The caution drawn under the labels, so that clips and screens carry it (README "Caution"). */
 export const CAUTION = "shockslate: inviscid, calorically perfect gas model; not for sizing pressure hardware " +
   "or clearing a test; defer to local codes and licensed engineering review.";
+const CAUTION_SHORT = "shockslate: inviscid, perfect-gas model; not for sizing pressure hardware or clearing a test.";
 const CAUTION_PX = 12;
 /** Frames per second the clip samples the picture at. */
 export const CLIP_FPS = 30;
@@ -190,11 +191,16 @@ export class Presenter {
       }
     }
     // the caution goes wherever the picture goes (a clip, a screen in a meeting room)
-    ctx.font = `${CAUTION_PX}px system-ui, sans-serif`;
     ctx.textAlign = "left";
     ctx.fillStyle = "#9aa6b2";
-    ctx.fillText(CAUTION, pad, top + band - 5);
-    this.labels.push(CAUTION);
+    const room = w - 2 * pad;
+    let caution = CAUTION;
+    ctx.font = `${CAUTION_PX}px system-ui, sans-serif`;
+    if (ctx.measureText(caution).width > room) caution = CAUTION_SHORT; // a narrow picture: the short form
+    const size = Math.max(8, Math.min(CAUTION_PX, Math.floor(CAUTION_PX * room / ctx.measureText(caution).width)));
+    ctx.font = `${size}px system-ui, sans-serif`;
+    ctx.fillText(caution, pad, top + band - 5);
+    this.labels.push(caution);
     ctx.restore();
   }
 
