@@ -109,6 +109,11 @@ export class Presenter {
     $("#present-full").textContent = on ? "leave full screen" : "full screen";
     $("#present-full").setAttribute("aria-pressed", String(on));
     this.relayout();
+    // the wave diagram and the comparison take their full-screen sizes at once, not at their next data
+    requestAnimationFrame(() => {
+      if (this.app.waves) this.app.waves.draw();
+      if (this.app.compare) this.app.compare.draw();
+    });
   }
 
   /** Whether the picture carries the scale bar and the large labels now. */
