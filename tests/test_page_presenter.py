@@ -158,6 +158,13 @@ def test_wave_diagram_of_the_shock_tube_draws_position_against_time(page):
         return seen.size;
     }""")
     assert colours > 20
+    # a longer tube: the line along it follows the domain (and its history starts again)
+    generation = page.evaluate("window.shockslate.waves.generation")
+    page.evaluate("window.shockslate.send('set_domain', {x_min_m: 0.0, x_max_m: 1.2, y_min_m: 0.0, y_max_m: 0.02})")
+    page.wait_for_function("g => window.shockslate.waves.line.end_m[0] === 1.2 && window.shockslate.waves.generation > g",
+                           arg=generation, timeout=WAIT_MS)
+    page.evaluate("window.shockslate.send('set_domain', {x_min_m: 0.0, x_max_m: 1.0, y_min_m: 0.0, y_max_m: 0.02})")
+    page.wait_for_function("window.shockslate.waves.line.end_m[0] === 1.0", timeout=WAIT_MS)
     page.select_option("#wave-line", "")
     page.wait_for_selector("#xt-block", state="hidden", timeout=WAIT_MS)
 

@@ -54,6 +54,7 @@ export class WaveDiagram {
     sel.replaceChildren(...opts.map(([v, t]) => new Option(t, v)));
     const want = this.line ? (this.line.station ? `station:${this.line.station}` : "domain") : keep;
     if (opts.some(([v]) => v === want)) sel.value = want;
+    this.followScenario();
     const fields = (app.vocabulary && app.vocabulary.choices.wave_field) || [];
     const fsel = $("#wave-field");
     if (fsel.options.length !== fields.length) {
@@ -61,6 +62,31 @@ export class WaveDiagram {
       fsel.replaceChildren(...fields.map((c) => new Option(c.label, c.name)));
       if (fields.some((c) => c.name === fkeep)) fsel.value = fkeep;
     }
+  }
+
+  /** Where the line should be now: the domain's middle (or axis), or its station's; null when that is gone. */
+  expectedLine() {
+    const sc = this.app.scenario, line = this.line;
+    if (!sc || !line) return null;
+    if (line.station) {
+      const st = (sc.stations || []).find((x) => x.name === line.station);
+      return st ? [st.start_m, st.end_m] : null;
+    }
+    const d = sc.domain;
+    const y = sc.mode === "axisymmetric" ? d.y_min_m : 0.5 * (d.y_min_m + d.y_max_m);
+    return [[d.x_min_m, y], [d.x_max_m, y]];
+  }
+
+  /** A changed domain or a moved station moves the line with it; a removed station ends the diagram. */
+  followScenario() {
+    if (!this.line || this.asked === "moving") return;
+    const want = this.expectedLine();
+    const same = want && [0, 1].every((k) => want[0][k] === this.line.start_m[k] && want[1][k] === this.line.end_m[k]);
+    if (same) return;
+    this.asked = "moving"; // until the server's wave_line answers
+    if (!want) this.app.send("set_wave_line", { off: true });
+    else if (this.line.station) this.app.send("set_wave_line", { station: this.line.station, field: this.line.field });
+    else this.app.send("set_wave_line", { start_m: want[0], end_m: want[1], field: this.line.field });
   }
 
   sendLine() {
