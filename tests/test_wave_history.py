@@ -58,7 +58,7 @@ def test_shock_path_slope_matches_the_exact_shock_speed():
         fronts.append(x[k] + f * (x[k + 1] - x[k]))
     slope, _ = np.polyfit(t[use], np.array(fronts), 1)
     # Toro 2009, ch. 4 (exact Riemann solver, solver/riemann.py): shock speed of this problem, about 555 m/s.
-    print(f"shock path slope {slope:.1f} m/s, exact shock speed {exact.right_head:.1f} m/s")
+    print(f"shock path slope {slope:.2f} m/s, exact shock speed {exact.right_head:.2f} m/s, ratio {slope / exact.right_head:.5f}")
     assert slope == pytest.approx(exact.right_head, rel=0.02), (slope, exact.right_head)
 
 
