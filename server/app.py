@@ -267,6 +267,10 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
     hub.send(client, runner.history.message())  # what the probes and stations saw before this tab came
     if runner.session.divergence is not None:  # a tab opened after a divergence learns why the run stopped
         hub.send(client, runner.session.divergence.to_message())
+    if runner.waves.line is not None:  # the wave diagram's line, when one is set
+        hub.send(client, runner.waves.line_message())
+    if runner.comparison is not None:  # the comparison run, when there is one
+        hub.send(client, runner.comparison.message(runner.session.scenario))
     limiter = RateLimiter(access.max_messages_per_s)
     last_rate_error = 0.0
     try:

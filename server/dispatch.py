@@ -18,11 +18,13 @@ from . import protocol as p
 from .errors import RequestError
 from . import design, export_list
 from .exports import Exports
-from .hub import Client, Hub, ViewChoice
+from .hub import Client, Hub, ViewChoice, ring_key
 from .persistence import ScenarioStore
 from .runner import Runner
 from .security import Access
 from .session import SessionState, request_error_from_scenario
+from .comparison import Comparison, off_message as comparison_off_message
+from .wave_history import WaveLine
 
 
 def hello_message(client: Client, runner: Runner) -> dict:
@@ -109,6 +111,11 @@ class Dispatcher:
             "delete_export": self._delete_export,
             "build_nozzle": self._build_nozzle,
             "propellant_gas": self._propellant_gas,
+            "list_frames": self._list_frames,
+            "recall_frame": self._recall_frame,
+            "set_wave_line": self._set_wave_line,
+            "wave_history": self._wave_history,
+            "set_comparison": self._set_comparison,
         }
         missing = set(p.MESSAGE_TYPES) - set(self._handlers)
         assert not missing, f"message types without a handler: {missing}"
@@ -262,6 +269,59 @@ class Dispatcher:
         query = f"?token={self.access.token}" if self.access.token else ""
         self._reply(client, message, {"type": "export_ready", "what": message.what,
                                       "url": f"/exports/{path.name}{query}", "filename": path.name})
+
+
+    # ------------------------------------------------------------ presenting: frame ring, wave diagram
+    async def _list_frames(self, client: Client, message: p.ListFrames) -> None:
+        self._reply(client, message, self.hub.ring.listing())
+
+    async def _recall_frame(self, client: Client, message: p.RecallFrame) -> None:
+        frame = self.hub.ring.recall(message.steps, ring_key(client.view))
+        if frame is None:
+            span = self.hub.ring.span()
+            allowed = (f"a step from {span[0]} (the oldest kept) upwards" if span is not None
+                       else "a step of a kept frame (none is kept yet: the ring fills while tabs watch the flow)")
+            raise RequestError("steps", message.steps, allowed,
+                               f"No frame at or before step {message.steps} is kept any more.", "kept")
+        self.hub.send_frame(client, frame)
+
+    async def _set_wave_line(self, client: Client, message: p.SetWaveLine) -> None:
+        line = None
+        if message.station is not None:
+            found = [st for st in self.session.scenario.stations if st.name == message.station]
+            if not found:
+                names = [st.name for st in self.session.scenario.stations]
+                raise RequestError("station", message.station,
+                                   "one of the stations: " + (", ".join(names) or "(there are none)"),
+                                   f"There is no station called {message.station}.", "one_of")
+            st = found[0]
+            line = WaveLine(tuple(st.start_m), tuple(st.end_m), message.field, st.name)
+        elif not message.off:
+            line = WaveLine(tuple(message.start_m), tuple(message.end_m), message.field)
+        waves = self.runner.waves
+        await self.runner.read(lambda: (setattr(waves, "every_steps", message.every_steps), waves.set_line(line),
+                                        waves.record(self.session.sim)))
+        self.hub.broadcast(waves.line_message(), reply_to=client, request_id=message.id)
+
+    async def _wave_history(self, client: Client, message: p.WaveHistoryRequest) -> None:
+        self._reply(client, message, self.runner.waves.message(message.after_steps))
+
+
+    async def _set_comparison(self, client: Client, message: p.SetComparison) -> None:
+        runner, s = self.runner, self.session
+        if message.off:
+            await runner.read(lambda: setattr(runner, "comparison", None))
+            self.hub.broadcast(comparison_off_message(), reply_to=client, request_id=message.id)
+            return
+
+        def start() -> dict:
+            c = Comparison.build(s.scenario, message.setting, message.value, s.revision)
+            c.start_from(s.sim)
+            runner.comparison = c
+            return c.message(s.scenario)
+
+        reply = await runner.call(start)
+        self.hub.broadcast(reply, reply_to=client, request_id=message.id)
 
 
 def _fields(message: Any) -> dict:

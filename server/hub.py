@@ -21,6 +21,8 @@ from starlette.websockets import WebSocket
 from shockslate.solver.kinds import CellKind
 
 from . import frames
+from .comparison import COMPARISON_CHANNEL
+from .frame_ring import FrameRing, with_channel
 from .protocol import OVERLAYS, dumps
 from .session import FlowSnapshot
 
@@ -64,6 +66,7 @@ class Client:
     last_overlay_t: float = 0.0
     frame_times: collections.deque = field(default_factory=lambda: collections.deque(maxlen=64))
     frames_sent: int = 0
+    comparison_key: tuple | None = None
     queued_bytes: int = 0
     closed: bool = False
 
@@ -73,7 +76,8 @@ class Client:
             return 0.0
         return (len(recent) - 1) / max(recent[-1] - recent[0], 1e-6)
 
-    def queue(self, text: str) -> None:
+    def queue(self, text: str | bytes) -> None:
+        """A reply to send: text, or bytes sent as a binary frame (a recalled frame)."""
         size = len(text)
         if len(self.outbox) >= MAX_QUEUED_MESSAGES or self.queued_bytes + size > MAX_QUEUED_BYTES:
             self.closed = True
@@ -82,7 +86,7 @@ class Client:
             self.queued_bytes += size
         self.wake.set()
 
-    def next_queued(self) -> str:
+    def next_queued(self) -> str | bytes:
         text = self.outbox.popleft()
         self.queued_bytes -= len(text)
         return text
@@ -103,6 +107,11 @@ class Hub:
         #: Whether the newest snapshot came from a running flow (more will follow soon).
         self.snapshot_live = False
         self.frames_built = 0
+        #: The last few seconds of prepared frames, for scrubbing back (frame_ring.py).
+        self.ring = FrameRing()
+        #: Frames of the comparison run (channel 2) by view key, made with the main frames, and their version.
+        self.comparison_frames: dict[str, bytes] = {}
+        self.comparison_version = -1
 
     # ------------------------------------------------------------ membership
     def new_client(self, websocket: WebSocket) -> Client:
@@ -123,6 +132,10 @@ class Hub:
     def send(self, client: Client, message: dict) -> None:
         client.queue(dumps(message))
 
+    def send_frame(self, client: Client, frame: bytes) -> None:
+        """A binary frame for this client only, in turn with its replies (a recalled frame)."""
+        client.queue(frame)
+
     def broadcast(self, message: dict, reply_to: Client | None = None, request_id: Any = None) -> None:
         """The same message to every client; the one that asked gets its id echoed."""
         text = dumps(message)
@@ -142,10 +155,16 @@ class Hub:
         self.snapshot = snap
         self.snapshot_live = live
         for client in self.clients.values():
+            frame = self.comparison_frames.get(ring_key(client.view))
+            key = (self.comparison_version, ring_key(client.view))
+            # a comparison frame goes with the main one, unless this tab is still behind with its replies
+            if frame is not None and key != client.comparison_key and len(client.outbox) < 4:
+                client.queue(frame)
+                client.comparison_key = key
             client.wake.set()
 
     # ------------------------------------------------------------ frames
-    def prepare(self, snap: FlowSnapshot, with_overlays: bool = False) -> None:
+    def prepare(self, snap: FlowSnapshot, with_overlays: bool = False, comparison: FlowSnapshot | None = None) -> None:
         """Build, in the solver's own thread right after a snapshot, every frame the tabs will ask for.
 
         Doing it there, between bursts, keeps a third busy thread away from the solver's two OpenMP
@@ -155,15 +174,24 @@ class Hub:
         clients = list(self.clients.values())
         ready: dict[tuple, Any] = {}
         fields = _ViewFields(snap)  # each view computed once, shared by frames and the sonic line
+        compared: dict[str, bytes] = {}
         for view in {c.view for c in clients}:
             ready[_frame_key(snap, view)] = build_frame(snap, view, fields)
             self.frames_built += 1
+            self.ring.add(snap.steps, snap.time_s, ring_key(view), ready[_frame_key(snap, view)])
+            if comparison is not None:
+                compared[ring_key(view)] = build_comparison_frame(comparison, view, fields)
         now = time.monotonic()
         if with_overlays or now - self._overlays_prepared_t >= 1.0 / OVERLAYS_PER_S:
             for overlays in {c.view.overlays for c in clients if c.view.overlays}:
                 ready[_overlay_key(snap, overlays)] = build_overlay_text(snap, overlays, fields)
             self._overlays_prepared_t = now
         self._ready = ready
+        if comparison is not None and compared:
+            self.comparison_frames = compared
+            self.comparison_version = comparison.version
+        elif comparison is None:
+            self.comparison_frames = {}
 
     async def _get(self, key: tuple, build, live: bool) -> Any:
         """A prepared frame or overlay; while the flow runs, None when it was not prepared (the next
@@ -203,7 +231,11 @@ class Hub:
             if client.closed:
                 break
             while client.outbox:
-                await ws.send_text(client.next_queued())
+                item = client.next_queued()
+                if isinstance(item, bytes):
+                    await ws.send_bytes(item)
+                else:
+                    await ws.send_text(item)
             now = time.monotonic()
             if client.status is not None:
                 status, client.status = client.status, None
@@ -248,6 +280,11 @@ class Hub:
         return wait_s
 
 
+def ring_key(view: ViewChoice) -> str:
+    """The key a view's frames have in the frame ring: its name and canvas size ("mach 800x400")."""
+    return f"{view.view} {view.width}x{view.height}"
+
+
 def _frame_key(snap: FlowSnapshot, view: ViewChoice) -> tuple:
     return (snap.version, "frame", view.view, view.width, view.height, view.fixed_range)
 
@@ -273,6 +310,13 @@ class _ViewFields:
 def build_frame(snap: FlowSnapshot, view: ViewChoice, fields: _ViewFields | None = None) -> bytes:
     fld = (fields or _ViewFields(snap))[view.view]
     return frames.encode_frame(fld, view.view, view.width, view.height, view.fixed_range, snap.time_s, snap.steps)
+
+
+def build_comparison_frame(comparison: FlowSnapshot, view: ViewChoice, main: _ViewFields) -> bytes:
+    """A frame of the comparison run in the main picture's colour range (equal colours, equal values), channel 2."""
+    rng = view.fixed_range or frames.colour_range(main[view.view], None)
+    frame = build_frame(comparison, ViewChoice(view.view, view.width, view.height, rng, ()))
+    return with_channel(frame, COMPARISON_CHANNEL)
 
 
 def build_overlay_text(snap: FlowSnapshot, overlays: tuple[str, ...], fields: _ViewFields | None = None) -> str:

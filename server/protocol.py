@@ -30,6 +30,8 @@ from shockslate.solver.validation import numeric_limits, problem_from_record
 
 from . import design
 from .errors import RequestError
+from .comparison import COMPARE_SETTINGS
+from .wave_history import EVERY_STEPS, WAVE_FIELDS
 
 PROTOCOL_VERSION = 1
 #: Largest accepted text message, bytes.
@@ -375,13 +377,82 @@ class PropellantGas(_Message):
     mixture_ratio: Finite = Field(description="oxidiser-to-fuel mass ratio")
     p0_pa: Finite = Field(description="chamber pressure, Pa")
     reactant_state: literal(STATES) = "gas"  # type: ignore[valid-type]
+# ----------------------------------------------------------------------------- presenting (scrub, wave diagram)
+
+class ListFrames(_Message):
+    """Which instants the server's frame ring holds (server/frame_ring.py); answered with `frame_ring`."""
+
+    type: Literal["list_frames"]
+
+
+class RecallFrame(_Message):
+    """Send the kept frame of the newest instant at or before this step, as a binary frame of channel 1."""
+
+    type: Literal["recall_frame"]
+    steps: int = Field(ge=0, description="a step number (an integer from 0) of a kept instant, from `frame_ring`")
+
+
+class SetWaveLine(_Message):
+    """Sample a field along a station's line, or along a line from start_m to end_m, for the x-t diagram;
+    `off: true` stops sampling."""
+
+    type: Literal["set_wave_line"]
+    station: Optional[Label] = None
+    start_m: Optional[PointM] = None
+    end_m: Optional[PointM] = None
+    field: Literal[tuple(WAVE_FIELDS)] = "pressure"  # type: ignore[valid-type]
+    every_steps: int = Field(EVERY_STEPS, ge=1, le=50, description="an integer from 1 to 50 (a row every so many steps)")
+    off: Optional[bool] = None
+
+    @model_validator(mode="after")
+    def _one_way(self) -> "SetWaveLine":
+        ways = [self.station is not None, self.start_m is not None or self.end_m is not None, bool(self.off)]
+        if sum(ways) != 1 or (ways[1] and (self.start_m is None or self.end_m is None)):
+            raise RequestError("station", self.station, "one of: a station name, start_m and end_m together, "
+                               "or off: true", "Choose the line of the wave diagram by a station's name, or give "
+                               "both of its end points, or switch it off.", "one_way")
+        if ways[1] and self.start_m == self.end_m:
+            raise RequestError("end_m", self.end_m, "a point other than start_m",
+                               "The line of the wave diagram needs two different end points.", "distinct")
+        return self
+
+
+class SetComparison(_Message):
+    """Run the main scenario a second time beside it with one setting changed (`value` in its SI unit), starting
+    from the main run's flow as it is now; `off: true` ends the comparison."""
+
+    type: Literal["set_comparison"]
+    setting: Optional[Literal[tuple(COMPARE_SETTINGS)]] = None  # type: ignore[valid-type]
+    value: Optional[Finite] = None
+    off: Optional[bool] = None
+
+    @model_validator(mode="after")
+    def _one_way(self) -> "SetComparison":
+        if bool(self.off) == (self.setting is not None or self.value is not None):
+            raise RequestError("setting", self.setting, "a setting with its value, or off: true, not both",
+                               "Give the setting to change and its value, or switch the comparison off.", "one_way")
+        if not self.off and (self.setting is None or self.value is None):
+            missing = "value" if self.value is None else "setting"
+            raise RequestError(missing, None, "a setting of vocabulary.choices.compare_setting with its value (SI)",
+                               f"A comparison needs both the setting and its value; the {missing} is missing.",
+                               "required")
+        return self
+
+
+class WaveHistoryRequest(_Message):
+    """The wave diagram's rows after a step (all of them with -1); answered with `wave_history`."""
+
+    type: Literal["wave_history"]
+    after_steps: int = Field(-1, ge=-1, description="an integer from -1 (every row) upwards")
 
 
 ClientMessage = Annotated[
     Union[AddShape, RemoveShape, Undo, Redo, ClearSketch, ClearAll, SetMirror, SetGas, SetConditions, SetNumerics,
           SetResolution, SetDomain, SetEdges, SetMode, SetInitial, Run, Pause, ResetFlow, Step, AddStation,
           RemoveStation, AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios,
-          DeleteScenario, Export, ListExports, DeleteExport, BuildNozzle, PropellantGas],
+          DeleteScenario, Export, ListExports, DeleteExport, BuildNozzle, PropellantGas,
+          ListFrames, RecallFrame, SetWaveLine,
+          WaveHistoryRequest, SetComparison],
     Field(discriminator="type"),
 ]
 _ADAPTER: TypeAdapter = TypeAdapter(ClientMessage)
@@ -473,6 +544,9 @@ def vocabulary() -> dict:
     out["choices"]["view"] = [{"name": n, "label": label} for n, (label, _unit) in VIEWS.items()]
     out["choices"]["overlay"] = [{"name": n, "label": n.replace("_", " ")} for n in OVERLAYS]
     out["choices"].update(design.choices())  # the design dialogs' contour shapes and propellant states
+    out["choices"]["compare_setting"] = [{"name": n, "label": label, "unit": unit}
+                                         for n, (label, unit) in COMPARE_SETTINGS.items()]
+    out["choices"]["wave_field"] = [{"name": n, "label": label, "unit": unit} for n, (label, unit) in WAVE_FIELDS.items()]
     return out
 
 

@@ -16,12 +16,16 @@ import functools
 from concurrent.futures import ThreadPoolExecutor
 import logging
 import time
+import weakref
 from typing import Any, Callable
 
 from . import engine, readings
 from .history import FlowHistory
 from .hub import Hub
 from .session import Advanced, Session
+from .comparison import Comparison, content_key
+from .errors import RequestError
+from .wave_history import WaveHistory
 
 log = logging.getLogger("shockslate.runner")
 
@@ -57,6 +61,11 @@ class Runner:
         self._status_failure: str | None = None
         #: Probe and station histories, sent to a tab when it joins.
         self.history = FlowHistory()
+        #: Rows of a field along the wave diagram's line, taken every few steps (wave_history.py).
+        self.waves = WaveHistory()
+        #: The comparison run beside the main one, or None (comparison.py); its news for the tabs.
+        self.comparison: Comparison | None = None
+        self.comparison_news: dict | None = None
 
     # ------------------------------------------------------------ life cycle
     def start(self) -> None:
@@ -88,6 +97,9 @@ class Runner:
         """
         async with self.lock:
             result, snap, status = await self.in_worker(self._call_and_observe, fn, args, kwargs, fresh_status)
+        news = self.take_comparison_news()
+        if news is not None:
+            self.hub.broadcast(news)
         if snap is not None:
             self.hub.publish_snapshot(snap)
         if status is not None:
@@ -101,11 +113,14 @@ class Runner:
             return await self.in_worker(fn, *args, **kwargs)
 
     def _call_and_observe(self, fn, args, kwargs, fresh_status: bool):
+        started = time.perf_counter()
         result = fn(*args, **kwargs)
+        self.waves.record(self.session.sim)  # a step request, or a reset: the wave diagram follows
+        self.follow_comparison(time.perf_counter() - started)
         snap = None
         if self.hub.wants_frames:
             snap = self.session.snapshot()
-            self.hub.prepare(snap, with_overlays=True)
+            self.hub.prepare(snap, with_overlays=True, comparison=self._comparison_snapshot())
         return result, snap, (self._status_or_none(time.monotonic()) if fresh_status else None)
 
     # ------------------------------------------------------------ the run loop
@@ -122,6 +137,9 @@ class Runner:
                 log.exception("the run stopped on an unexpected error")
                 await self._stop_after_failure(err)
                 continue
+            news = self.take_comparison_news()
+            if news is not None:
+                self.hub.broadcast(news)
             if snap is not None:
                 self.hub.publish_snapshot(snap, live=self.session.running)
             if advanced.divergence is not None:
@@ -145,12 +163,13 @@ class Runner:
         budget = self.burst_s
         if self.hub.wants_frames:
             budget = min(budget, max(self._next_snapshot_t - now, 0.0))
-        advanced = self.session.advance(budget)
+        advanced = self._advance_sampling(budget)
+        self.follow_comparison(advanced.wall_s)
         now = time.monotonic()
         snap = None
         if self.hub.wants_frames and (now >= self._next_snapshot_t or advanced.divergence is not None):
             snap = self.session.snapshot()
-            self.hub.prepare(snap)
+            self.hub.prepare(snap, comparison=self._comparison_snapshot())
             late = now - self._next_snapshot_t
             # Keep the schedule (so overruns average out) unless a whole interval behind.
             self._next_snapshot_t = (self._next_snapshot_t if late < self.snapshot_interval_s else now) \
@@ -164,6 +183,62 @@ class Runner:
                 self._update_rates(now)
                 self._last_status_t = now
         return advanced, snap, status
+
+    def _advance_sampling(self, budget: float) -> Advanced:
+        """session.advance(budget); with a wave line set, in pieces of `every_steps` steps, a row after each."""
+        waves = self.waves
+        if waves.line is None:
+            return self.session.advance(budget)
+        start = time.perf_counter()
+        steps = 0
+        while True:
+            left = max(budget - (time.perf_counter() - start), 0.0)
+            piece = self.session.advance(left, max_steps=waves.every_steps)
+            steps += piece.steps
+            waves.record(self.session.sim)
+            if piece.divergence is not None or piece.steps == 0 or time.perf_counter() - start >= budget:
+                return Advanced(steps, time.perf_counter() - start, piece.divergence)
+
+    # ------------------------------------------------------------ the comparison run
+    def follow_comparison(self, budget_s: float) -> None:
+        """Keep the comparison with the main run (worker thread, locked): started again with a new main flow
+        (reset, load: a new simulation or fewer steps), given the same change as the main scenario otherwise,
+        then stepped towards the main flow time for at most budget_s of wall time (comparison.py)."""
+        c = self.comparison
+        if c is None:
+            return
+        s = self.session
+        before = c.diverged
+        changed = s.revision != c.main_revision and content_key(s.scenario) != c.main_key
+        new_flow = (c.main_sim() if c.main_sim is not None else None) is not s.sim or s.sim.steps < c.main_steps
+        try:
+            if new_flow and changed:
+                c.rebuild(s.scenario, s.revision, "a new main flow: the comparison started again with it")
+            elif new_flow:
+                c.restart("the main flow started again, and the comparison with it")
+            elif changed:
+                c.carry(s.scenario, s.revision)
+        except (RequestError, ValueError) as err:  # the changed main scenario cannot take the comparison's value
+            self.comparison = None
+            self.comparison_news = {"type": "comparison", "active": False,
+                                    "note": "The comparison stopped: " + getattr(err, "message", str(err))}
+            return
+        if new_flow or changed:
+            self.comparison_news = c.message(s.scenario)
+        c.main_revision = s.revision
+        c.main_sim = weakref.ref(s.sim)
+        c.main_steps = s.sim.steps
+        c.follow(s.sim.time_s, max(budget_s, 0.0))
+        if c.diverged is not None and before is None:
+            self.comparison_news = c.message(s.scenario)
+
+    def _comparison_snapshot(self):
+        c = self.comparison
+        return c.snapshot() if c is not None and self.hub.wants_frames else None
+
+    def take_comparison_news(self) -> dict | None:
+        news, self.comparison_news = self.comparison_news, None
+        return news
 
     async def _status_ticker(self) -> None:
         """A status a few times per second even while paused, so every tab sees the run state."""
@@ -224,6 +299,10 @@ class Runner:
                   "nx": sim.domain.nx, "ny": sim.domain.ny, "undo_depth": s.undo_depth, "redo_depth": s.redo_depth}
         status.update(readings.status_figures(sim, s.scenario, nozzle, floors))
         status.update(engine.engine_status(sim, s.scenario, nozzle))  # engine figures, separation marks
+        if self.comparison is not None:  # where the comparison run is (its time, how far behind, any trouble)
+            c = self.comparison
+            status["comparison"] = {"time_s": c.sim.time_s, "steps": c.sim.steps, "behind_s": c.behind_s,
+                                    "diverged": c.diverged}
         if s.divergence is not None:
             status["warnings"].insert(0, "the run diverged and was paused: " + s.divergence.message)
         self._last_status_t = now

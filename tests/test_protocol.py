@@ -462,7 +462,8 @@ def test_every_message_type_of_the_protocol_has_a_model():
                   "pause", "reset_flow", "step", "add_station", "remove_station", "add_probe", "remove_probe",
                   "set_view", "inspect", "profile", "save_scenario", "load_scenario", "list_scenarios", "export",
                   "clear_all", "set_initial", "delete_scenario", "list_exports", "delete_export", "build_nozzle",
-                  "propellant_gas"}
+                  "propellant_gas",
+                  "list_frames", "recall_frame", "set_wave_line", "wave_history", "set_comparison"}  # presenter tools
     assert set(protocol.MESSAGE_TYPES) == documented
     text = (protocol.__file__.rsplit("/", 1)[0] + "/PROTOCOL.md")
     with open(text, encoding="utf-8") as f:

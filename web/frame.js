@@ -4,7 +4,7 @@ export const FRAME_MAGIC = "SSF1";
 export const HEADER_BYTES = 48;
 
 /**
- * Parse one binary frame. Returns {width, height, viewIndex, encoding, min, max, timeS, step,
+ * Parse one binary frame. Returns {width, height, viewIndex, encoding, channel, min, max, timeS, step,
  * levels: Uint8Array(width * height)} with row 0 the top of the picture, or throws with a reason.
  */
 export function decodeFrame(buffer) {
@@ -19,6 +19,7 @@ export function decodeFrame(buffer) {
   const height = head.getUint16(10, true);
   const viewIndex = head.getUint8(12);
   const encoding = head.getUint8(13);
+  const channel = head.getUint16(14, true); // 0 live, 1 recalled from the server's frame ring
   const min = head.getFloat64(16, true);
   const max = head.getFloat64(24, true);
   const timeS = head.getFloat64(32, true);
@@ -28,5 +29,5 @@ export function decodeFrame(buffer) {
     throw new Error(`frame says ${width}x${height} pixels but carries ${buffer.byteLength - headerBytes} bytes`);
   }
   const levels = new Uint8Array(buffer, headerBytes, width * height);
-  return { width, height, viewIndex, encoding, min, max, timeS, step, levels };
+  return { width, height, viewIndex, encoding, channel, min, max, timeS, step, levels };
 }

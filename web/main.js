@@ -16,6 +16,9 @@ import { drawArrows, drawAxis, drawInitial, drawProbes, drawShape, drawSketch, d
 import { applyLimits, fillChoices, fillPanels, setupPanels } from "./panels.js";
 import { drawPlot } from "./plotstrip.js";
 import { SketchTools } from "./sketch.js";
+import { Presenter } from "./presenter.js";
+import { WaveDiagram } from "./xt_diagram.js";
+import { Comparison } from "./compare.js";
 import * as U from "./units.js";
 
 const $ = (sel) => document.querySelector(sel);
@@ -135,15 +138,16 @@ function layoutCanvas() {
   const whole = wholeShown();
   const aspect = Placement.aspect(dom, whole);
   const maxW = Math.max(200, wrap.clientWidth);
-  const maxH = Math.max(160, window.innerHeight * 0.62);
+  const maxH = Math.max(160, window.innerHeight * (app.presenter && app.presenter.presenting ? 0.8 : 0.62));
   let w = maxW, h = w * aspect;
   if (h > maxH) { h = maxH; w = h / aspect; }
   w = Math.floor(w); h = Math.floor(h);
   const dpr = window.devicePixelRatio || 1;
   canvas.style.width = `${w}px`;
-  canvas.style.height = `${h}px`;
+  const band = app.presenter ? app.presenter.bandPx(w) : 0; // room for the presenter's labels under the flow
+  canvas.style.height = `${h + band}px`;
   canvas.width = Math.round(w * dpr);
-  canvas.height = Math.round(h * dpr);
+  canvas.height = Math.round((h + band) * dpr);
   app.place = new Placement(dom, w, h, whole);
   $("#ov-whole-label").hidden = !(app.scenario && app.scenario.mode === "axisymmetric");
   const rect = app.place.flowRect();
@@ -221,7 +225,7 @@ function drawPicture() {
   const ctx = canvas.getContext("2d");
   ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
   ctx.fillStyle = "#0b0e11";
-  ctx.fillRect(0, 0, place.widthPx, place.heightPx);
+  ctx.fillRect(0, 0, place.widthPx, canvas.height / dpr);
   const rect = place.flowRect();
   if (app.frame) {
     ctx.imageSmoothingEnabled = true;
@@ -249,6 +253,7 @@ function drawPicture() {
       drawSeparation(ctx, place, app.status && app.status.separation);
     } else app.labelBoxes = [];
   }
+  if (app.presenter) app.presenter.drawOn(ctx, place, canvas.height / dpr);
   const draft = app.tools && app.tools.draft;
   if (draft) {
     if (draft.kind === "station") drawStations(ctx, place, [{ name: "new station", ...draft }]);
@@ -282,6 +287,7 @@ function onFrame(buffer) {
     console.warn(err.message);
     return;
   }
+  if (app.presenter && !app.presenter.takeFrame(f)) return;
   app.frame = f;
   const now = performance.now();
   app.frameTimes.push(now);
@@ -638,6 +644,8 @@ function takeScenario(scenario, revision, edited, origin) {
   fillInitial(app);
   showLists(app);
   fillSources();
+  if (app.waves) app.waves.fillChoices();
+  if (app.compare) app.compare.fillChoices();
   const d0 = before && before.domain, d1 = scenario.domain;
   const reshaped = !before || before.mode !== scenario.mode ||
     ["x_min_m", "x_max_m", "y_min_m", "y_max_m"].some((k) => d0[k] !== d1[k]);
@@ -695,6 +703,7 @@ function onMessage(msg) {
       showStations(msg, app.scenario && app.scenario.mode);
       showProbes(msg);
       app.histories.add(msg);
+      if (app.compare) app.compare.takeStatus(msg);
       if (/^(probe|stationt):/.test($("#plot-source").value || "")) drawStrip();
       if (app.hover && app.state === "running") requestInspect();
       break;
@@ -709,6 +718,18 @@ function onMessage(msg) {
     case "profile":
       app.profile = msg;
       drawStrip();
+      break;
+    case "frame_ring":
+      app.presenter.takeRing(msg);
+      break;
+    case "wave_line":
+      app.waves.takeLine(msg);
+      break;
+    case "wave_history":
+      app.waves.takeHistory(msg);
+      break;
+    case "comparison":
+      app.compare.takeMessage(msg);
       break;
     case "error":
       showServerError(msg);
@@ -756,6 +777,25 @@ function setupExpert() {
   });
 }
 
+/** Presenter tools (presenter.js) and the wave diagram (xt_diagram.js), with the few hooks they use. */
+function setupPresenting() {
+  app.layoutCanvas = layoutCanvas;
+  app.scheduleDraw = scheduleDraw;
+  app.viewInfo = viewInfo;
+  app.showFrame = (f) => {
+    app.frame = f;
+    paintFrame();
+    updateColourBar();
+    scheduleDraw();
+  };
+  app.presenter = new Presenter(app);
+  app.presenter.setup();
+  app.waves = new WaveDiagram(app);
+  app.waves.setup();
+  app.compare = new Comparison(app);
+  app.compare.setup();
+}
+
 function start() {
   setupExpert();
   setupInitial(app);
@@ -767,12 +807,13 @@ function start() {
   setupFiles(app);
   setupDialogs(app);
   setupStrip();
+  setupPresenting();
   app.conn = new Connection({ onMessage, onFrame, onState: onLinkState });
   app.conn.open();
   let resizeTimer = null;
   window.addEventListener("resize", () => {
     clearTimeout(resizeTimer);
-    resizeTimer = setTimeout(() => { layoutCanvas(); updateColourBar(); drawStrip(); }, 150);
+    resizeTimer = setTimeout(() => { layoutCanvas(); updateColourBar(); drawStrip(); if (app.waves) app.waves.draw(); }, 150);
   });
   setInterval(() => { if (app.status) $("#fig-frames").textContent = `${U.num(tabFps(), 3)} (server ${U.num(app.status.frames_per_s || 0, 3)})`; }, 1000);
   // A handle for tests and the console; `receive` takes a server message as if it had arrived.
