@@ -29,8 +29,8 @@ from shockslate.solver.domain import Domain
 from shockslate.solver.errors import SolverDiverged
 from shockslate.solver.kinds import HELD_KINDS, CellKind
 from shockslate.solver.gas import PRESETS, Gas
-from shockslate.solver.geometry import wall_geometry
-from shockslate.solver.shapes import shape_from_dict
+from shockslate.solver.geometry import SampledWalls, resample_walls, sample_walls
+from shockslate.solver.shapes import Sketch, shape_from_dict
 from shockslate.solver.simulation import Simulation
 from shockslate.solver.validation import Refused
 
@@ -191,10 +191,13 @@ class Session:
         self.revision = 0
         self.flow_version = 0
         self.divergence: Divergence | None = None
-        self._undo: list[dict] = []
-        self._redo: list[dict] = []
+        # scenarios before and after the changes made (validated and immutable: going back needs no new check)
+        self._undo: list[scn.Scenario] = []
+        self._redo: list[scn.Scenario] = []
         self._on_change = on_change
         self._dicts: list[tuple[scn.Scenario, dict]] = []
+        self._walls: SampledWalls | None = None  # the flow's wall geometry with its samples, once a change made it
+        self._shapes: tuple[list, tuple] = ([], ())  # the shape models of the last sketch built, and its shapes
         self._set_origin(scenario)
 
     # ------------------------------------------------------------------ what was loaded, what is edited
@@ -227,7 +230,10 @@ class Session:
             description = describe_values(new, base)
         if new.name == name and new.description == description:
             return new
-        return new.model_copy(update={"name": name, "description": description})
+        marked = new.model_copy(update={"name": name, "description": description})
+        doc = {**self._as_dict(new), "name": name, "description": description}
+        self._dicts = [(marked, doc), *self._dicts[:3]]
+        return marked
 
     # ------------------------------------------------------------------ state machine
     def _transition(self, event: str) -> SessionState:
@@ -317,13 +323,22 @@ class Session:
 
     def _as_dict(self, scenario: scn.Scenario) -> dict:
         """scenario_to_dict of a scenario, read-only, remembered for the last few scenario objects: a change
-        reads the document several times, and a big sketch takes half a second to turn into one."""
+        reads the document several times, and a big sketch takes half a second to turn into one. A shape
+        model that the last scenarios share (a change builds the next scenario from the same shape objects)
+        is turned into its dict once."""
         for obj, doc in self._dicts:
             if obj is scenario:
                 return doc
-        doc = scn.scenario_to_dict(scenario)
+        doc = scenario.model_dump(mode="json", exclude={"sketch": {"shapes"}})
+        doc["initial"] = {k: v for k, v in doc["initial"].items() if v is not None}  # as scenario_to_dict
+        known = {id(m): d for obj, old in self._dicts for m, d in zip(obj.sketch.shapes, old["sketch"]["shapes"])}
+        doc["sketch"]["shapes"] = [known.get(id(m)) or m.model_dump(mode="json") for m in scenario.sketch.shapes]
         self._dicts = [(scenario, doc), *self._dicts[:3]]
         return doc
+
+    def document(self) -> dict:
+        """The current scenario as scenario_to_dict gives it; read-only (shared with the session's caches)."""
+        return self._as_dict(self.scenario)
 
     def _validated(self, doc: dict, prefix_map: dict[str, str] | None = None) -> scn.Scenario:
         try:
@@ -346,11 +361,11 @@ class Session:
             if self._on_change is not None:
                 self._on_change(self.scenario)
             raise RequestError("scenario", None, "a setup the solver accepts", str(err), "solver") from None
-        before = self._doc()
+        before = self.scenario
         self.scenario = new
         self.revision += 1
         self.flow_version += 1
-        if record and before != self._as_dict(self.scenario):  # the same values again (a repeated input) is no change
+        if record and self._as_dict(before) != self._as_dict(self.scenario):  # the same values again (a repeated input) is no change
             self._undo.append(before)
             del self._undo[:-UNDO_DEPTH]
             self._redo.clear()
@@ -375,34 +390,66 @@ class Session:
         if old.edges != new.edges:
             self.sim.set_edges(scn.to_setup(new).edges)
 
+    def _sketch_of(self, scenario: scn.Scenario) -> Sketch:
+        """The scenario's sketch, keeping the shape objects of the last sketch built for shapes that did not
+        change (matched in paint order from both ends): a long shape is then neither converted again nor
+        compared point by point in the geometry, and its arrays stay with it."""
+        models = list(scenario.sketch.shapes)
+        old_models, old_shapes = self._shapes
+        n = min(len(models), len(old_models))
+        p = 0
+        while p < n and (models[p] is old_models[p] or models[p] == old_models[p]):
+            p += 1
+        q = 0
+        while q < n - p and (models[-1 - q] is old_models[-1 - q] or models[-1 - q] == old_models[-1 - q]):
+            q += 1
+        middle = tuple(m.to_shape() for m in models[p:len(models) - q])
+        shapes = old_shapes[:p] + middle + (old_shapes[len(old_shapes) - q:] if q else ())
+        self._shapes = (models, shapes)
+        return Sketch(shapes, scenario.sketch.mirror)
+
+    def _walls_for(self, new: scn.Scenario, domain: Domain) -> SampledWalls:
+        """The wall geometry of the scenario's sketch on `domain`: sampled again only where the sketch changed
+        when the last geometry is on the same domain, else whole."""
+        sketch = self._sketch_of(new)
+        if self._walls is not None and self._walls.domain == domain:
+            return resample_walls(self._walls, sketch)
+        return sample_walls(sketch, domain)
+
     def _apply_mask(self, new: scn.Scenario) -> None:
-        geo = wall_geometry(scn.to_sketch(new), self.sim.domain)
-        self.sim.set_mask(geo.mask, geo)
+        walls = self._walls_for(new, self.sim.domain)
+        self.sim.set_mask(walls.geometry.mask, walls.geometry)
+        self._walls = walls
 
     def _change_sketch(self, sketch: dict, prefix_map: dict[str, str] | None = None) -> None:
-        doc = self._doc()
+        doc = {k: v for k, v in self._as_dict(self.scenario).items() if k != "sketch"}  # read-only: not changed here
         doc["sketch"] = sketch
         new = self._validated(doc, prefix_map)
         self._commit(new, self._apply_mask)
+
+    def _kept_shapes(self) -> list:
+        """The current shape models, to build the next sketch from: validation takes a model as it is, so
+        only a new shape is checked point by point, and the unchanged ones stay the same objects."""
+        return list(self.scenario.sketch.shapes)
 
     def add_shape(self, shape: dict) -> None:
         try:
             shape_from_dict(shape, where="shape")
         except ValueError as err:
             raise request_error_from_scenario(err, {"shape": shape}) from None
-        sketch = self._doc()["sketch"]
-        n = len(sketch["shapes"])
-        sketch["shapes"].append(shape)
+        shapes = self._kept_shapes()
+        n = len(shapes)
+        sketch = {"mirror": self.scenario.sketch.mirror, "shapes": [*shapes, shape]}
         self._change_sketch(sketch, {f"sketch.shapes[{n}]": "shape", "sketch.shapes": "shape"})
 
     def remove_shape(self, index: int) -> None:
-        sketch = self._doc()["sketch"]
-        n = len(sketch["shapes"])
+        shapes = self._kept_shapes()
+        n = len(shapes)
         if not (isinstance(index, int) and 0 <= index < n):
             allowed = f"an index from 0 to {n - 1}" if n else "no index: the sketch is empty"
             raise RequestError("index", index, allowed, f"There is no shape {index}; the sketch has {n}.", "range")
-        del sketch["shapes"][index]
-        self._change_sketch(sketch)
+        del shapes[index]
+        self._change_sketch({"mirror": self.scenario.sketch.mirror, "shapes": shapes})
 
     def clear_sketch(self) -> None:
         sketch = self._doc()["sketch"]
@@ -413,9 +460,7 @@ class Session:
         self._change_sketch(sketch)
 
     def set_mirror(self, mirror: str) -> None:
-        sketch = self._doc()["sketch"]
-        sketch["mirror"] = mirror
-        self._change_sketch(sketch, {"sketch.": ""})
+        self._change_sketch({"mirror": mirror, "shapes": self._kept_shapes()}, {"sketch.": ""})
 
     def clear_all(self) -> None:
         """An empty slate in the same box: no shapes, stations or probes, no mirror, still ambient gas as the
@@ -443,8 +488,8 @@ class Session:
         if not self._undo:
             raise RequestError("undo", 0, "an earlier change to undo (there is none)",
                                "There is no change to undo.", "nothing_to_undo")
-        current = self._doc()
-        self._commit(self._validated(self._undo[-1]), self._apply_difference, record=False)
+        current = self.scenario
+        self._commit(self._undo[-1], self._apply_difference, record=False)
         self._undo.pop()
         self._redo.append(current)
 
@@ -452,8 +497,8 @@ class Session:
         if not self._redo:
             raise RequestError("redo", 0, "an undone change to redo (there is none)",
                                "There is no undone change to redo.", "nothing_to_redo")
-        current = self._doc()
-        self._commit(self._validated(self._redo[-1]), self._apply_difference, record=False)
+        current = self.scenario
+        self._commit(self._redo[-1], self._apply_difference, record=False)
         self._redo.pop()
         self._undo.append(current)
 
@@ -501,8 +546,9 @@ class Session:
 
     def _remesh(self, new: scn.Scenario) -> None:
         domain = scn.to_domain(new)
-        geo = wall_geometry(scn.to_sketch(new), domain)
-        self.sim.remesh(domain, geo.mask, geo)
+        walls = self._walls_for(new, domain)
+        self.sim.remesh(domain, walls.geometry.mask, walls.geometry)
+        self._walls = walls
 
     def set_resolution(self, nx: int) -> None:
         doc = self._doc()
@@ -539,6 +585,7 @@ class Session:
 
     def _new_flow(self, new: scn.Scenario) -> None:
         self.sim = scn.build_simulation(new)
+        self._walls = None
         self._transition("new_flow")
 
     def load(self, scenario: scn.Scenario) -> None:
