@@ -99,11 +99,14 @@ class ScenarioStore:
         self.current_path = self.data_dir / CURRENT_FILE
 
     # -------------------------------------------------------------- current
-    def save_current(self, scenario: scn.Scenario) -> None:
-        """Write the current scenario; AutosaveFailed (a plain sentence, no Python wording) when it cannot be."""
+    def save_current(self, scenario: scn.Scenario, document: dict | None = None) -> None:
+        """Write the current scenario; AutosaveFailed (a plain sentence, no Python wording) when it cannot be.
+
+        document: the scenario's scenario_to_dict when the caller has it already (a big sketch's takes long)."""
         try:
             # compact: the autosave is rewritten on every change, and a big sketch's indented JSON takes seconds
-            text = json.dumps(scn.scenario_to_dict(scenario), separators=(",", ":")) + "\n"
+            doc = document if document is not None else scn.scenario_to_dict(scenario)
+            text = json.dumps(doc, separators=(",", ":")) + "\n"
             write_atomically(self.current_path, text)
         except OSError as err:
             reason = err.strerror or "the file could not be written"

@@ -15,6 +15,7 @@ lock and runs `advance` in a worker thread.
 """
 from __future__ import annotations
 
+import copy
 import enum
 import math
 import time
@@ -180,6 +181,19 @@ def request_error_from_scenario(err: ValueError, doc: dict | None = None,
     return RequestError.from_problem(problem, field or "scenario")
 
 
+@dataclass
+class Rebuild:
+    """A resolution or extent change on its way: the scenario it changes, the new one, its sketch, and a copy
+    of the flow that build_rebuild carries over to the new grid (with the walls sampled there)."""
+
+    base: scn.Scenario
+    new: scn.Scenario
+    sketch: Sketch
+    sim: Simulation
+    walls: SampledWalls | None = None
+    refusal: RequestError | None = None
+
+
 class Session:
     """Scenario + flow + run state. Every public method either applies fully or raises RequestError."""
 
@@ -198,6 +212,7 @@ class Session:
         self._dicts: list[tuple[scn.Scenario, dict]] = []
         self._walls: SampledWalls | None = None  # the flow's wall geometry with its samples, once a change made it
         self._shapes: tuple[list, tuple] = ([], ())  # the shape models of the last sketch built, and its shapes
+        self._before_unsaved: tuple | None = None  # what the last unsaved_change replaced, until it is saved
         self._set_origin(scenario)
 
     # ------------------------------------------------------------------ what was loaded, what is edited
@@ -369,6 +384,38 @@ class Session:
             self._undo.append(before)
             del self._undo[:-UNDO_DEPTH]
             self._redo.clear()
+
+    # ------------------------------------------------------------------ saving off the solver's thread
+    def unsaved_change(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> tuple[scn.Scenario, dict]:
+        """Make a change (a public method and its arguments) without telling the store, and return the
+        scenario and document to save. The server saves them outside the solver's lock, so the flow keeps
+        stepping meanwhile, and acknowledges the change only once saved; if saving fails it calls
+        roll_back(), which puts the session back as it was before this change."""
+        before = (self.scenario, self.revision, list(self._undo), list(self._redo),
+                  (self._origin_name, self._origin_description, self._origin_content))
+        on_change, self._on_change = self._on_change, None
+        try:
+            fn(*args, **kwargs)
+        finally:
+            self._on_change = on_change
+        self._before_unsaved = before
+        return self.scenario, self.document()
+
+    def roll_back(self) -> None:
+        """Undo the last unsaved_change (its save failed): the scenario, revision, undo history and origin it
+        replaced, and the flow brought back to that scenario as undo would."""
+        before = self._before_unsaved
+        if before is None:
+            return
+        self._before_unsaved = None
+        scenario, revision, undo, redo, origin = before
+        if scenario is not self.scenario:
+            self._apply_difference(scenario)
+            self.scenario = scenario
+            self.flow_version += 1
+        self.revision = revision  # the change was never acknowledged: no tab holds its revision
+        self._undo, self._redo = undo, redo
+        self._origin_name, self._origin_description, self._origin_content = origin
 
     def _apply_difference(self, new: scn.Scenario) -> None:
         """Bring the flow from the current scenario to `new`, whatever differs (for undo and redo): a new
@@ -550,15 +597,56 @@ class Session:
         self.sim.remesh(domain, walls.geometry.mask, walls.geometry)
         self._walls = walls
 
+    def _domain_doc(self, domain_changes: dict) -> dict:
+        """The current document with the domain changed; the sketch passes as its (validated) model, so a
+        big sketch is not checked point by point again."""
+        doc = {k: v for k, v in self._as_dict(self.scenario).items() if k not in ("domain", "sketch")}
+        doc["domain"] = {**self._as_dict(self.scenario)["domain"], **domain_changes}
+        doc["sketch"] = self.scenario.sketch
+        return doc
+
     def set_resolution(self, nx: int) -> None:
-        doc = self._doc()
-        doc["domain"]["nx"] = nx
-        self._commit(self._validated(doc, {"domain.": ""}), self._remesh)
+        self.rebuild(self.plan_rebuild(nx=nx))
 
     def set_domain(self, x_min_m: float, x_max_m: float, y_min_m: float, y_max_m: float) -> None:
-        doc = self._doc()
-        doc["domain"].update(x_min_m=x_min_m, x_max_m=x_max_m, y_min_m=y_min_m, y_max_m=y_max_m)
-        self._commit(self._validated(doc, {"domain.": ""}), self._remesh)
+        self.rebuild(self.plan_rebuild(x_min_m=x_min_m, x_max_m=x_max_m, y_min_m=y_min_m, y_max_m=y_max_m))
+
+    # ------------------------------------------------------------------ resolution and extent, off the solver's lock
+    def plan_rebuild(self, **domain_changes: Any) -> "Rebuild":
+        """Check a new resolution or extent and copy the flow to rebuild on it (quick: call under the lock).
+        The heavy part, build_rebuild, reads only the copy, so it can run while the flow steps on."""
+        new = self._validated(self._domain_doc(domain_changes), {"domain.": ""})
+        return Rebuild(self.scenario, new, self._sketch_of(new), _detached_copy(self.sim))
+
+    @staticmethod
+    def build_rebuild(plan: "Rebuild") -> None:
+        """Sample the walls on the new grid and carry the copied flow over to it (any thread, no lock)."""
+        domain = scn.to_domain(plan.new)
+        plan.walls = sample_walls(plan.sketch, domain)
+        try:
+            plan.sim.remesh(domain, plan.walls.geometry.mask, plan.walls.geometry)
+        except ValueError as err:
+            plan.refusal = RequestError("scenario", None, "a setup the solver accepts", str(err), "solver")
+
+    def finish_rebuild(self, plan: "Rebuild") -> None:
+        """Make the rebuilt flow current (quick: call under the lock). The flow it carries is the one copied
+        by plan_rebuild: the steps made while it was rebuilt are dropped, as if the run had paused."""
+        if plan.refusal is not None:
+            raise plan.refusal
+        if plan.base is not self.scenario:
+            raise RequestError("domain", plan.new.domain.nx, "a change made on the current scenario",
+                               "The scenario changed while the new grid was built; try again.", "stale")
+
+        def swap(_: scn.Scenario) -> None:
+            self.sim = plan.sim
+            self._walls = plan.walls
+
+        self._commit(plan.new, swap)
+
+    def rebuild(self, plan: "Rebuild") -> None:
+        """build_rebuild then finish_rebuild, in the calling thread."""
+        self.build_rebuild(plan)
+        self.finish_rebuild(plan)
 
     def set_edges(self, **changes: str | None) -> None:
         doc = self._doc()
@@ -707,6 +795,27 @@ class Session:
         rho, u, v, p = self.sim.primitive()
         return FlowSnapshot(self.flow_version, self.sim.time_s, self.sim.steps, rho, u, v, p,
                             self.sim.mask.copy(), self.sim.setup.gas, self.sim.domain)
+
+
+def _detached_copy(sim: Simulation) -> Simulation:
+    """A copy of the simulation to rebuild on a new grid while the original steps on.
+
+    Simulation.remesh reads the old primitive state (W) and kinds, then allocates every array anew: those two
+    are copied (a consistent state, taken under the lock), the other arrays are shared as read-only views
+    (copying a 4096-cell grid's gigabyte would hold the solver for seconds; a write through one would fail
+    loudly instead of changing the running flow), and lists and dicts are copied."""
+    clone = copy.copy(sim)
+    for name, value in vars(sim).items():
+        if isinstance(value, np.ndarray):
+            if name in ("W", "kind"):
+                setattr(clone, name, value.copy())
+            else:
+                view = value.view()
+                view.flags.writeable = False
+                setattr(clone, name, view)
+        elif isinstance(value, (list, dict, set)):
+            setattr(clone, name, copy.deepcopy(value))
+    return clone
 
 
 def _copy_doc(value: Any) -> Any:
