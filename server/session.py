@@ -183,13 +183,15 @@ def request_error_from_scenario(err: ValueError, doc: dict | None = None,
 
 @dataclass
 class Rebuild:
-    """A resolution or extent change on its way: the scenario it changes, the new one, its sketch, and a copy
-    of the flow that build_rebuild carries over to the new grid (with the walls sampled there)."""
+    """A resolution or extent change on its way: the scenario it changes, the new one, its sketch, a copy of
+    the flow that build_rebuild carries over to the new grid (with the walls sampled there), and the flow it
+    was copied from (if that is no longer current, the rebuilt one is stale)."""
 
     base: scn.Scenario
     new: scn.Scenario
     sketch: Sketch
     sim: Simulation
+    source: Simulation
     walls: SampledWalls | None = None
     refusal: RequestError | None = None
 
@@ -616,7 +618,7 @@ class Session:
         """Check a new resolution or extent and copy the flow to rebuild on it (quick: call under the lock).
         The heavy part, build_rebuild, reads only the copy, so it can run while the flow steps on."""
         new = self._validated(self._domain_doc(domain_changes), {"domain.": ""})
-        return Rebuild(self.scenario, new, self._sketch_of(new), _detached_copy(self.sim))
+        return Rebuild(self.scenario, new, self._sketch_of(new), _detached_copy(self.sim), self.sim)
 
     @staticmethod
     def build_rebuild(plan: "Rebuild") -> None:
@@ -633,9 +635,9 @@ class Session:
         by plan_rebuild: the steps made while it was rebuilt are dropped, as if the run had paused."""
         if plan.refusal is not None:
             raise plan.refusal
-        if plan.base is not self.scenario:
+        if plan.base is not self.scenario or plan.source is not self.sim:
             raise RequestError("domain", plan.new.domain.nx, "a change made on the current scenario",
-                               "The scenario changed while the new grid was built; try again.", "stale")
+                               "The scenario or the flow changed while the new grid was built; try again.", "stale")
 
         def swap(_: scn.Scenario) -> None:
             self.sim = plan.sim
