@@ -103,10 +103,21 @@ class Dispatcher:
 
     def _broadcast_scenario(self, client: Client, message: Any, document: dict | None = None) -> None:
         s = self.session
-        doc = document if document is not None else scn.scenario_to_dict(s.scenario)
-        self.hub.broadcast({"type": "scenario", "scenario": doc, "revision": s.revision,
-                            "edited": s.edited, "origin": s.origin_name},
-                           reply_to=client, request_id=message.id)
+        if document is None:
+            self.hub.broadcast({"type": "scenario", "scenario": scn.scenario_to_dict(s.scenario),
+                                "revision": s.revision, "edited": s.edited, "origin": s.origin_name},
+                               reply_to=client, request_id=message.id)
+            return
+        # the document's text as the autosave made it (a big sketch's shapes are not encoded again); the
+        # document is finite (validated), so it needs none of p.dumps's NaN handling
+        head = '{"type":"scenario","scenario":' + self.store.document_text(document)
+        tail = {"revision": s.revision, "edited": s.edited, "origin": s.origin_name}
+        text = head + "," + p.dumps(tail)[1:]
+        for other in list(self.hub.clients.values()):  # as hub.broadcast: the sender's copy echoes its id
+            if other is client and message.id is not None:
+                other.queue(head + "," + p.dumps({**tail, "id": message.id})[1:])
+            else:
+                other.queue(text)
 
     # ------------------------------------------------------------ handlers
     async def _change(self, client: Client, message: Any, fn: Callable, *args: Any, **kwargs: Any) -> None:
