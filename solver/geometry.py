@@ -15,6 +15,11 @@ the kind of their centre, as painted by `raster`). A candidate whose gas falls a
 pieces (a wall thinner than a cell crossing it) becomes a wall cell, so a thin wall never lets gas
 through a cell; so does a cell without gas or with every face closed. Faces beside wall cells are closed.
 
+A change of the sketch need not sample everything again: a cell's samples depend only on the kinds at
+points of that cell, so `resample_walls` samples again only the cells the added, removed or changed shapes
+can reach (with a margin) and keeps the rest; steps 3 and 4 (kinds, slivers, closed faces) then run over the
+whole grid as before, so the result equals the whole-sketch computation.
+
 Everything the scheme needs follows from these numbers: a cut cell's wall has the area vector that
 closes its faces (divergence theorem), so a uniform pressure exerts no net force on any cell,
 whatever the sampling error.

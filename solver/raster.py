@@ -6,9 +6,11 @@ drawn wall watertight at any resolution: two face neighbours are dx apart, so wh
 between their centres crosses the path, one of the two lies within dx / 2 < 0.75 dx of it and
 is painted; no face-connected chain of free cells can pass through a wall.
 
-Each shape is evaluated only over the cells of its bounding box: vectorised numpy for the filled
-shapes, a small numba kernel for paths (a freehand stroke has hundreds of pieces, each scanned over
-its own small box; long pieces are cut so a thin diagonal wall does not cost its whole box).
+Each shape is evaluated only over the cells of its bounding box: vectorised numpy for rectangles and
+circles, small numba kernels for polygons (edge by edge, reading only the edges near the asked rows, so
+an outline of 15,000 points asked on a few rows costs those rows) and for paths (a freehand stroke has
+hundreds of pieces, each scanned over its own small box; long pieces are cut so a thin diagonal wall
+does not cost its whole box). A long outline's point array and sorted edges are kept on its frozen shape.
 """
 from __future__ import annotations
 
