@@ -53,7 +53,7 @@ class Dispatcher:
         self.session = runner.session
         self._changes = asyncio.Lock()  # one scenario change at a time, from its start until it is saved
         self._handlers: dict[str, Callable[[Client, Any], Awaitable[None]]] = {
-            "add_shape": lambda c, m: self._change(c, m, self.session.add_shape, m.shape),
+            "add_shape": self._add_shape,
             "remove_shape": lambda c, m: self._change(c, m, self.session.remove_shape, m.index),
             "undo": lambda c, m: self._change(c, m, self.session.undo),
             "redo": lambda c, m: self._change(c, m, self.session.redo),
@@ -147,6 +147,11 @@ class Dispatcher:
                                                         plan)
             await self._save_or_roll_back(scenario, document)
             self._broadcast_scenario(client, message, document)
+
+    async def _add_shape(self, client: Client, message: Any) -> None:
+        # a shape refused for itself is refused at once, without waiting for the solver or another change
+        await asyncio.to_thread(self.session.check_shape, message.shape)
+        await self._change(client, message, self.session.add_shape, message.shape)
 
     async def _set_conditions(self, client: Client, message: p.SetConditions) -> None:
         parts = {name: (getattr(message, name).model_dump() if getattr(message, name) is not None else None)

@@ -481,6 +481,20 @@ class Session:
         only a new shape is checked point by point, and the unchanged ones stay the same objects."""
         return list(self.scenario.sketch.shapes)
 
+    def check_shape(self, shape: dict) -> None:
+        """Refuse a shape add_shape would refuse for itself (its fields, or a point too far from the domain),
+        reading only the current scenario (an immutable object), not the flow: the server calls it before
+        waiting for the solver, so such a refusal never waits for a burst of steps (a ~1e6 m segment is refused
+        in milliseconds whatever the grid)."""
+        try:
+            shape_from_dict(shape, where="shape")
+        except ValueError as err:
+            raise request_error_from_scenario(err, {"shape": shape}) from None
+        scenario = self.scenario
+        doc = scn.scenario_to_dict(scenario.model_copy(update={"sketch": scn.SketchModel()}))  # no big sketch
+        doc["sketch"] = {"mirror": scenario.sketch.mirror, "shapes": [shape]}
+        self._validated(doc, {"sketch.shapes[0]": "shape", "sketch.shapes": "shape"})
+
     def add_shape(self, shape: dict) -> None:
         try:
             shape_from_dict(shape, where="shape")

@@ -34,8 +34,8 @@ from numba import njit
 
 from .domain import Domain
 from .kinds import HELD_KINDS, PAINTABLE, CellKind
-from .raster import _pad_m, footprint, mirror_line_m, rasterise
-from .shapes import Sketch
+from .raster import _clip_pieces, _pad_m, footprint, mirror_line_m, path_half_width_m, points_array, rasterise
+from .shapes import Segment, Sketch, Stroke
 
 #: Sub-cell samples per cell side (gas fractions are multiples of 1 / SAMPLES^2).
 SAMPLES = 16
@@ -194,8 +194,10 @@ def sample_walls(sketch: Sketch, domain: Domain, samples: int = SAMPLES,
     return SampledWalls(sketch, domain, S, F, _settle(raw, centre_mask, S), raw)
 
 
-#: Above this share of the grid to sample again, a change is sampled whole (one pass costs less than many).
+#: Above this share of the grid to sample again, a change is sampled whole (one pass costs less than many);
+#: each window counts as this many cells more (its fixed cost: every shape's box is checked against it).
 _WHOLE_SHARE = 0.5
+_WINDOW_COST_CELLS = 1000
 
 
 def resample_walls(previous: SampledWalls, sketch: Sketch) -> SampledWalls:
@@ -217,7 +219,8 @@ def resample_walls(previous: SampledWalls, sketch: Sketch) -> SampledWalls:
         return sample_walls(sketch, domain, S, F)
     windows = _changed_windows(previous.sketch, sketch, domain)
     ny, nx = domain.shape
-    if windows is None or sum((j1 - j0) * (i1 - i0) for j0, j1, i0, i1 in windows) > _WHOLE_SHARE * ny * nx:
+    if windows is None or sum((j1 - j0) * (i1 - i0) + _WINDOW_COST_CELLS
+                              for j0, j1, i0, i1 in windows) > _WHOLE_SHARE * ny * nx:
         return sample_walls(sketch, domain, S, F)
     old = previous.samples
     raw = _Samples(*(np.array(a) for a in (old.all_wall, old.cand, old.gas, old.gas_r, old.open_x,
@@ -260,11 +263,9 @@ def _changed_windows(old: Sketch, new: Sketch, domain: Domain):
     ny, nx = domain.shape
     windows = []
     for shape in changed:
-        x0, y0, x1, y1 = shape.bounds_m()
-        reach = _pad_m(shape, dx) + 1e-9 * dx
-        boxes = [(x0 - reach, y0 - reach, x1 + reach, y1 + reach)]
+        boxes = _reach_boxes(shape, domain)
         if y_line is not None:
-            boxes.append((x0 - reach, 2.0 * y_line - y1 - reach, x1 + reach, 2.0 * y_line - y0 + reach))
+            boxes += [(x0, 2.0 * y_line - y1, x1, 2.0 * y_line - y0) for x0, y0, x1, y1 in boxes]
         for bx0, by0, bx1, by1 in boxes:
             cells = []
             for lo, hi, origin, count in ((by0, by1, domain.y_min_m, ny), (bx0, bx1, domain.x_min_m, nx)):
@@ -277,6 +278,51 @@ def _changed_windows(old: Sketch, new: Sketch, domain: Domain):
             if j0 < j1 and i0 < i1:
                 windows.append((j0, j1, i0, i1))
     return windows
+
+
+#: A path's reach is boxed in runs of about this many cells, so a long stroke or segment across the domain is
+#: sampled again along itself, not over its whole bounding box.
+_RUN_CELLS = 16.0
+
+
+def _reach_boxes(shape, domain: Domain) -> list[tuple[float, float, float, float]]:
+    """Boxes (x0, y0, x1, y1) in metres holding every point the shape can paint on the domain (a little more)."""
+    dx = domain.dx_m
+    slack = 1e-9 * dx
+    if not isinstance(shape, (Segment, Stroke)):
+        x0, y0, x1, y1 = shape.bounds_m()
+        reach = _pad_m(shape, dx) + slack
+        return [(x0 - reach, y0 - reach, x1 + reach, y1 + reach)]
+    half = path_half_width_m(shape.width_m, dx) + slack
+    pts = np.array((shape.start_m, shape.end_m)) if isinstance(shape, Segment) else points_array(shape)
+    grow = half + 2.0 * dx
+    a, b = _clip_pieces(pts[:-1], pts[1:], domain.x_min_m - grow, domain.x_max_m + grow,
+                        domain.y_min_m - grow, domain.y_max_m + grow)
+    if a.shape[0] == 0:
+        return []
+    run = _RUN_CELLS * dx
+    n_sub = np.maximum(1, np.ceil(np.hypot(*(b - a).T) / run)).astype(np.int64)
+    owner = np.repeat(np.arange(a.shape[0]), n_sub)
+    step = np.arange(owner.size) - np.repeat(np.cumsum(n_sub) - n_sub, n_sub)
+    f0 = (step / n_sub[owner])[:, None]
+    f1 = ((step + 1) / n_sub[owner])[:, None]
+    starts = a[owner] + (b[owner] - a[owner]) * f0
+    ends = a[owner] + (b[owner] - a[owner]) * f1
+    lo = np.minimum(starts, ends)
+    hi = np.maximum(starts, ends)
+    boxes = []
+    bx0, by0 = lo[0]
+    bx1, by1 = hi[0]
+    for k in range(1, lo.shape[0]):
+        nx0, ny0 = min(bx0, lo[k, 0]), min(by0, lo[k, 1])
+        nx1, ny1 = max(bx1, hi[k, 0]), max(by1, hi[k, 1])
+        if max(nx1 - nx0, ny1 - ny0) > run:  # this piece starts a new run
+            boxes.append((bx0 - half, by0 - half, bx1 + half, by1 + half))
+            bx0, by0, bx1, by1 = lo[k, 0], lo[k, 1], hi[k, 0], hi[k, 1]
+        else:
+            bx0, by0, bx1, by1 = nx0, ny0, nx1, ny1
+    boxes.append((bx0 - half, by0 - half, bx1 + half, by1 + half))
+    return boxes
 
 
 def _sample_block(shapes, domain: Domain, j0: int, j1: int, i0: int, i1: int, S: int, F: int) -> _Samples:

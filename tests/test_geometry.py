@@ -188,3 +188,28 @@ def test_resampling_is_local_and_follows_a_new_mirror_or_an_empty_sketch():
     for sketch in (Sketch(added.shapes, "midline"), Sketch(), Sketch((Rectangle((0, 0), (0.2, 0.5), "reservoir"),)), added):
         walls = resample_walls(walls, sketch)
         _assert_same_geometry(walls.geometry, wall_geometry(sketch, dom))
+
+
+@pytest.mark.parametrize("mirror", ["none", "axis", "midline"])
+def test_a_long_path_is_resampled_along_itself_and_equals_the_whole(mirror):
+    # a stroke and a segment across the whole domain (and far beyond it) are boxed in runs along themselves:
+    # several small windows, far fewer cells than the grid, and the same geometry as sampling it whole
+    from shockslate.solver.geometry import _WHOLE_SHARE, _WINDOW_COST_CELLS, _changed_windows, resample_walls, sample_walls
+
+    dom = Domain(0.0, 1.0, 0.0, 0.5, 400)
+    base = Sketch((Circle((0.3, 0.25), 0.1, "wall"), Rectangle((0.6, 0.1), (0.8, 0.3), "reservoir")), mirror)
+    t = np.linspace(0.0, 1.0, 300)
+    stroke = Stroke(tuple(zip(-0.1 + 1.2 * t, 0.2 + 0.05 * np.sin(11.0 * t))), 0.004, "wall")
+    segment = Segment((-2.0, -1.2), (0.7, 0.4), 0.01, "wall")
+    walls = sample_walls(base, dom)
+    for shape in (stroke, segment):
+        grown = Sketch(base.shapes + (shape,), mirror)
+        windows = _changed_windows(base, grown, dom)
+        assert len(windows) >= 4
+        if mirror != "midline":  # few enough to be resampled in windows, not whole (a midline doubles them)
+            assert sum((j1 - j0) * (i1 - i0) + _WINDOW_COST_CELLS for j0, j1, i0, i1 in windows) \
+                <= _WHOLE_SHARE * dom.nx * dom.ny
+        walls = resample_walls(walls, grown)
+        _assert_same_geometry(walls.geometry, wall_geometry(grown, dom))
+        walls = resample_walls(walls, base)
+        _assert_same_geometry(walls.geometry, wall_geometry(base, dom))

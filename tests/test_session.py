@@ -518,3 +518,19 @@ def test_a_stale_rebuild_is_refused_and_a_failed_save_rolls_the_change_back(sess
     session.roll_back()
     np.testing.assert_array_equal(session.sim.mask, mask)
     assert (session.revision, session.undo_depth, len(session.scenario.sketch.shapes)) == (revision, depth, 1)
+
+
+def test_a_shape_refused_for_itself_is_refused_before_the_flow_is_touched_with_the_same_words(session):
+    # the segment from (-1e6, -1e6) m: check_shape reads only the scenario and refuses it as add_shape does
+    far = {"kind": "segment", "start_m": [-1e6, -1e6], "end_m": [0.2, 0.05], "width_m": 0.002, "paints": "wall"}
+    with pytest.raises(RequestError) as early:
+        session.check_shape(far)
+    with pytest.raises(RequestError) as late:
+        session.add_shape(far)
+    assert early.value.field == late.value.field == "shape.start_m"
+    assert early.value.message == late.value.message and "10 domain sizes" in early.value.message
+    with pytest.raises(RequestError) as bad:
+        session.check_shape({"kind": "circle", "centre_m": [0.1, 0.05], "radius_m": -1.0, "paints": "wall"})
+    assert bad.value.field == "shape.radius_m"
+    session.check_shape(WALL_DISC)  # a fine shape passes, and nothing changed
+    assert len(session.scenario.sketch.shapes) == 1 and session.revision == 0
