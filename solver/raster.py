@@ -273,21 +273,50 @@ def _path_footprint(points, width_m: float, xs: np.ndarray, ys: np.ndarray, dx_m
 def _clip_pieces(a: np.ndarray, b: np.ndarray, x0: float, x1: float, y0: float, y1: float):
     """The parts of the pieces a-b inside the box [x0, x1] x [y0, y1] (Liang and Barsky 1984); pieces that miss it
     are dropped. A capsule's points within the box lie within its half-width of the clipped piece when the box
-    was grown by that half-width, so the painted cells do not change."""
-    d = b - a
-    t0 = np.zeros(a.shape[0])
-    t1 = np.ones(a.shape[0])
-    keep = np.ones(a.shape[0], dtype=bool)
-    for p, q in ((-d[:, 0], a[:, 0] - x0), (d[:, 0], x1 - a[:, 0]), (-d[:, 1], a[:, 1] - y0), (d[:, 1], y1 - a[:, 1])):
-        parallel = p == 0.0
-        keep &= ~(parallel & (q < 0.0))
-        with np.errstate(divide="ignore", invalid="ignore"):
-            r = np.where(parallel, 0.0, q / np.where(parallel, 1.0, p))
-        t0 = np.where(~parallel & (p < 0.0), np.maximum(t0, r), t0)
-        t1 = np.where(~parallel & (p > 0.0), np.minimum(t1, r), t1)
-    keep &= t0 <= t1
-    a, d, t0, t1 = a[keep], d[keep], t0[keep, None], t1[keep, None]
-    return a + t0 * d, a + t1 * d
+    was grown by that half-width, so the painted cells do not change. (A small numba kernel: a sketch's paths
+    are clipped hundreds of times per change, once per sampled row, and numpy's fixed cost per call dominated.)"""
+    a = np.ascontiguousarray(a, dtype=np.float64).reshape(-1, 2)
+    b = np.ascontiguousarray(b, dtype=np.float64).reshape(-1, 2)
+    return _clip_kernel(a, b, float(x0), float(x1), float(y0), float(y1))
+
+
+@njit(cache=True)
+def _clip_kernel(a, b, x0, x1, y0, y1):
+    n = a.shape[0]
+    out_a = np.empty((n, 2))
+    out_b = np.empty((n, 2))
+    kept = 0
+    for k in range(n):
+        dx = b[k, 0] - a[k, 0]
+        dy = b[k, 1] - a[k, 1]
+        t0 = 0.0
+        t1 = 1.0
+        keep = True
+        for side in range(4):
+            if side == 0:
+                p, q = -dx, a[k, 0] - x0
+            elif side == 1:
+                p, q = dx, x1 - a[k, 0]
+            elif side == 2:
+                p, q = -dy, a[k, 1] - y0
+            else:
+                p, q = dy, y1 - a[k, 1]
+            if p == 0.0:
+                if q < 0.0:
+                    keep = False
+            else:
+                r = q / p
+                if p < 0.0:
+                    t0 = max(t0, r)
+                else:
+                    t1 = min(t1, r)
+        if keep and t0 <= t1:
+            out_a[kept, 0] = a[k, 0] + t0 * dx
+            out_a[kept, 1] = a[k, 1] + t0 * dy
+            out_b[kept, 0] = a[k, 0] + t1 * dx
+            out_b[kept, 1] = a[k, 1] + t1 * dy
+            kept += 1
+    return out_a[:kept].copy(), out_b[:kept].copy()
 
 
 @njit(cache=True)
