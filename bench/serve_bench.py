@@ -6,7 +6,11 @@ noise hits both sides alike:
   - solver cell updates per second with no client attached and with one client streaming,
   - frames per second delivered to that client at 512 x 256,
   - latency from sending a shape to the first frame that shows it (a wall disc on a gas pixel),
-  - a load phase: several tabs at once (8 by default), frames per second each and the server's memory growth.
+  - a load phase: several tabs at once (8 by default), frames per second each and the server's memory growth,
+  - one more shape after 30 polygons of 15,000 points (server side: parsed, applied and saved; in this process with
+    the server's parts) beside the whole-sketch geometry time,
+  - the issue's long segment: time to its answer and the server's peak memory growth,
+  - frames per second another tab gets while the resolution changes.
 Goals from the issue: 30 frames/s, latency under 150 ms, solver slowdown under 10 %.
 """
 from __future__ import annotations
@@ -282,6 +286,156 @@ def load_phase(server: "ServerProcess", clients: int, seconds: float) -> dict:
             "server_rss_growth_percent": 100.0 * (rss_after / rss_before - 1.0)}
 
 
+def big_sketch_scenario(polygons: int = 30, points: int = 15_000, seed: int = 7) -> dict:
+    """The default nozzle with `polygons` wall polygons of `points` corners each (wavy rings, seeded), spread
+    over its domain: the big sketch of the issue's goal (one more shape after 30 polygons of 15,000 points)."""
+    import math
+
+    import numpy as np
+    from shockslate.solver import scenario as scn
+
+    doc = scn.scenario_to_dict(scn.load_builtin(scn.DEFAULT_SCENARIO))
+    d = doc["domain"]
+    w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
+    rng = np.random.default_rng(seed)
+    t = np.linspace(0.0, 2.0 * math.pi, points, endpoint=False)
+    for k in range(polygons):
+        cx = d["x_min_m"] + w * rng.uniform(0.1, 0.9)
+        cy = d["y_min_m"] + h * rng.uniform(0.15, 0.85)
+        r = 0.1 * h * (1.0 + 0.2 * np.sin(7.0 * t + k))
+        doc["sketch"]["shapes"].append({"kind": "polygon", "paints": "wall",
+                                        "points_m": np.column_stack([cx + r * np.cos(t), cy + r * np.sin(t)]).tolist()})
+    return doc
+
+
+def sketch_change_phase(changes: int = 7) -> dict:
+    """Server-side cost of one more shape on the big sketch, in this process with the server's own parts: the
+    message parsed, the change applied to the flow (walls sampled again where it changed) and the autosave
+    written, as the server does it (median over `changes` small wall discs). Also the whole-sketch geometry."""
+    from shockslate.server import protocol as p
+    from shockslate.server.persistence import ScenarioStore
+    from shockslate.server.session import Session
+    from shockslate.solver import scenario as scn
+    from shockslate.solver.geometry import wall_geometry
+
+    doc = big_sketch_scenario()
+    scenario = scn.parse_scenario(doc)
+    d = doc["domain"]
+    w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
+    with tempfile.TemporaryDirectory(prefix="shockslate-bench-") as folder:
+        store = ScenarioStore(folder)
+        session = Session(scenario, store.save_current)
+        times = []
+        for k in range(changes + 1):  # the first change after a load samples the whole sketch: not counted
+            shape = {"kind": "circle", "centre_m": [d["x_min_m"] + w * (0.2 + 0.6 * k / changes),
+                                                    d["y_min_m"] + 0.5 * h], "radius_m": 0.02 * h, "paints": "wall"}
+            text = json.dumps({"type": "add_shape", "shape": shape, "id": k})
+            t0 = time.perf_counter()
+            message = p.parse_message(p.parse_json(text))
+            new, document = session.unsaved_change(session.add_shape, message.shape)
+            store.save_current(new, document)
+            if k:
+                times.append(time.perf_counter() - t0)
+        autosave_mb = store.current_path.stat().st_size / 1e6
+        whole = []
+        for _ in range(3):
+            sketch = scn.to_sketch(session.scenario)  # fresh shapes: nothing kept from an earlier sampling
+            t0 = time.perf_counter()
+            wall_geometry(sketch, session.sim.domain)
+            whole.append(time.perf_counter() - t0)
+    return {"sketch_change_s": statistics.median(times), "sketch_change_s_each": times,
+            "whole_geometry_s": statistics.median(whole), "whole_geometry_s_each": whole,
+            "polygons": 30, "points_per_polygon": 15_000, "grid": [d["nx"], session.sim.domain.ny],
+            "autosave_mb": autosave_mb, "goal_s": 0.5}
+
+
+def resolution_change_phase(url: str, resolutions: tuple[int, ...] = (1024, 512, 2048, 512),
+                            before_s: float = 3.0) -> dict:
+    """Frames per second one tab receives while another changes the resolution (each change from sending it
+    to its acknowledgement), how long each change took, and the frames per second of the same tab in the
+    `before_s` seconds before it (the grid being left sets that: a step of a big grid takes long)."""
+    import threading
+
+    watcher, _ = _connect(url)
+    arrivals: list[float] = []
+    stop = threading.Event()
+
+    def watch() -> None:
+        while not stop.is_set():
+            try:
+                msg = watcher.recv(timeout=0.5)
+            except TimeoutError:
+                continue
+            except Exception:  # noqa: BLE001 - the socket closed at the end
+                return
+            if isinstance(msg, bytes):
+                arrivals.append(time.monotonic())
+
+    thread = threading.Thread(target=watch, daemon=True)
+    thread.start()
+    changer, _ = _connect(url)
+    changes = []
+    try:
+        for n, nx in enumerate(resolutions):
+            rid = f"res{n}"
+            time.sleep(before_s)
+            t0 = time.monotonic()
+            before = sum(t0 - before_s <= a < t0 for a in arrivals) / before_s
+            changer.send(json.dumps({"type": "set_resolution", "nx": nx, "id": rid}))
+            while True:
+                msg = changer.recv(timeout=300)
+                if isinstance(msg, str) and json.loads(msg).get("id") == rid:
+                    break
+            t1 = time.monotonic()
+            frames = sum(t0 <= a <= t1 for a in arrivals)
+            changes.append({"nx": nx, "seconds": t1 - t0, "frames": frames, "frames_per_s": frames / (t1 - t0),
+                            "frames_per_s_before": before})
+    finally:
+        stop.set()
+        changer.close()
+        watcher.close()
+        thread.join(5)
+    return {"changes": changes, "frames_per_s_min": min(c["frames_per_s"] for c in changes), "goal_frames_per_s": 10}
+
+
+def _peak_rss_bytes(pid: int) -> int:
+    with open(f"/proc/{pid}/status") as f:
+        for line in f:
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1]) * 1024
+    return 0
+
+
+def long_segment_phase(server: "ServerProcess") -> dict:
+    """The issue's segment from (-1e6, -1e6) m to (0.2, 0.05) m: seconds to its answer and the server's peak
+    memory growth (VmHWM); also a segment reaching as far as a shape may (10 domain sizes), which is accepted."""
+    sock, hello = _connect(server.url)
+    d = hello["scenario"]["domain"]
+    size = max(d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"])
+    out = {}
+    try:
+        for name, start in (("issue_segment", [-1e6, -1e6]),
+                            ("farthest_allowed", [d["x_min_m"] - 9.9 * size, d["y_min_m"] - 9.9 * size])):
+            peak = _peak_rss_bytes(server.proc.pid)
+            shape = {"kind": "segment", "start_m": start, "end_m": [0.2, 0.05], "width_m": 0.002, "paints": "wall"}
+            t0 = time.perf_counter()
+            sock.send(json.dumps({"type": "add_shape", "shape": shape, "id": name}))
+            while True:
+                msg = sock.recv(timeout=60)
+                if isinstance(msg, str) and json.loads(msg).get("id") == name:
+                    reply = json.loads(msg)
+                    break
+            seconds = time.perf_counter() - t0
+            out[name] = {"answer": reply["type"], "seconds": seconds,
+                         "peak_rss_growth_mb": (_peak_rss_bytes(server.proc.pid) - peak) / 2 ** 20}
+            if reply["type"] == "scenario":
+                sock.send(json.dumps({"type": "undo"}))
+    finally:
+        sock.close()
+    out["goal"] = {"seconds": 0.2, "memory_mb": 50}
+    return out
+
+
 def first_frame_phase(timeout_s: float = 300.0) -> dict:
     """A fresh `shockslate serve` on the built-in default scenario, as `make run` starts it: seconds from the
     address being printed to the first frame reaching a tab that connects at that moment (the first-hour goal:
@@ -323,6 +477,7 @@ def first_frame_phase(timeout_s: float = 300.0) -> dict:
 def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: float = 3.0,
                     threads: int | None = None, load_clients: int = 8) -> dict:
     first_frame = first_frame_phase()
+    sketch_change = sketch_change_phase()
     scenario = bench_scenario()
     server = ServerProcess(scenario, threads)
     try:
@@ -340,6 +495,8 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
             time.sleep(1.0)  # let the server notice the client left
         latencies = latency_phase(server.url, scenario, latency_samples)
         load = load_phase(server, load_clients, 2 * phase_s) if load_clients > 0 else None
+        segment = long_segment_phase(server)
+        resolution = resolution_change_phase(server.url)
         health = _health(server.url)
     finally:
         server.stop()
@@ -361,6 +518,11 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
         "serve_slowdown_fraction": (1.0 - mean_streaming / mean_alone) if mean_alone > 0 else None,
         "first_frame": first_frame,
         "load": load,
+        "sketch_change_s": sketch_change["sketch_change_s"],
+        "whole_geometry_s": sketch_change["whole_geometry_s"],
+        "sketch_change": sketch_change,
+        "resolution_change": resolution,
+        "long_segment": segment,
         "numba_threading_layer": health.get("threading_layer"),
         "solver_threads": threads or "all cores",
         "cpu_count": os.cpu_count(),
@@ -395,3 +557,19 @@ def print_report(r: dict) -> None:
               f"{load['frames_per_s_median']:.1f} median; server memory {load['server_rss_mb_before']:.0f} -> "
               f"{load['server_rss_mb_after']:.0f} MB ({load['server_rss_growth_percent']:+.1f} %)"
               + (f"; {len(load['connect_errors'])} tabs could not connect" if load["connect_errors"] else ""))
+    sc = r.get("sketch_change")
+    if sc:
+        print(f"  one more shape          {sc['sketch_change_s']:6.3f} s median (goal < 0.5 s) after {sc['polygons']} "
+              f"polygons of {sc['points_per_polygon']} points, parsed + applied + saved ({sc['autosave_mb']:.1f} MB); "
+              f"whole-sketch geometry {sc['whole_geometry_s']:.3f} s")
+    rc = r.get("resolution_change")
+    if rc:
+        print(f"  resolution changes      {rc['frames_per_s_min']:6.1f} frames/s at least to another tab (goal 10); "
+              + ", ".join(f"to nx {c['nx']} {c['seconds']:.1f} s {c['frames_per_s']:.0f}/s "
+                          f"({c['frames_per_s_before']:.0f}/s before)" for c in rc["changes"]))
+    seg = r.get("long_segment")
+    if seg:
+        for name in ("issue_segment", "farthest_allowed"):
+            x = seg[name]
+            print(f"  {name.replace('_', ' '):23s} {x['answer']} in {x['seconds']:.3f} s, peak memory "
+                  f"+{x['peak_rss_growth_mb']:.1f} MB (goal 0.2 s, 50 MB)")

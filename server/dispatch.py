@@ -19,7 +19,7 @@ from .errors import RequestError
 from . import design, export_list
 from .exports import Exports
 from .hub import Client, Hub, ViewChoice, ring_key
-from .persistence import ScenarioStore
+from .persistence import AutosaveFailed, ScenarioStore
 from .runner import Runner
 from .security import Access
 from .session import SessionState, request_error_from_scenario
@@ -73,8 +73,9 @@ class Dispatcher:
         self.session = runner.session
         #: False: answer gas-from-propellants as if Cantera were not installed (serve --without-thermochemistry)
         self.thermochemistry = thermochemistry
+        self._changes = asyncio.Lock()  # one scenario change at a time, from its start until it is saved
         self._handlers: dict[str, Callable[[Client, Any], Awaitable[None]]] = {
-            "add_shape": lambda c, m: self._change(c, m, self.session.add_shape, m.shape),
+            "add_shape": self._add_shape,
             "remove_shape": lambda c, m: self._change(c, m, self.session.remove_shape, m.index),
             "undo": lambda c, m: self._change(c, m, self.session.undo),
             "redo": lambda c, m: self._change(c, m, self.session.redo),
@@ -86,8 +87,8 @@ class Dispatcher:
             "set_gas": lambda c, m: self._change(c, m, self.session.set_gas, m.preset, m.gamma, m.molar_mass_kg_kmol),
             "set_conditions": self._set_conditions,
             "set_numerics": lambda c, m: self._change(c, m, self.session.set_numerics, **_fields(m)),
-            "set_resolution": lambda c, m: self._change(c, m, self.session.set_resolution, m.nx),
-            "set_domain": lambda c, m: self._change(c, m, self.session.set_domain, **_fields(m)),
+            "set_resolution": lambda c, m: self._rebuild(c, m, nx=m.nx),
+            "set_domain": lambda c, m: self._rebuild(c, m, **_fields(m)),
             "set_edges": lambda c, m: self._change(c, m, self.session.set_edges, **_fields(m)),
             "set_mode": lambda c, m: self._change(c, m, self.session.set_mode, m.mode),
             "run": lambda c, m: self._control(c, m, self.session.run),
@@ -134,16 +135,57 @@ class Dispatcher:
             reply = {**reply, "id": message.id}
         self.hub.send(client, reply)
 
-    def _broadcast_scenario(self, client: Client, message: Any) -> None:
+    def _broadcast_scenario(self, client: Client, message: Any, document: dict | None = None) -> None:
         s = self.session
-        self.hub.broadcast({"type": "scenario", "scenario": scn.scenario_to_dict(s.scenario), "revision": s.revision,
-                            "edited": s.edited, "origin": s.origin_name},
-                           reply_to=client, request_id=message.id)
+        if document is None:
+            self.hub.broadcast({"type": "scenario", "scenario": scn.scenario_to_dict(s.scenario),
+                                "revision": s.revision, "edited": s.edited, "origin": s.origin_name},
+                               reply_to=client, request_id=message.id)
+            return
+        # the document's text as the autosave made it (a big sketch's shapes are not encoded again); the
+        # document is finite (validated), so it needs none of p.dumps's NaN handling
+        head = '{"type":"scenario","scenario":' + self.store.document_text(document)
+        tail = {"revision": s.revision, "edited": s.edited, "origin": s.origin_name}
+        text = head + "," + p.dumps(tail)[1:]
+        for other in list(self.hub.clients.values()):  # as hub.broadcast: the sender's copy echoes its id
+            if other is client and message.id is not None:
+                other.queue(head + "," + p.dumps({**tail, "id": message.id})[1:])
+            else:
+                other.queue(text)
 
     # ------------------------------------------------------------ handlers
     async def _change(self, client: Client, message: Any, fn: Callable, *args: Any, **kwargs: Any) -> None:
-        await self.runner.call(fn, *args, **kwargs)
-        self._broadcast_scenario(client, message)
+        """Apply a change in the solver's thread, then save it in another thread while the flow steps on, and
+        acknowledge it (the `scenario` broadcast) only once saved. Changes wait for each other's save, so
+        files are written in order; a save that fails rolls the change back and AutosaveFailed tells every tab."""
+        async with self._changes:
+            scenario, document = await self.runner.call(self.session.unsaved_change, fn, *args, **kwargs)
+            await self._save_or_roll_back(scenario, document)
+            self._broadcast_scenario(client, message, document)
+
+    async def _save_or_roll_back(self, scenario: scn.Scenario, document: dict) -> None:
+        try:
+            await asyncio.to_thread(self.store.save_current, scenario, document)
+        except AutosaveFailed:
+            await self.runner.call(self.session.roll_back)
+            raise
+
+    async def _rebuild(self, client: Client, message: Any, **domain_changes: Any) -> None:
+        """A new resolution or extent: checked and the flow copied under the lock (quick), the new grid built
+        in another thread while the flow steps on and the tabs get frames, then swapped in under the lock and
+        saved like any change."""
+        async with self._changes:
+            plan = await self.runner.call(self.session.plan_rebuild, **domain_changes)
+            await asyncio.to_thread(self.session.build_rebuild, plan)
+            scenario, document = await self.runner.call(self.session.unsaved_change, self.session.finish_rebuild,
+                                                        plan)
+            await self._save_or_roll_back(scenario, document)
+            self._broadcast_scenario(client, message, document)
+
+    async def _add_shape(self, client: Client, message: Any) -> None:
+        # a shape refused for itself is refused at once, without waiting for the solver or another change
+        await asyncio.to_thread(self.session.check_shape, message.shape)
+        await self._change(client, message, self.session.add_shape, message.shape)
 
     async def _set_conditions(self, client: Client, message: p.SetConditions) -> None:
         parts = {name: (getattr(message, name).model_dump() if getattr(message, name) is not None else None)
@@ -223,9 +265,13 @@ class Dispatcher:
     async def _propellant_gas(self, client: Client, message: p.PropellantGas) -> None:
         """Chamber gas by chemical equilibrium; its frozen gamma, molar mass, T0 and p0 applied as one change."""
         result = await asyncio.to_thread(design.chamber_gas, _fields(message), self.thermochemistry)
-        await self.runner.call(lambda: self.session.change_document(design.gas_document(result, self.session.scenario)))
-        self._reply(client, message, design.chamber_gas_message(result))
-        self._broadcast_scenario(client, message)
+        async with self._changes:  # as _change: applied, saved off the solver's thread, then acknowledged
+            scenario, document = await self.runner.call(
+                self.session.unsaved_change,
+                lambda: self.session.change_document(design.gas_document(result, self.session.scenario)))
+            await self._save_or_roll_back(scenario, document)
+            self._reply(client, message, design.chamber_gas_message(result))
+            self._broadcast_scenario(client, message, document)
 
     async def _list(self, client: Client, message: p.ListScenarios) -> None:
         listing = await asyncio.to_thread(self.store.listing)

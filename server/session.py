@@ -15,6 +15,7 @@ lock and runs `advance` in a worker thread.
 """
 from __future__ import annotations
 
+import copy
 import enum
 import math
 import time
@@ -29,8 +30,8 @@ from shockslate.solver.domain import Domain
 from shockslate.solver.errors import SolverDiverged
 from shockslate.solver.kinds import HELD_KINDS, CellKind
 from shockslate.solver.gas import PRESETS, Gas
-from shockslate.solver.geometry import wall_geometry
-from shockslate.solver.shapes import shape_from_dict
+from shockslate.solver.geometry import SampledWalls, resample_walls, sample_walls
+from shockslate.solver.shapes import Sketch, shape_from_dict
 from shockslate.solver.simulation import Simulation
 from shockslate.solver.validation import Refused
 
@@ -180,6 +181,21 @@ def request_error_from_scenario(err: ValueError, doc: dict | None = None,
     return RequestError.from_problem(problem, field or "scenario")
 
 
+@dataclass
+class Rebuild:
+    """A resolution or extent change on its way: the scenario it changes, the new one, its sketch, a copy of
+    the flow that build_rebuild carries over to the new grid (with the walls sampled there), and the flow it
+    was copied from (if that is no longer current, the rebuilt one is stale)."""
+
+    base: scn.Scenario
+    new: scn.Scenario
+    sketch: Sketch
+    sim: Simulation
+    source: Simulation
+    walls: SampledWalls | None = None
+    refusal: RequestError | None = None
+
+
 class Session:
     """Scenario + flow + run state. Every public method either applies fully or raises RequestError."""
 
@@ -191,10 +207,14 @@ class Session:
         self.revision = 0
         self.flow_version = 0
         self.divergence: Divergence | None = None
-        self._undo: list[dict] = []
-        self._redo: list[dict] = []
+        # scenarios before and after the changes made (validated and immutable: going back needs no new check)
+        self._undo: list[scn.Scenario] = []
+        self._redo: list[scn.Scenario] = []
         self._on_change = on_change
         self._dicts: list[tuple[scn.Scenario, dict]] = []
+        self._walls: SampledWalls | None = None  # the flow's wall geometry with its samples, once a change made it
+        self._shapes: tuple[list, tuple] = ([], ())  # the shape models of the last sketch built, and its shapes
+        self._before_unsaved: tuple | None = None  # what the last unsaved_change replaced, until it is saved
         self._set_origin(scenario)
 
     # ------------------------------------------------------------------ what was loaded, what is edited
@@ -227,7 +247,10 @@ class Session:
             description = describe_values(new, base)
         if new.name == name and new.description == description:
             return new
-        return new.model_copy(update={"name": name, "description": description})
+        marked = new.model_copy(update={"name": name, "description": description})
+        doc = {**self._as_dict(new), "name": name, "description": description}
+        self._dicts = [(marked, doc), *self._dicts[:3]]
+        return marked
 
     # ------------------------------------------------------------------ state machine
     def _transition(self, event: str) -> SessionState:
@@ -317,13 +340,22 @@ class Session:
 
     def _as_dict(self, scenario: scn.Scenario) -> dict:
         """scenario_to_dict of a scenario, read-only, remembered for the last few scenario objects: a change
-        reads the document several times, and a big sketch takes half a second to turn into one."""
+        reads the document several times, and a big sketch takes half a second to turn into one. A shape
+        model that the last scenarios share (a change builds the next scenario from the same shape objects)
+        is turned into its dict once."""
         for obj, doc in self._dicts:
             if obj is scenario:
                 return doc
-        doc = scn.scenario_to_dict(scenario)
+        doc = scenario.model_dump(mode="json", exclude={"sketch": {"shapes"}})
+        doc["initial"] = {k: v for k, v in doc["initial"].items() if v is not None}  # as scenario_to_dict
+        known = {id(m): d for obj, old in self._dicts for m, d in zip(obj.sketch.shapes, old["sketch"]["shapes"])}
+        doc["sketch"]["shapes"] = [known.get(id(m)) or m.model_dump(mode="json") for m in scenario.sketch.shapes]
         self._dicts = [(scenario, doc), *self._dicts[:3]]
         return doc
+
+    def document(self) -> dict:
+        """The current scenario as scenario_to_dict gives it; read-only (shared with the session's caches)."""
+        return self._as_dict(self.scenario)
 
     def _validated(self, doc: dict, prefix_map: dict[str, str] | None = None) -> scn.Scenario:
         try:
@@ -346,14 +378,46 @@ class Session:
             if self._on_change is not None:
                 self._on_change(self.scenario)
             raise RequestError("scenario", None, "a setup the solver accepts", str(err), "solver") from None
-        before = self._doc()
+        before = self.scenario
         self.scenario = new
         self.revision += 1
         self.flow_version += 1
-        if record and before != self._as_dict(self.scenario):  # the same values again (a repeated input) is no change
+        if record and self._as_dict(before) != self._as_dict(self.scenario):  # the same values again (a repeated input) is no change
             self._undo.append(before)
             del self._undo[:-UNDO_DEPTH]
             self._redo.clear()
+
+    # ------------------------------------------------------------------ saving off the solver's thread
+    def unsaved_change(self, fn: Callable[..., Any], *args: Any, **kwargs: Any) -> tuple[scn.Scenario, dict]:
+        """Make a change (a public method and its arguments) without telling the store, and return the
+        scenario and document to save. The server saves them outside the solver's lock, so the flow keeps
+        stepping meanwhile, and acknowledges the change only once saved; if saving fails it calls
+        roll_back(), which puts the session back as it was before this change."""
+        before = (self.scenario, self.revision, list(self._undo), list(self._redo),
+                  (self._origin_name, self._origin_description, self._origin_content))
+        on_change, self._on_change = self._on_change, None
+        try:
+            fn(*args, **kwargs)
+        finally:
+            self._on_change = on_change
+        self._before_unsaved = before
+        return self.scenario, self.document()
+
+    def roll_back(self) -> None:
+        """Undo the last unsaved_change (its save failed): the scenario, revision, undo history and origin it
+        replaced, and the flow brought back to that scenario as undo would."""
+        before = self._before_unsaved
+        if before is None:
+            return
+        self._before_unsaved = None
+        scenario, revision, undo, redo, origin = before
+        if scenario is not self.scenario:
+            self._apply_difference(scenario)
+            self.scenario = scenario
+            self.flow_version += 1
+        self.revision = revision  # the change was never acknowledged: no tab holds its revision
+        self._undo, self._redo = undo, redo
+        self._origin_name, self._origin_description, self._origin_content = origin
 
     def _apply_difference(self, new: scn.Scenario) -> None:
         """Bring the flow from the current scenario to `new`, whatever differs (for undo and redo): a new
@@ -375,34 +439,80 @@ class Session:
         if old.edges != new.edges:
             self.sim.set_edges(scn.to_setup(new).edges)
 
+    def _sketch_of(self, scenario: scn.Scenario) -> Sketch:
+        """The scenario's sketch, keeping the shape objects of the last sketch built for shapes that did not
+        change (matched in paint order from both ends): a long shape is then neither converted again nor
+        compared point by point in the geometry, and its arrays stay with it."""
+        models = list(scenario.sketch.shapes)
+        old_models, old_shapes = self._shapes
+        n = min(len(models), len(old_models))
+        p = 0
+        while p < n and (models[p] is old_models[p] or models[p] == old_models[p]):
+            p += 1
+        q = 0
+        while q < n - p and (models[-1 - q] is old_models[-1 - q] or models[-1 - q] == old_models[-1 - q]):
+            q += 1
+        middle = tuple(m.to_shape() for m in models[p:len(models) - q])
+        shapes = old_shapes[:p] + middle + (old_shapes[len(old_shapes) - q:] if q else ())
+        self._shapes = (models, shapes)
+        return Sketch(shapes, scenario.sketch.mirror)
+
+    def _walls_for(self, new: scn.Scenario, domain: Domain) -> SampledWalls:
+        """The wall geometry of the scenario's sketch on `domain`: sampled again only where the sketch changed
+        when the last geometry is on the same domain, else whole."""
+        sketch = self._sketch_of(new)
+        if self._walls is not None and self._walls.domain == domain:
+            return resample_walls(self._walls, sketch)
+        return sample_walls(sketch, domain)
+
     def _apply_mask(self, new: scn.Scenario) -> None:
-        geo = wall_geometry(scn.to_sketch(new), self.sim.domain)
-        self.sim.set_mask(geo.mask, geo)
+        walls = self._walls_for(new, self.sim.domain)
+        self.sim.set_mask(walls.geometry.mask, walls.geometry)
+        self._walls = walls
 
     def _change_sketch(self, sketch: dict, prefix_map: dict[str, str] | None = None) -> None:
-        doc = self._doc()
+        doc = {k: v for k, v in self._as_dict(self.scenario).items() if k != "sketch"}  # read-only: not changed here
         doc["sketch"] = sketch
         new = self._validated(doc, prefix_map)
         self._commit(new, self._apply_mask)
+
+    def _kept_shapes(self) -> list:
+        """The current shape models, to build the next sketch from: validation takes a model as it is, so
+        only a new shape is checked point by point, and the unchanged ones stay the same objects."""
+        return list(self.scenario.sketch.shapes)
+
+    def check_shape(self, shape: dict) -> None:
+        """Refuse a shape add_shape would refuse for itself (its fields, or a point too far from the domain),
+        reading only the current scenario (an immutable object), not the flow: the server calls it before
+        waiting for the solver, so such a refusal never waits for a burst of steps (a ~1e6 m segment is refused
+        in milliseconds whatever the grid)."""
+        try:
+            shape_from_dict(shape, where="shape")
+        except ValueError as err:
+            raise request_error_from_scenario(err, {"shape": shape}) from None
+        scenario = self.scenario
+        doc = scn.scenario_to_dict(scenario.model_copy(update={"sketch": scn.SketchModel()}))  # no big sketch
+        doc["sketch"] = {"mirror": scenario.sketch.mirror, "shapes": [shape]}
+        self._validated(doc, {"sketch.shapes[0]": "shape", "sketch.shapes": "shape"})
 
     def add_shape(self, shape: dict) -> None:
         try:
             shape_from_dict(shape, where="shape")
         except ValueError as err:
             raise request_error_from_scenario(err, {"shape": shape}) from None
-        sketch = self._doc()["sketch"]
-        n = len(sketch["shapes"])
-        sketch["shapes"].append(shape)
+        shapes = self._kept_shapes()
+        n = len(shapes)
+        sketch = {"mirror": self.scenario.sketch.mirror, "shapes": [*shapes, shape]}
         self._change_sketch(sketch, {f"sketch.shapes[{n}]": "shape", "sketch.shapes": "shape"})
 
     def remove_shape(self, index: int) -> None:
-        sketch = self._doc()["sketch"]
-        n = len(sketch["shapes"])
+        shapes = self._kept_shapes()
+        n = len(shapes)
         if not (isinstance(index, int) and 0 <= index < n):
             allowed = f"an index from 0 to {n - 1}" if n else "no index: the sketch is empty"
             raise RequestError("index", index, allowed, f"There is no shape {index}; the sketch has {n}.", "range")
-        del sketch["shapes"][index]
-        self._change_sketch(sketch)
+        del shapes[index]
+        self._change_sketch({"mirror": self.scenario.sketch.mirror, "shapes": shapes})
 
     def clear_sketch(self) -> None:
         sketch = self._doc()["sketch"]
@@ -413,9 +523,7 @@ class Session:
         self._change_sketch(sketch)
 
     def set_mirror(self, mirror: str) -> None:
-        sketch = self._doc()["sketch"]
-        sketch["mirror"] = mirror
-        self._change_sketch(sketch, {"sketch.": ""})
+        self._change_sketch({"mirror": mirror, "shapes": self._kept_shapes()}, {"sketch.": ""})
 
     def clear_all(self) -> None:
         """An empty slate in the same box: no shapes, stations or probes, no mirror, still ambient gas as the
@@ -443,8 +551,8 @@ class Session:
         if not self._undo:
             raise RequestError("undo", 0, "an earlier change to undo (there is none)",
                                "There is no change to undo.", "nothing_to_undo")
-        current = self._doc()
-        self._commit(self._validated(self._undo[-1]), self._apply_difference, record=False)
+        current = self.scenario
+        self._commit(self._undo[-1], self._apply_difference, record=False)
         self._undo.pop()
         self._redo.append(current)
 
@@ -452,8 +560,8 @@ class Session:
         if not self._redo:
             raise RequestError("redo", 0, "an undone change to redo (there is none)",
                                "There is no undone change to redo.", "nothing_to_redo")
-        current = self._doc()
-        self._commit(self._validated(self._redo[-1]), self._apply_difference, record=False)
+        current = self.scenario
+        self._commit(self._redo[-1], self._apply_difference, record=False)
         self._redo.pop()
         self._undo.append(current)
 
@@ -501,18 +609,60 @@ class Session:
 
     def _remesh(self, new: scn.Scenario) -> None:
         domain = scn.to_domain(new)
-        geo = wall_geometry(scn.to_sketch(new), domain)
-        self.sim.remesh(domain, geo.mask, geo)
+        walls = self._walls_for(new, domain)
+        self.sim.remesh(domain, walls.geometry.mask, walls.geometry)
+        self._walls = walls
+
+    def _domain_doc(self, domain_changes: dict) -> dict:
+        """The current document with the domain changed; the sketch passes as its (validated) model, so a
+        big sketch is not checked point by point again."""
+        doc = {k: v for k, v in self._as_dict(self.scenario).items() if k not in ("domain", "sketch")}
+        doc["domain"] = {**self._as_dict(self.scenario)["domain"], **domain_changes}
+        doc["sketch"] = self.scenario.sketch
+        return doc
 
     def set_resolution(self, nx: int) -> None:
-        doc = self._doc()
-        doc["domain"]["nx"] = nx
-        self._commit(self._validated(doc, {"domain.": ""}), self._remesh)
+        self.rebuild(self.plan_rebuild(nx=nx))
 
     def set_domain(self, x_min_m: float, x_max_m: float, y_min_m: float, y_max_m: float) -> None:
-        doc = self._doc()
-        doc["domain"].update(x_min_m=x_min_m, x_max_m=x_max_m, y_min_m=y_min_m, y_max_m=y_max_m)
-        self._commit(self._validated(doc, {"domain.": ""}), self._remesh)
+        self.rebuild(self.plan_rebuild(x_min_m=x_min_m, x_max_m=x_max_m, y_min_m=y_min_m, y_max_m=y_max_m))
+
+    # ------------------------------------------------------------------ resolution and extent, off the solver's lock
+    def plan_rebuild(self, **domain_changes: Any) -> "Rebuild":
+        """Check a new resolution or extent and copy the flow to rebuild on it (quick: call under the lock).
+        The heavy part, build_rebuild, reads only the copy, so it can run while the flow steps on."""
+        new = self._validated(self._domain_doc(domain_changes), {"domain.": ""})
+        return Rebuild(self.scenario, new, self._sketch_of(new), _detached_copy(self.sim), self.sim)
+
+    @staticmethod
+    def build_rebuild(plan: "Rebuild") -> None:
+        """Sample the walls on the new grid and carry the copied flow over to it (any thread, no lock)."""
+        domain = scn.to_domain(plan.new)
+        plan.walls = sample_walls(plan.sketch, domain)
+        try:
+            plan.sim.remesh(domain, plan.walls.geometry.mask, plan.walls.geometry)
+        except ValueError as err:
+            plan.refusal = RequestError("scenario", None, "a setup the solver accepts", str(err), "solver")
+
+    def finish_rebuild(self, plan: "Rebuild") -> None:
+        """Make the rebuilt flow current (quick: call under the lock). The flow it carries is the one copied
+        by plan_rebuild: the steps made while it was rebuilt are dropped, as if the run had paused."""
+        if plan.refusal is not None:
+            raise plan.refusal
+        if plan.base is not self.scenario or plan.source is not self.sim:
+            raise RequestError("domain", plan.new.domain.nx, "a change made on the current scenario",
+                               "The scenario or the flow changed while the new grid was built; try again.", "stale")
+
+        def swap(_: scn.Scenario) -> None:
+            self.sim = plan.sim
+            self._walls = plan.walls
+
+        self._commit(plan.new, swap)
+
+    def rebuild(self, plan: "Rebuild") -> None:
+        """build_rebuild then finish_rebuild, in the calling thread."""
+        self.build_rebuild(plan)
+        self.finish_rebuild(plan)
 
     def set_edges(self, **changes: str | None) -> None:
         doc = self._doc()
@@ -539,6 +689,7 @@ class Session:
 
     def _new_flow(self, new: scn.Scenario) -> None:
         self.sim = scn.build_simulation(new)
+        self._walls = None
         self._transition("new_flow")
 
     def load(self, scenario: scn.Scenario) -> None:
@@ -675,6 +826,27 @@ class Session:
         rho, u, v, p = self.sim.primitive()
         return FlowSnapshot(self.flow_version, self.sim.time_s, self.sim.steps, rho, u, v, p,
                             self.sim.mask.copy(), self.sim.setup.gas, self.sim.domain)
+
+
+def _detached_copy(sim: Simulation) -> Simulation:
+    """A copy of the simulation to rebuild on a new grid while the original steps on.
+
+    Simulation.remesh reads the old primitive state (W) and kinds, then allocates every array anew: those two
+    are copied (a consistent state, taken under the lock), the other arrays are shared as read-only views
+    (copying a 4096-cell grid's gigabyte would hold the solver for seconds; a write through one would fail
+    loudly instead of changing the running flow), and lists and dicts are copied."""
+    clone = copy.copy(sim)
+    for name, value in vars(sim).items():
+        if isinstance(value, np.ndarray):
+            if name in ("W", "kind"):
+                setattr(clone, name, value.copy())
+            else:
+                view = value.view()
+                view.flags.writeable = False
+                setattr(clone, name, view)
+        elif isinstance(value, (list, dict, set)):
+            setattr(clone, name, copy.deepcopy(value))
+    return clone
 
 
 def _copy_doc(value: Any) -> Any:

@@ -6,9 +6,11 @@ drawn wall watertight at any resolution: two face neighbours are dx apart, so wh
 between their centres crosses the path, one of the two lies within dx / 2 < 0.75 dx of it and
 is painted; no face-connected chain of free cells can pass through a wall.
 
-Each shape is evaluated only over the cells of its bounding box: vectorised numpy for the filled
-shapes, a small numba kernel for paths (a freehand stroke has hundreds of pieces, each scanned over
-its own small box; long pieces are cut so a thin diagonal wall does not cost its whole box).
+Each shape is evaluated only over the cells of its bounding box: vectorised numpy for rectangles and
+circles, small numba kernels for polygons (edge by edge, reading only the edges near the asked rows, so
+an outline of 15,000 points asked on a few rows costs those rows) and for paths (a freehand stroke has
+hundreds of pieces, each scanned over its own small box; long pieces are cut so a thin diagonal wall
+does not cost its whole box). A long outline's point array and sorted edges are kept on its frozen shape.
 """
 from __future__ import annotations
 
@@ -122,7 +124,7 @@ def footprint(shape: Shape, xs_m: np.ndarray, ys_m: np.ndarray, dx_m: float) -> 
     if isinstance(shape, Segment):
         return _path_footprint((shape.start_m, shape.end_m), shape.width_m, xs_m, ys_m, dx_m)
     if isinstance(shape, Stroke):
-        return _path_footprint(shape.points_m, shape.width_m, xs_m, ys_m, dx_m)
+        return _path_footprint(points_array(shape), shape.width_m, xs_m, ys_m, dx_m)
     raise TypeError(f"shape = {shape!r} is not one of stroke, segment, rectangle, polygon, circle")
 
 
@@ -171,23 +173,74 @@ def _circle_footprint(shape: Circle, xs: np.ndarray, ys: np.ndarray) -> np.ndarr
 
 def _polygon_footprint(shape: Polygon, xs: np.ndarray, ys: np.ndarray) -> np.ndarray:
     """Even-odd fill by scanlines: count, per row, the edge crossings left of each centre."""
-    pts = np.asarray(shape.points_m, dtype=np.float64)
-    x1, y1 = pts[:, 0], pts[:, 1]
-    x2, y2 = np.roll(x1, -1), np.roll(y1, -1)
-    n_rows, n_cols = ys.size, xs.size
-    if n_rows == 0 or n_cols == 0:
-        return np.zeros((n_rows, n_cols), dtype=bool)
-    y = ys[:, None]
-    # Half-open rule (one end above, the other at or below) counts a vertex on a row once.
-    crosses = (y1[None, :] > y) != (y2[None, :] > y)
-    rows, edges = np.nonzero(crosses)
-    dy = y2[edges] - y1[edges]  # never 0 where an edge crosses a row
-    x_cross = x1[edges] + (ys[rows] - y1[edges]) * (x2[edges] - x1[edges]) / dy
-    # A crossing toggles every centre strictly to its right.
-    first_col = np.searchsorted(xs, x_cross, side="right")
-    toggles = np.bincount(rows * (n_cols + 1) + first_col, minlength=n_rows * (n_cols + 1))
-    toggles = toggles.reshape(n_rows, n_cols + 1)[:, :n_cols]
-    return (np.cumsum(toggles, axis=1) & 1).astype(bool)
+    if ys.size == 0 or xs.size == 0:
+        return np.zeros((ys.size, xs.size), dtype=bool)
+    x1, y1, x2, y2, y_low, tallest = _polygon_edges(shape)
+    # only edges whose lower end lies within [ys[0] - tallest, ys[-1]] can cross a row
+    e0 = np.searchsorted(y_low, ys[0] - tallest, side="left")
+    e1 = np.searchsorted(y_low, ys[-1], side="right")
+    return _polygon_kernel(x1[e0:e1], y1[e0:e1], x2[e0:e1], y2[e0:e1], xs, ys)
+
+
+def _polygon_edges(shape: Polygon):
+    """The polygon's non-horizontal edges (x1, y1, x2, y2) sorted by their lower end, those lower ends, and
+    the tallest edge's height: a query over a few rows then reads only the edges near them. Made once and
+    kept on the frozen shape."""
+    kept = shape.__dict__.get("_edges")
+    if kept is None:
+        pts = points_array(shape)
+        x1, y1 = pts[:, 0], pts[:, 1]
+        x2, y2 = np.roll(x1, -1), np.roll(y1, -1)
+        keep = y1 != y2
+        x1, y1, x2, y2 = x1[keep], y1[keep], x2[keep], y2[keep]
+        low = np.minimum(y1, y2)
+        order = np.argsort(low, kind="stable")
+        tallest = float(np.max(np.abs(y2 - y1))) if order.size else 0.0
+        kept = (x1[order].copy(), y1[order].copy(), x2[order].copy(), y2[order].copy(), low[order].copy(), tallest)
+        object.__setattr__(shape, "_edges", kept)
+    return kept
+
+
+def points_array(shape: Polygon | Stroke) -> np.ndarray:
+    """The (n, 2) float64 array of a polygon's or stroke's points, made once and kept on the frozen shape:
+    a long outline is read on every change of the sketch, and turning 15,000 pairs into an array costs
+    milliseconds each time."""
+    pts = shape.__dict__.get("_points_xy")
+    if pts is None:
+        pts = np.asarray(shape.points_m, dtype=np.float64).reshape(-1, 2)
+        pts.flags.writeable = False
+        object.__setattr__(shape, "_points_xy", pts)
+    return pts
+
+
+@njit(cache=True)
+def _polygon_kernel(ex1, ey1, ex2, ey2, xs, ys):
+    """Even-odd inside test of the points (xs[i], ys[j]) against the edges (ex1, ey1)-(ex2, ey2).
+
+    Edge by edge: an edge crosses the rows y with min(y1, y2) <= y < max(y1, y2) (one end above, the other at
+    or below: a vertex on a row counts once), and each crossing toggles every point strictly to its right. The
+    work is the number of edges plus the number of crossings, not edges times rows."""
+    n_rows = ys.size
+    n_cols = xs.size
+    toggles = np.zeros((n_rows, n_cols + 1), np.uint8)
+    for e in range(ex1.size):
+        x1 = ex1[e]
+        y1 = ey1[e]
+        x2 = ex2[e]
+        y2 = ey2[e]
+        j0 = np.searchsorted(ys, min(y1, y2), side="left")
+        j1 = np.searchsorted(ys, max(y1, y2), side="left")
+        dy = y2 - y1
+        for j in range(j0, j1):
+            x_cross = x1 + (ys[j] - y1) * (x2 - x1) / dy
+            toggles[j, np.searchsorted(xs, x_cross, side="right")] ^= 1
+    inside = np.zeros((n_rows, n_cols), np.bool_)
+    for j in range(n_rows):
+        parity = 0
+        for i in range(n_cols):
+            parity ^= toggles[j, i]
+            inside[j, i] = parity == 1
+    return inside
 
 
 def _path_footprint(points, width_m: float, xs: np.ndarray, ys: np.ndarray, dx_m: float) -> np.ndarray:
@@ -196,7 +249,7 @@ def _path_footprint(points, width_m: float, xs: np.ndarray, ys: np.ndarray, dx_m
     inside = np.zeros((ys.size, xs.size), dtype=np.bool_)
     if ys.size == 0 or xs.size == 0:
         return inside
-    pts = np.asarray(points, dtype=np.float64)
+    pts = points if isinstance(points, np.ndarray) else np.asarray(points, dtype=np.float64)
     # Only the part of each piece near the sampled points can paint: clip the pieces to that box first, so a
     # piece kilometres long costs what its part over the domain costs.
     margin = half + (xs[-1] - xs[0]) * 1e-12 + 1e-300
@@ -220,21 +273,50 @@ def _path_footprint(points, width_m: float, xs: np.ndarray, ys: np.ndarray, dx_m
 def _clip_pieces(a: np.ndarray, b: np.ndarray, x0: float, x1: float, y0: float, y1: float):
     """The parts of the pieces a-b inside the box [x0, x1] x [y0, y1] (Liang and Barsky 1984); pieces that miss it
     are dropped. A capsule's points within the box lie within its half-width of the clipped piece when the box
-    was grown by that half-width, so the painted cells do not change."""
-    d = b - a
-    t0 = np.zeros(a.shape[0])
-    t1 = np.ones(a.shape[0])
-    keep = np.ones(a.shape[0], dtype=bool)
-    for p, q in ((-d[:, 0], a[:, 0] - x0), (d[:, 0], x1 - a[:, 0]), (-d[:, 1], a[:, 1] - y0), (d[:, 1], y1 - a[:, 1])):
-        parallel = p == 0.0
-        keep &= ~(parallel & (q < 0.0))
-        with np.errstate(divide="ignore", invalid="ignore"):
-            r = np.where(parallel, 0.0, q / np.where(parallel, 1.0, p))
-        t0 = np.where(~parallel & (p < 0.0), np.maximum(t0, r), t0)
-        t1 = np.where(~parallel & (p > 0.0), np.minimum(t1, r), t1)
-    keep &= t0 <= t1
-    a, d, t0, t1 = a[keep], d[keep], t0[keep, None], t1[keep, None]
-    return a + t0 * d, a + t1 * d
+    was grown by that half-width, so the painted cells do not change. (A small numba kernel: a sketch's paths
+    are clipped hundreds of times per change, once per sampled row, and numpy's fixed cost per call dominated.)"""
+    a = np.ascontiguousarray(a, dtype=np.float64).reshape(-1, 2)
+    b = np.ascontiguousarray(b, dtype=np.float64).reshape(-1, 2)
+    return _clip_kernel(a, b, float(x0), float(x1), float(y0), float(y1))
+
+
+@njit(cache=True)
+def _clip_kernel(a, b, x0, x1, y0, y1):
+    n = a.shape[0]
+    out_a = np.empty((n, 2))
+    out_b = np.empty((n, 2))
+    kept = 0
+    for k in range(n):
+        dx = b[k, 0] - a[k, 0]
+        dy = b[k, 1] - a[k, 1]
+        t0 = 0.0
+        t1 = 1.0
+        keep = True
+        for side in range(4):
+            if side == 0:
+                p, q = -dx, a[k, 0] - x0
+            elif side == 1:
+                p, q = dx, x1 - a[k, 0]
+            elif side == 2:
+                p, q = -dy, a[k, 1] - y0
+            else:
+                p, q = dy, y1 - a[k, 1]
+            if p == 0.0:
+                if q < 0.0:
+                    keep = False
+            else:
+                r = q / p
+                if p < 0.0:
+                    t0 = max(t0, r)
+                else:
+                    t1 = min(t1, r)
+        if keep and t0 <= t1:
+            out_a[kept, 0] = a[k, 0] + t0 * dx
+            out_a[kept, 1] = a[k, 1] + t0 * dy
+            out_b[kept, 0] = a[k, 0] + t1 * dx
+            out_b[kept, 1] = a[k, 1] + t1 * dy
+            kept += 1
+    return out_a[:kept].copy(), out_b[:kept].copy()
 
 
 @njit(cache=True)

@@ -205,3 +205,26 @@ def test_a_tab_is_told_that_the_last_scenario_was_set_aside(tmp_path):
     assert len(kept) == 1 and len(hello["notices"]) == 1
     assert kept[0] in hello["notices"][0] and "could not be restored" in hello["notices"][0]
     assert hello["scenario"]["name"] == scn.DEFAULT_SCENARIO
+
+
+def test_document_text_is_the_compact_json_of_the_document_and_reuses_shape_texts():
+    # json.dumps with separators (",", ":") is the reference (Python standard library); the store's text must be
+    # byte for byte the same, for a first document, after a shape is added and removed, and for odd documents
+    import json as _json
+
+    from shockslate.server.persistence import DocumentText
+    from scenario_docs import duct_doc as _duct
+
+    text = DocumentText()
+    doc = _duct(48, name="text duct")
+    shapes = doc["sketch"]["shapes"]
+    assert text(doc) == _json.dumps(doc, separators=(",", ":"))
+    disc = {"kind": "circle", "centre_m": [0.2, 0.05], "radius_m": 0.01, "paints": "wall"}
+    grown = {**doc, "sketch": {**doc["sketch"], "shapes": [*shapes, disc]}}
+    assert text(grown) == _json.dumps(grown, separators=(",", ":"))
+    assert text._shapes[id(shapes[0])][0] is shapes[0]  # the kept shape's text was kept
+    empty = {**doc, "sketch": {"mirror": "axis", "shapes": []}}
+    assert text(empty) == _json.dumps(empty, separators=(",", ":"))
+    for odd in ({"name": "no sketch"}, {"sketch": {"shapes": "not a list"}}):
+        assert text(odd) == _json.dumps(odd, separators=(",", ":"))
+    assert "".join(text.pieces(grown)) == text(grown)

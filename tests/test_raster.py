@@ -169,6 +169,25 @@ def test_a_sketch_of_mixed_shapes_matches_the_oracle_in_order():
     assert np.array_equal(raster_of(*shapes, domain=domain), oracle_mask(shapes, domain))
 
 
+def test_polygon_points_in_a_few_rows_match_the_oracle_whatever_rows_are_asked():
+    # The fill reads only the edges near the asked rows (edges sorted by their lower end, the tallest edge's
+    # height as reach): a long wavy outline with one tall edge, asked on bands of rows, against PNPOLY per point.
+    from shockslate.solver.raster import footprint
+
+    t = np.linspace(0.0, 2.0 * math.pi, 400, endpoint=False)
+    ring = [(float(0.5 + 0.3 * math.cos(a) * (1 + 0.1 * math.sin(9 * a))), float(0.3 + 0.25 * math.sin(a)))
+            for a in t]
+    shape = Polygon(tuple(ring[:200]) + ((0.45, 0.9), (0.44, -0.3)) + tuple(ring[200:]), "wall")
+    xs = np.linspace(-0.05, 1.05, 37)
+    rng = np.random.default_rng(21)
+    for _ in range(8):
+        y0 = float(rng.uniform(-0.4, 0.9))
+        ys = y0 + np.sort(rng.uniform(0.0, 0.05, int(rng.integers(1, 5))))
+        got = footprint(shape, xs, ys, 0.01)
+        want = np.array([[oracle_contains(shape, float(x), float(y), 0.01) for x in xs] for y in ys])
+        assert np.array_equal(got, want), y0
+
+
 def test_long_stroke_with_many_points_matches_oracle():
     # Many short pieces plus long ones (which the rasteriser cuts up) in one freehand path.
     t = np.linspace(0.0, 1.0, 150)

@@ -475,3 +475,62 @@ def test_undo_of_a_new_mode_or_domain_brings_the_flow_back_to_match(session):
     session.undo()
     assert session.sim.domain.x_max_m == 0.4 and session.scenario.domain.x_max_m == 0.4
     assert not session.edited
+
+
+# ----------------------------------------------------------------------------- changes made and saved apart
+
+def test_a_rebuilt_grid_carries_the_flow_copied_at_the_plan_while_the_flow_steps_on(session):
+    # the heavy part of a resolution change reads only a copy: the flow may step meanwhile (the server's solver
+    # does), and the result is what a resolution change made at the moment of the plan gives
+    import copy as _copy
+
+    session.step(5)
+    reference = _copy.deepcopy(session.sim)
+    plan = session.plan_rebuild(nx=96)
+    before = [q.copy() for q in session.sim.primitive()]
+    session.build_rebuild(plan)
+    for a, b in zip(before, session.sim.primitive()):
+        np.testing.assert_array_equal(a, b)  # building the copy did not touch the running flow
+    session.step(3)  # the flow steps on meanwhile; the rebuilt grid carries the state of the plan
+    session.finish_rebuild(plan)
+    assert session.sim.domain.nx == 96 and session.scenario.domain.nx == 96
+    walls = session._walls.geometry
+    reference.remesh(scn.to_domain(session.scenario), walls.mask, walls)
+    for a, b in zip(reference.primitive(), session.sim.primitive()):
+        np.testing.assert_array_equal(a, b)
+    assert session.sim.steps == 5
+
+
+def test_a_stale_rebuild_is_refused_and_a_failed_save_rolls_the_change_back(session, saved):
+    plan = session.plan_rebuild(nx=80)
+    session.build_rebuild(plan)
+    session.reset_flow()  # another tab reset the flow meanwhile: the copy is no longer the flow
+    with pytest.raises(RequestError) as err:
+        session.finish_rebuild(plan)
+    assert err.value.rule == "stale" and session.sim.domain.nx == 64
+    # an unsaved change, then its save fails: scenario, revision, undo history and walls back as before
+    mask, revision, depth = session.sim.mask.copy(), session.revision, session.undo_depth
+    scenario, document = session.unsaved_change(
+        session.add_shape, {"kind": "circle", "centre_m": [0.25, 0.05], "radius_m": 0.02, "paints": "wall"})
+    assert document == scn.scenario_to_dict(scenario) and len(scenario.sketch.shapes) == 2
+    assert saved == []  # the caller saves it, off the solver's thread
+    assert not np.array_equal(session.sim.mask, mask)
+    session.roll_back()
+    np.testing.assert_array_equal(session.sim.mask, mask)
+    assert (session.revision, session.undo_depth, len(session.scenario.sketch.shapes)) == (revision, depth, 1)
+
+
+def test_a_shape_refused_for_itself_is_refused_before_the_flow_is_touched_with_the_same_words(session):
+    # the segment from (-1e6, -1e6) m: check_shape reads only the scenario and refuses it as add_shape does
+    far = {"kind": "segment", "start_m": [-1e6, -1e6], "end_m": [0.2, 0.05], "width_m": 0.002, "paints": "wall"}
+    with pytest.raises(RequestError) as early:
+        session.check_shape(far)
+    with pytest.raises(RequestError) as late:
+        session.add_shape(far)
+    assert early.value.field == late.value.field == "shape.start_m"
+    assert early.value.message == late.value.message and "10 domain sizes" in early.value.message
+    with pytest.raises(RequestError) as bad:
+        session.check_shape({"kind": "circle", "centre_m": [0.1, 0.05], "radius_m": -1.0, "paints": "wall"})
+    assert bad.value.field == "shape.radius_m"
+    session.check_shape(WALL_DISC)  # a fine shape passes, and nothing changed
+    assert len(session.scenario.sketch.shapes) == 1 and session.revision == 0
