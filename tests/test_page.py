@@ -246,7 +246,10 @@ def test_frames_render_and_screenshot(page):
         }""")
     assert stats["colours"] > 40, stats
     assert stats["background"] < 0.05 * stats["samples"], stats
-    # the colour bar names the quantity and its unit
+    # the colour bar names the quantity and its unit; frames sent before the page's view request reached the
+    # server show the server's default view (named as such), so wait for the first frame of the page's view
+    page.wait_for_function("document.querySelector('#bar-caption').textContent.includes('pressure')",
+                           timeout=WAIT_MS)
     caption = page.inner_text("#bar-caption")
     assert "pressure" in caption and ("kPa" in caption or "bar" in caption), caption
     page.click("#ov-arrows")
