@@ -67,13 +67,14 @@ def _density_change(U, U0, kind, i_end):
     return change.sum(), total.sum()
 
 
-def live_residual(sim: Simulation) -> tuple[Optional[float], Optional[str]]:
+def live_residual(sim: Simulation, region: Optional["Region"] = None) -> tuple[Optional[float], Optional[str]]:
     """(residual figure, "settling" | "steady") of the last step, or (None, None) before a step. For the live
-    status: a single step's figure against DEFAULT_TOLERANCE, without the hold over a transit of SteadyMonitor."""
+    status: a single step's figure against DEFAULT_TOLERANCE, without the hold over a transit of SteadyMonitor.
+    `region` (e.g. `nozzle_region`) limits it as in a batch run; default the whole domain."""
     dt = getattr(sim, "last_dt_s", 0.0)
     if not (sim.fluxes_current and dt > 0.0):
         return None, None
-    r = density_residual_per_s(sim, dt) * transit_time_s(sim, present_only=False)
+    r = density_residual_per_s(sim, dt, region) * transit_time_s(sim, present_only=False, region=region)
     if not math.isfinite(r):
         return None, None
     return r, ("steady" if r < DEFAULT_TOLERANCE else "settling")

@@ -177,3 +177,19 @@ def test_nozzle_into_free_air_is_steady_when_its_interior_is(tmp_path):
     hist = export.read_history(tmp_path / "history.csv")
     res = hist["residual"][np.isfinite(hist["residual"])]
     assert res[-1] < 1e-3 and res.max() > 100 * res[-1]
+
+
+def test_nozzle_region_and_the_live_figure_over_it():
+    # The residual over a region counts only its cells: a disturbance downstream of the region leaves it at zero.
+    sim = Simulation(Setup(Domain(0.0, 1.0, 0.0, 0.25, 32), edges=Edges("wall", "wall", "wall", "wall")))
+    region = steady.nozzle_region(sim, 0.5, "exit")
+    assert region.columns == 16 and region.x_end_m == pytest.approx(0.5) and "'exit'" in region.label
+    x = sim.domain.x_centres_m()[None, :]
+    sim.set_primitive(1.0, 0.0, 0.0, np.where(x > 0.8, 2.0e5, 1.0e5))  # a pressure jump at x = 0.8 m
+    sim.step()
+    assert steady.live_residual(sim, region) == (0.0, "steady")
+    r, flow = steady.live_residual(sim)
+    assert flow == "settling" and r > 0.0
+    with pytest.raises(ValueError) as info:
+        steady.nozzle_region(sim, -1.0)
+    assert "x = -1.0" in str(info.value) and "upstream of every cell" in str(info.value)
