@@ -78,9 +78,11 @@ def test_bow_shock_on_a_cylinder_at_mach_3_is_steady_near_the_pitot_pressure():
     t_flow = 0.2 / (M * AIR.sound_speed_m_s(t1))
     stag = []
     for k in range(6):
-        sim.run_until(t_flow * (5.0 + 0.4 * k))
+        sim.run_until(t_flow * (6.0 + 0.4 * k))
         stag.append(np.max(np.where(gas, sim.primitive()[3], 0.0)) / pitot)
     stag = np.array(stag)
+    # Measured (15 cells per radius): 1.0038 to 0.9936 between 2 and 6 flow times, then 0.9941 to 0.9940.
+    # Limits measured alongside, not met by this test: at 24 cells per radius (160 across) 0.9963 +-0.15 % over
+    # 5 to 8 flow times; at 40 cells per radius it wanders by 2 to 3 %, with plain HLL as with this switch.
     assert np.ptp(stag) < 0.003  # steady to 0.3 %
-    # within 1.5 % of [R] on this staircase grid (0.988 at the first honest run; HLL reads 0.991 here)
-    assert stag.mean() == pytest.approx(1.0, abs=0.015)
+    assert stag.mean() == pytest.approx(1.0, abs=0.01)  # within 1 % of [R]

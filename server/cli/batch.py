@@ -99,8 +99,8 @@ def cmd_run(args: argparse.Namespace) -> int:
               f"with divergence factor), Isp {nozzle['specific_impulse_s']:.1f} s")
     st = summary["steady"]
     if steady:
-        print(f"residual {st['residual']} (tolerance {st['tolerance']:g}), station mass-flow imbalance "
-              f"{st['mass_imbalance']}")
+        print(f"residual {st['residual']} over {st['residual_over']} (tolerance {st['tolerance']:g}), station "
+              f"mass-flow imbalance {st['mass_imbalance']} ({', '.join(st['balanced_stations']) or 'no stations'})")
     return {"finished": EXIT_OK, "steady": EXIT_OK, "interrupted": EXIT_INTERRUPTED}.get(summary["status"], EXIT_FAILED)
 
 
