@@ -146,7 +146,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     is_nozzle = throat is not None and exit_ is not None and (sim.mask == 2).any()
     noz = nozzle.drawn_nozzle(s) if is_nozzle else None
     # a nozzle is steady when its interior is (a free plume never is): solver/steady.py
-    region = steady.nozzle_region(sim, 0.5 * (exit_.start_m[0] + exit_.end_m[0]), exit_.name) if is_nozzle else None
+    region = steady.steady_region(sim, s)
     balanced = ([i for i, st in enumerate(s.stations) if st.role in ("throat", "exit")] if is_nozzle
                 else list(range(len(stations))))
     monitor = steady.SteadyMonitor(sim, tolerance, mass_tolerance, region)

@@ -107,6 +107,17 @@ def nozzle_region(sim: Simulation, exit_x_m: float, exit_name: str = "exit") -> 
                   f"the nozzle interior (x up to {exit_x_m:.6g} m, the station '{exit_name}')")
 
 
+def steady_region(sim: Simulation, scenario) -> Optional[Region]:
+    """Where a scenario's steadiness is judged, for batch runs and the live status alike: a nozzle (a throat and
+    an exit station and a reservoir) by its interior, since its free plume never settles; anything else by the
+    whole domain (None)."""
+    from .scenario import station_by_role  # scenario imports the solver's modules; kept local to avoid a cycle
+    throat, exit_ = station_by_role(scenario, "throat"), station_by_role(scenario, "exit")
+    if throat is None or exit_ is None or not (sim.mask == int(CellKind.RESERVOIR)).any():
+        return None
+    return nozzle_region(sim, 0.5 * (exit_.start_m[0] + exit_.end_m[0]), exit_.name)
+
+
 def density_residual_per_s(sim: Simulation, dt_s: float, region: Optional[Region] = None) -> float:
     """The density residual of the step just taken (sim.step returned dt_s), in 1/s, over `region`
     (default: every gas cell).

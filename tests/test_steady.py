@@ -193,3 +193,24 @@ def test_nozzle_region_and_the_live_figure_over_it():
     with pytest.raises(ValueError) as info:
         steady.nozzle_region(sim, -1.0)
     assert "x = -1.0" in str(info.value) and "upstream of every cell" in str(info.value)
+
+
+def test_the_live_status_judges_a_nozzle_by_its_interior_as_a_batch_run_does():
+    # common practice, no source: a free jet's shear layer never settles, so a nozzle's steadiness is read
+    # upstream of its exit station (the same region in the live status and in `run --until steady`)
+    from shockslate.server import readings
+    from shockslate.solver.scenario import build_simulation, load_builtin
+    nozzle = load_builtin("nozzle_sea_level")
+    sim = build_simulation(nozzle, 80)
+    region = steady.steady_region(sim, nozzle)
+    exit_x = next(st for st in nozzle.stations if st.role == "exit").start_m[0]
+    assert region is not None and 0 < region.columns < sim.domain.nx
+    assert region.x_end_m == pytest.approx(sim.domain.x_min_m + region.columns * sim.domain.dx_m)
+    assert abs(region.x_end_m - exit_x) <= sim.domain.dx_m
+    for _ in range(5):
+        sim.step()
+    status = readings.status_figures(sim, nozzle, None, 0)
+    assert status["residual"] == pytest.approx(steady.live_residual(sim, region)[0], rel=1e-12)
+    assert status["residual"] != pytest.approx(steady.live_residual(sim)[0], rel=1e-3)  # not the whole domain
+    tube = load_builtin("shock_tube_reflection")
+    assert steady.steady_region(build_simulation(tube, 80), tube) is None  # no nozzle: the whole domain

@@ -90,7 +90,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     if summary["message"]:
         print(summary["message"], file=sys.stderr)
     nozzle = summary.get("nozzle")
-    if nozzle and summary["status"] != "finished":
+    if nozzle and summary["status"] not in ("finished", "steady"):
         print(f"nozzle figures are from an unfinished run (stopped at t = {summary['sim_time_s']:.6g} s of "
               f"{summary['end_time_s']:.6g} s); see summary.json", file=sys.stderr)
     elif nozzle:
