@@ -181,9 +181,9 @@ def test_exit_mach_thrust_coefficient_and_total_pressure_at_20_cells_per_throat_
     fluid = sim.mask[:, face - 1] == CellKind.FLUID
     mdot = rho[:, face - 1] * u[:, face - 1] * sim.x_face_areas_m2()[:, face] * fluid
     assert float(np.sum(mdot * pt[:, face - 1]) / np.sum(mdot)) >= 0.99 * P0
-    # cells next to the wall of the converging-diverging part. The goal is 0.97 p0; the first honest run gave
-    # minima of 0.959 (planar) and 0.966 (axisymmetric), at the arc-to-cone tangent point, 5th percentiles
-    # 0.966 / 0.969: this bound only guards against regressions.
+    # cells next to the wall of the converging-diverging part: the goal, 0.97 p0. Minima measured with the wall
+    # cells' least-squares reconstruction: 0.978 (planar, at the arc-to-cone tangent point) and 0.983
+    # (axisymmetric, near the exit); with the face kernels' mirror slopes alone they were 0.959 / 0.966.
     wall = sim.mask == CellKind.WALL
     near = np.zeros_like(wall)
     near[:, :-1] |= wall[:, 1:]
@@ -192,7 +192,7 @@ def test_exit_mach_thrust_coefficient_and_total_pressure_at_20_cells_per_throat_
     near[1:] |= wall[:-1]
     x = sim.domain.x_centres_m()[None, :] * np.ones(sim.domain.shape)
     near = (near | sim.geometry.cut) & (sim.mask == CellKind.FLUID) & (x > x_t - 0.018) & (x < x_s)
-    assert pt[near].min() >= 0.95 * P0
+    assert pt[near].min() >= 0.97 * P0
 
 
 # ----------------------------------------------------------------------------- shocks and strokes
