@@ -36,7 +36,7 @@ import numpy as np
 from numba import njit
 
 from .geometry import SMALL_GAS_FRACTION, WallGeometry
-from .kernels import FLUX_HLL, LIM_FIRST_ORDER, _riemann_flux
+from .kernels import FLUX_HLL, LIM_FIRST_ORDER, _riemann_flux, floored_primitive
 from .kinds import CellKind
 
 #: Groups are grown until their gas volume is at least this fraction of a full cell's.
@@ -385,7 +385,6 @@ def update_cut_cells(U, U0, W, Fx, Gy, a, b, dt, inv_dx, cj, ci, vol, al, ar, ab
     at its wall's centroid (offset ox, oy) with the band gradient `grad`.
     out = (largest wave rate / dx, floored cells, non-finite cells).
     """
-    gm1 = gamma - 1.0
     rate = 0.0
     floors = 0
     bad = 0
@@ -442,21 +441,9 @@ def update_cut_cells(U, U0, W, Fx, Gy, a, b, dt, inv_dx, cj, ci, vol, al, ar, ab
         if not finite:
             bad += 1
         else:
-            if n0 < rho_floor:
-                n0 = rho_floor
-                n1 = 0.0
-                n2 = 0.0
-                floors += 1
-            vx = n1 / n0
-            vy = n2 / n0
-            kin = 0.5 * n0 * (vx * vx + vy * vy)
-            p = gm1 * (n3 - kin)
-            if p < p_floor:
-                p = p_floor
-                n3 = p / gm1 + kin
-                floors += 1
-            c = math.sqrt(gamma * p / n0)
-            rate = max(rate, (abs(vx) + abs(vy) + 2.0 * c) * inv_dx)
+            n0, n1, n2, n3, vx, vy, p, speed, fl = floored_primitive(n0, n1, n2, n3, gamma, rho_floor, p_floor)
+            floors += fl
+            rate = max(rate, speed * inv_dx)
         for m in range(start[g], start[g + 1]):
             jj = cj[m] + 2
             ii = ci[m] + 2
