@@ -347,6 +347,32 @@ def shock_switch(W, kind, hll_x, hll_y, ratio):
                 hx[ii] = 1
 
 
+@njit(**_INLINE)
+def floored_primitive(n0, n1, n2, n3, gamma, rho_floor, p_floor):
+    """A new conserved state with density and pressure floored, its velocity and pressure, its wave
+    speed |u| + |v| + 2a (for the time step) and the number of floors applied (0 to 2).
+
+    One definition for the full cells (update_stage) and the cut cells (cut_cells.update_cut_cells).
+    """
+    gm1 = gamma - 1.0
+    floors = 0
+    if n0 < rho_floor:
+        n0 = rho_floor
+        n1 = 0.0
+        n2 = 0.0
+        floors += 1
+    vx = n1 / n0
+    vy = n2 / n0
+    kin = 0.5 * n0 * (vx * vx + vy * vy)
+    p = gm1 * (n3 - kin)
+    if p < p_floor:
+        p = p_floor
+        n3 = p / gm1 + kin
+        floors += 1
+    speed = abs(vx) + abs(vy) + 2.0 * math.sqrt(gamma * p / n0)
+    return n0, n1, n2, n3, vx, vy, p, speed, floors
+
+
 @njit(**_PARALLEL)
 def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus, source,
                  gamma, rho_floor, p_floor, row_rate, row_floors, row_bad):
@@ -363,7 +389,6 @@ def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus,
     """
     ny = Fx.shape[1]
     nx = Gy.shape[2]
-    gm1 = gamma - 1.0
     for j in prange(ny):
         jj = j + 2
         k = kind[jj]
@@ -417,19 +442,8 @@ def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus,
                 u2[ii] = n2
                 u3[ii] = n3
                 continue
-            if n0 < rho_floor:
-                n0 = rho_floor
-                n1 = 0.0
-                n2 = 0.0
-                floors += 1
-            vx = n1 / n0
-            vy = n2 / n0
-            kin = 0.5 * n0 * (vx * vx + vy * vy)
-            p = gm1 * (n3 - kin)
-            if p < p_floor:
-                p = p_floor
-                n3 = p / gm1 + kin
-                floors += 1
+            n0, n1, n2, n3, vx, vy, p, speed, fl = floored_primitive(n0, n1, n2, n3, gamma, rho_floor, p_floor)
+            floors += fl
             u0[ii] = n0
             u1[ii] = n1
             u2[ii] = n2
@@ -438,8 +452,7 @@ def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus,
             w1[ii] = vx
             w2[ii] = vy
             w3[ii] = p
-            c = math.sqrt(gamma * p / n0)
-            rate = max(rate, (abs(vx) + abs(vy) + 2.0 * c) * inv_dx)
+            rate = max(rate, speed * inv_dx)
         row_rate[j] = rate
         row_floors[j] = floors
         row_bad[j] = bad

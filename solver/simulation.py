@@ -487,15 +487,16 @@ class Simulation:
             kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
             kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
             kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
+            cc = self._cut_cells
+            cut_cells.reconstruct(cc, self.W, self.kind, self.Fx, self.Gy, self._hll_x, self._hll_y, gamma, lim, flux)
             # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
             u0 = self.U0 if a != 0.0 else self.U
             kernels.update_stage(self.U, u0, self.W, self.Fx, self.Gy, self.kind, self._cut, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
                                  self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
-            cc = self._cut_cells
             cut_cells.update_cut_cells(self.U, u0, self.W, self.Fx, self.Gy, a, b, dt, inv_dx, cc.j, cc.i, cc.volume,
                                        cc.area_left, cc.area_right, cc.area_bottom, cc.area_top, cc.area_2d,
-                                       cc.wall_x, cc.wall_y, cc.start, gamma,
+                                       cc.wall_x, cc.wall_y, cc.start, cc.wall_ox, cc.wall_oy, cc.band, cc.grad, gamma,
                                        self._rho_floor, self._p_floor, self._cut_out)
             self._fill_edges()
             floors += int(self._row_floors.sum()) + int(self._cut_out[1])

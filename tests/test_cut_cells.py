@@ -15,7 +15,7 @@ import math
 import numpy as np
 import pytest
 
-from shockslate.solver import relations
+from shockslate.solver import cut_cells, relations
 from shockslate.solver.conditions import Ambient, Conditions, Reservoir, Stream, held_primitive
 from shockslate.solver.diagnostics import Station, read_station, totals
 from shockslate.solver.domain import Domain
@@ -75,6 +75,85 @@ def test_closed_box_with_a_blast_conserves_mass_and_energy(mode):
     assert after.mass_kg == pytest.approx(before.mass_kg, rel=1e-12)
     assert after.energy_j == pytest.approx(before.energy_j, rel=1e-12)
     assert sim.floors_total == 0
+
+
+# ----------------------------------------------------------------------------- wall reconstruction
+
+def _tilted_half_plane(angle_deg: float, nx: int = 40):
+    """A straight wall through (0.5, 0.23) at angle_deg to the x axis, wall below it; its sketch and domain."""
+    dom = Domain(0.0, 1.0, 0.0, 0.5, nx)
+    t = math.tan(math.radians(angle_deg))
+    x0, y0 = 0.5, 0.23
+    line = lambda x: y0 + (x - x0) * t  # noqa: E731
+    wall = Polygon(((-0.1, line(-0.1)), (1.1, line(1.1)), (1.1, -0.5), (-0.1, -0.5)), "wall")
+    return Sketch((wall,)), dom, line
+
+
+@pytest.mark.parametrize("angle", [11.0, 37.0, 63.0])
+def test_the_wall_pressure_is_read_at_the_drawn_walls_centroid(angle):
+    # exact geometry: the centroid of the straight segment a line cuts from a square (no source needed)
+    sketch, dom, line = _tilted_half_plane(angle)
+    geo = wall_geometry(sketch, dom)
+    cc, _ = cut_cells.build(geo, "planar")
+    t = math.tan(math.radians(angle))
+    errors = []
+    for m in range(cc.j.size):
+        j, i = int(cc.j[m]), int(cc.i[m])
+        if geo.gas[j, i] >= 1.0 or cc.wall_x[m] == 0.0 and cc.wall_y[m] == 0.0:
+            continue
+        # the segment of the line inside cell (j, i), in cells from the cell's lower-left corner
+        xs = []
+        for x in np.linspace(0.0, 1.0, 4001):
+            y = (line(dom.x_min_m + (i + x) * dom.dx_m) - dom.y_min_m) / dom.dx_m - j
+            if 0.0 <= y <= 1.0:
+                xs.append(x)
+        if len(xs) < 400:  # a corner barely touched: its centroid is ill-defined, skip it
+            continue
+        xm = 0.5 * (xs[0] + xs[-1])
+        ym = (line(dom.x_min_m + (i + xm) * dom.dx_m) - dom.y_min_m) / dom.dx_m - j
+        errors.append(max(abs(cc.wall_ox[m] + 0.5 - xm), abs(cc.wall_oy[m] + 0.5 - ym)))
+    assert len(errors) > 10
+    assert max(errors) < 0.05, f"wall centroid off by {max(errors):.3f} cells"  # sampling: 1/256 of a cell's area
+
+
+@pytest.mark.parametrize("angle", [11.0, 37.0])
+def test_band_gradients_are_exact_for_a_linear_field_beside_a_sloped_wall(angle):
+    # a least-squares gradient reproduces linear data exactly, and the Barth-Jespersen limiter leaves it alone
+    # where the four face-centre values lie between the 3 x 3 gas neighbours'; elsewhere it only scales it
+    # down (common practice, no source)
+    sketch, dom, _ = _tilted_half_plane(angle)
+    geo = wall_geometry(sketch, dom)
+    sim = Simulation(Setup(domain=dom), geo.mask, geo)
+    x, y = np.meshgrid(dom.x_centres_m(), dom.y_centres_m())
+    slopes = ((0.3, -0.2), (5.0, 2.0), (-3.0, 1.0), (1.0e4, -2.0e4))  # per metre, of rho, u, v, p
+    base = (1.2, 10.0, 4.0, 1.0e5)
+    fields = [b + sx * x + sy * y for b, (sx, sy) in zip(base, slopes)]
+    sim.set_primitive(*fields)
+    cc = sim._cut_cells
+    cut_cells.band_gradients(sim.W, sim.kind, cc.band_j, cc.band_i, cc.grad)
+    dx = dom.dx_m
+    fluid = np.pad(sim.mask == CellKind.FLUID, 1)
+    walled = np.zeros(cc.band_j.size, bool)
+    walled[cc.band[(cc.wall_x != 0.0) | (cc.wall_y != 0.0)]] = True
+    for c, (sx, sy) in enumerate(slopes):
+        gx, gy = sx * dx, sy * dx
+        exact_here = []
+        for n, (j, i) in enumerate(zip(cc.band_j, cc.band_i)):
+            block = fluid[j:j + 3, i:i + 3]
+            offs = [(dj, di) for dj in (-1, 0, 1) for di in (-1, 0, 1) if block[dj + 1, di + 1]]
+            lo = min(min(di * gx + dj * gy for dj, di in offs), 0.0)
+            hi = max(max(di * gx + dj * gy for dj, di in offs), 0.0)
+            inside = all(lo - 1e-12 <= 0.5 * (di * gx + dj * gy) <= hi + 1e-12
+                         for dj, di in ((0, 1), (0, -1), (1, 0), (-1, 0)))
+            got = (cc.grad[c, n], cc.grad[4 + c, n])
+            if inside:
+                assert got == pytest.approx((gx, gy), rel=1e-9, abs=1e-12 * abs(base[c]))
+                exact_here.append(walled[n])
+            else:  # limited: the same direction, never longer
+                ratio = (got[0] * gx + got[1] * gy) / (gx * gx + gy * gy)
+                assert -1e-12 <= ratio <= 1.0 + 1e-12
+                assert abs(got[0] * gy - got[1] * gx) <= 1e-9 * (gx * gx + gy * gy)
+        assert sum(exact_here) >= 5, f"component {c}: only {sum(exact_here)} cells beside the wall kept their slope"
 
 
 # ----------------------------------------------------------------------------- nozzles
@@ -181,9 +260,9 @@ def test_exit_mach_thrust_coefficient_and_total_pressure_at_20_cells_per_throat_
     fluid = sim.mask[:, face - 1] == CellKind.FLUID
     mdot = rho[:, face - 1] * u[:, face - 1] * sim.x_face_areas_m2()[:, face] * fluid
     assert float(np.sum(mdot * pt[:, face - 1]) / np.sum(mdot)) >= 0.99 * P0
-    # cells next to the wall of the converging-diverging part. The goal is 0.97 p0; the first honest run gave
-    # minima of 0.959 (planar) and 0.966 (axisymmetric), at the arc-to-cone tangent point, 5th percentiles
-    # 0.966 / 0.969: this bound only guards against regressions.
+    # cells next to the wall of the converging-diverging part: the goal, 0.97 p0. Minima measured with the wall
+    # cells' least-squares reconstruction: 0.978 (planar, at the arc-to-cone tangent point) and 0.983
+    # (axisymmetric, near the exit); with the face kernels' mirror slopes alone they were 0.959 / 0.966.
     wall = sim.mask == CellKind.WALL
     near = np.zeros_like(wall)
     near[:, :-1] |= wall[:, 1:]
@@ -192,7 +271,7 @@ def test_exit_mach_thrust_coefficient_and_total_pressure_at_20_cells_per_throat_
     near[1:] |= wall[:-1]
     x = sim.domain.x_centres_m()[None, :] * np.ones(sim.domain.shape)
     near = (near | sim.geometry.cut) & (sim.mask == CellKind.FLUID) & (x > x_t - 0.018) & (x < x_s)
-    assert pt[near].min() >= 0.95 * P0
+    assert pt[near].min() >= 0.97 * P0
 
 
 # ----------------------------------------------------------------------------- shocks and strokes
