@@ -56,7 +56,8 @@ def test_a_uniform_stream_along_the_axis_stays_uniform():
     # the axis; measured: |v| below 1e-12 of the sound speed after 60 steps.
     a1 = AIR.sound_speed_m_s(T1)
     dom = Domain(0.0, 0.1, 0.0, 0.05, 40)
-    sim = Simulation(Setup(dom, mode="axisymmetric", edges=Edges(left="stream", right="open", bottom="axis", top="open"),
+    edges = Edges(left="stream", right="open", bottom="axis", top="open")
+    sim = Simulation(Setup(dom, mode="axisymmetric", edges=edges,
                            conditions=Conditions(stream=Stream(mach=2.0, p_pa=P1, t_k=T1))))
     rho1 = AIR.density_kg_m3(P1, T1)
     sim.set_primitive(rho1, 2.0 * a1, 0.0, P1)
@@ -119,7 +120,8 @@ def _sphere(cells_per_radius: int, cut: bool, flow_times: tuple[float, ...]) -> 
     sketch = Sketch((Circle((0.14, 0.0), radius, "wall"),))
     geo = wall_geometry(sketch, dom) if cut else None
     mask = geo.mask if cut else rasterise(sketch, dom)
-    sim = Simulation(Setup(dom, mode="axisymmetric", edges=Edges(left="stream", right="open", bottom="axis", top="open"),
+    edges = Edges(left="stream", right="open", bottom="axis", top="open")
+    sim = Simulation(Setup(dom, mode="axisymmetric", edges=edges,
                            conditions=Conditions(stream=Stream(mach=m, p_pa=P1, t_k=T1))), mask, geometry=geo)
     a1 = AIR.sound_speed_m_s(T1)
     sim.set_primitive(AIR.density_kg_m3(P1, T1), m * a1, 0.0, P1)
