@@ -222,6 +222,7 @@ class Runner:
         status = {"type": "status", "state": s.state.value, "revision": s.revision,
                   "steps_per_s": self.steps_per_s, "cell_updates_per_s": self.cell_updates_per_s,
                   "nx": sim.domain.nx, "ny": sim.domain.ny, "undo_depth": s.undo_depth, "redo_depth": s.redo_depth}
+        status["settle"] = s.settle  # settle mode: the page says the flow shown is no time history
         status.update(readings.status_figures(sim, s.scenario, nozzle, floors))
         if s.divergence is not None:
             status["warnings"].insert(0, "the run diverged and was paused: " + s.divergence.message)
