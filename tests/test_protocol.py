@@ -461,7 +461,7 @@ def test_every_message_type_of_the_protocol_has_a_model():
                   "set_conditions", "set_numerics", "set_resolution", "set_domain", "set_edges", "set_mode", "run",
                   "pause", "reset_flow", "step", "add_station", "remove_station", "add_probe", "remove_probe",
                   "set_view", "inspect", "profile", "save_scenario", "load_scenario", "list_scenarios", "export",
-                  "clear_all", "set_initial", "delete_scenario", "list_exports", "delete_export"}
+                  "clear_all", "set_initial", "delete_scenario", "list_exports", "delete_export", "settle"}
     assert set(protocol.MESSAGE_TYPES) == documented
     text = (protocol.__file__.rsplit("/", 1)[0] + "/PROTOCOL.md")
     with open(text, encoding="utf-8") as f:

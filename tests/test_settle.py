@@ -279,3 +279,55 @@ def test_settle_message_is_validated():
     assert info.value.field == "on"
     with pytest.raises(RequestError):
         protocol.parse_message({"type": "settle"})
+
+
+def test_settle_intent_through_a_real_websocket(tmp_path):
+    # the server in-process (Starlette's TestClient, as tests/test_protocol.py), paused on the test duct
+    from starlette.testclient import TestClient
+
+    from shockslate.server.app import ServerConfig, create_app
+
+    config = ServerConfig(data_dir=tmp_path / "data", scenario=parse_scenario(duct_doc(48)), start_running=False,
+                          warm=False)
+
+    def reply(sock, rid):
+        for _ in range(80):
+            msg = sock.receive()
+            if msg.get("text") is not None:
+                data = json.loads(msg["text"])
+                if data.get("id") == rid:
+                    return data
+        raise AssertionError(f"no reply to {rid}")
+
+    with TestClient(create_app(config), base_url="http://127.0.0.1:8765") as client:
+        with client.websocket_connect("ws://127.0.0.1:8765/ws") as ws:
+            assert ws.receive_json()["type"] == "hello"
+            ws.send_json({"type": "settle", "on": True, "id": "a"})
+            status = reply(ws, "a")
+            assert status["type"] == "status" and status["settle"] is True
+            ws.send_json({"type": "step", "count": 3, "id": "b"})
+            status = reply(ws, "b")
+            assert status["steps"] == 3 and status["settle"] is True
+            ws.send_json({"type": "settle", "on": "yes", "id": "c"})
+            err = reply(ws, "c")
+            assert err["type"] == "error" and err["field"] == "on"
+            ws.send_json({"type": "settle", "on": False, "id": "d"})
+            assert reply(ws, "d")["settle"] is False
+
+
+# ----------------------------------------------------------------------------- the page's settle control
+
+from test_page import browser, page, server_url  # noqa: E402,F401  (the page tests' real server and Chromium)
+
+
+def test_page_settle_control_says_the_view_is_no_time_history(page):
+    notice = page.locator("#settle-notice")
+    assert notice.is_hidden()
+    page.click("#settle-mode")
+    page.wait_for_function("window.shockslate.status && window.shockslate.status.settle === true", timeout=60_000)
+    notice.wait_for(state="visible", timeout=60_000)
+    text = notice.inner_text()
+    assert "end state" in text and "not the true time history" in text and "pseudo time" in text
+    page.click("#settle-mode")  # off again: time-accurate steps, the notice goes
+    page.wait_for_function("window.shockslate.status && window.shockslate.status.settle === false", timeout=60_000)
+    notice.wait_for(state="hidden", timeout=60_000)
