@@ -191,15 +191,18 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     next_snapshot = every
     start = time.perf_counter()
     last_report = start
-    stepper, settle_info = None, None
-    if settle_mode:
-        stepper = settle.LocalStepper(sim)
-        settle_info = {"notice": settle.NOTICE, "coarse_levels": [asdict(lv) for lv in settle.settle_coarse(
-            lambda n: build_simulation(s, n), sim, x_max_m=settle.interior_end_m(exit_))]}
+    stepper = settle.LocalStepper(sim) if settle_mode else None
+    settle_info = {"notice": settle.NOTICE, "coarse_levels": []} if settle_mode else None
     sample()
     snapshot()
     stop = _StopFlag()
     try:
+        if settle_info is not None:  # grid sequencing: the coarse grids first, their flow carried over to sim
+            levels = settle.settle_coarse(lambda n: build_simulation(s, n), sim, x_max_m=settle.interior_end_m(exit_),
+                                          stop=lambda: stop.raised)
+            settle_info["coarse_levels"] = [asdict(lv) for lv in levels]
+            if stop.raised:
+                raise KeyboardInterrupt
         while sim.time_s < until * (1.0 - 1e-12) and (steps is None or sim.steps < steps):
             if stop.raised:
                 raise KeyboardInterrupt

@@ -66,14 +66,20 @@ class LocalStepper:
     """
 
     def __init__(self, sim: Simulation, cfl: Optional[float] = None):
+        """cfl: the Courant number of the local steps; None follows the scenario's (settle_cfl), also when it
+        changes while the stepper is in use."""
         self.sim = sim
-        self.cfl = float(settle_cfl(sim.setup.numerics.cfl) if cfl is None else cfl)
-        if not (0.0 < self.cfl <= CFL_MAX):
+        if cfl is not None and not (0.0 < cfl <= CFL_MAX):
             raise ValueError(f"cfl = {cfl!r} is outside the allowed range 0 to {CFL_MAX:g} for settle mode")
+        self._cfl = None if cfl is None else float(cfl)
         self.dt = np.zeros(sim.kind.shape)
         self._cut_of: object = None
         #: the residual figure's rate sum of the last step: sum over gas cells of |d rho| / dt (kg/m^3/s)
         self.rate_sum = math.nan
+
+    @property
+    def cfl(self) -> float:
+        return settle_cfl(self.sim.setup.numerics.cfl) if self._cfl is None else self._cfl
 
     def step(self) -> float:
         """One local-time step; returns the pseudo-time increment (s). Raises SolverDiverged like sim.step."""

@@ -260,6 +260,9 @@ def test_session_settle_mode_steps_with_local_steps_and_back():
     session.step(5)
     assert session.settle and session._stepper is not None and session._stepper.sim is session.sim
     assert session.sim.steps == 10
+    assert session._stepper.cfl == pytest.approx(2.0 * 0.4)  # twice the scenario's Courant number
+    session.set_numerics(cfl=0.3)
+    assert session._stepper.cfl == pytest.approx(0.6)  # follows a live change
     session.reset_flow()  # a new flow: the next settle step follows it
     session.step(1)
     assert session._stepper.sim is session.sim
