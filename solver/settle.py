@@ -228,6 +228,19 @@ def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: 
     """Grid sequencing before the fine grid: settle on the coarser grids `build(nx)` makes, coarsest first,
     each handing its flow to the next, and the last to `fine`. A level is judged by its residual figure over
     the columns left of x_max_m. Returns what each coarse level did."""
+    steps = settle_coarse_steps(build, fine, levels, cfl, tolerance, x_max_m, max_steps, stop)
+    while True:
+        try:
+            next(steps)
+        except StopIteration as end:
+            return end.value
+
+
+def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+                        cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
+                        max_steps: int = COARSE_MAX_STEPS, stop: Callable[[], bool] = lambda: False):
+    """settle_coarse one step at a time: a generator that yields after every coarse step and returns the list of
+    CoarseLevel (so a caller can interleave it with other work, as the benchmark does)."""
     sizes = coarse_nx(fine.domain.nx, levels)[:-1]
     done: list[CoarseLevel] = []
     prev: Optional[Simulation] = None
@@ -235,7 +248,8 @@ def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: 
         sim = build(nx)
         if prev is not None:
             prolong(prev, sim)
-        done.append(_settle_level(sim, cfl, tolerance, x_max_m, max_steps, stop))
+        level = yield from _settle_level(sim, cfl, tolerance, x_max_m, max_steps, stop)
+        done.append(level)
         prev = sim
     if prev is not None:
         prolong(prev, fine)
@@ -243,7 +257,8 @@ def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: 
 
 
 def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_steps: int,
-                  stop: Callable[[], bool]) -> CoarseLevel:
+                  stop: Callable[[], bool]):
+    """Settle one coarse level, yielding after every step; returns its CoarseLevel."""
     stepper = LocalStepper(sim, cfl)
     region = RegionResidual(sim, x_max_m)
     window_s = STALL_TRANSITS * region.transit_s
@@ -264,6 +279,7 @@ def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_st
                 reason = "stalled"
                 break
             best_prev, best_now, window_end = best_now, math.inf, sim.time_s + window_s
+        yield
     return CoarseLevel(sim.domain.nx, sim.steps, region.figure, reason)
 
 
