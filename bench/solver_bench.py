@@ -1,5 +1,8 @@
 """`shockslate bench`: solver speed, start-up time and memory, beside a plain NumPy baseline.
 
+Settle mode (solver/settle.py) is timed against time-accurate stepping to the same steady criterion on
+nozzle_sea_level at its own resolution (`settle_speedup`, measure_settle).
+
 Speed is cell updates per second (one full time step of one cell = one update), the median of
 several timed bursts on a developed flow (a blast in a closed box of walls; planar, HLLC,
 MUSCL van Leer, SSP-RK2, CFL 0.4). Beside it, in the same process and run so that ratios are fair on a
@@ -27,7 +30,17 @@ GOALS = {
     "warm_start_s": 2.0,
     "bytes_per_cell_2048x1024": 300.0,
     "product_over_bare_2_threads_512x256": 0.85,
+    "settle_speedup": 5.0,
 }
+#: Settle mode against time-accurate stepping: the scenario, and the steady criterion both runs are held to
+#: (settle.SettleCheck: residual figure inside the nozzle, up to its exit station, below the tolerance for 50
+#: steps and throat and exit mass flows within 0.5 %; the free jet beyond the exit never settles).
+SETTLE_SCENARIO = "nozzle_sea_level"
+SETTLE_TOLERANCE = 1.0e-2
+SETTLE_MASS_TOLERANCE = 0.005
+#: The time-accurate run stops at this multiple of the settle run's wall time if it has not settled by then:
+#: the speedup is then at least the cap (reported as capped), and the benchmark ends in bounded time.
+SETTLE_CAP = 8.0
 
 
 def _baseline_module():
@@ -169,7 +182,99 @@ def measure_memory(nx: int, ny: int) -> tuple[float, float]:
     return arrays / (nx * ny), grown / (nx * ny)
 
 
-def run_benchmark(repeats: int = 5, grids=GRIDS) -> dict:
+#: Wall time of one burst of each run when settle mode and time-accurate stepping alternate.
+SETTLE_BURST_S = 0.5
+
+
+def _settle_run(s, nx, x_max: float, check):
+    """Settle mode to the criterion, a step at a time (a generator): grid sequencing, then local time steps.
+    Returns (the simulation, its coarse levels, settled)."""
+    from shockslate.solver import settle
+    from shockslate.solver.scenario import build_simulation
+
+    fast = build_simulation(s, nx)
+    levels = yield from settle.settle_coarse_steps(lambda n: build_simulation(s, n), fast, x_max_m=x_max)
+    stepper, chk = settle.LocalStepper(fast), check(fast)
+    while True:
+        stepper.step()
+        if chk.after_step(stepper.dt):
+            return fast, levels, True
+        yield
+
+
+def _plain_run(sim, chk):
+    """Time-accurate steps to the criterion, a step at a time (a generator); returns True once steady."""
+    while True:
+        if chk.after_step(sim.step()):
+            return True
+        yield
+
+
+def measure_settle(scenario=SETTLE_SCENARIO, nx: int | None = None, tolerance: float = SETTLE_TOLERANCE,
+                   cap: float = SETTLE_CAP) -> dict:
+    """Wall time to the same steady criterion by settle mode (grid sequencing, then local time steps) and by
+    time-accurate stepping, one run each, in alternating bursts of SETTLE_BURST_S in this process so that the
+    load of a shared machine hits both alike; and the station figures both end with. The settle run's wall time
+    includes its coarse grid."""
+    from shockslate.solver import settle
+    from shockslate.solver.batch import resolve_scenario
+    from shockslate.solver.diagnostics import read_station
+    from shockslate.solver.scenario import build_simulation, station_by_role, to_stations
+
+    s = resolve_scenario(scenario)
+    throat, exit_ = station_by_role(s, "throat"), station_by_role(s, "exit")
+    stations = [throat, exit_] if throat is not None and exit_ is not None else to_stations(s)
+    x_max = settle.interior_end_m(exit_)
+    small = build_simulation(s, settle.MIN_COARSE_NX)  # load the kernels before the clock starts
+    settle.LocalStepper(small).step()
+    small.step()
+
+    def check(sim):
+        return settle.SettleCheck(sim, stations, x_max_m=x_max, tolerance=tolerance,
+                                  mass_tolerance=SETTLE_MASS_TOLERANCE)
+
+    plain = build_simulation(s, nx)
+    runs = {"settle": _settle_run(s, nx, x_max, check), "time_accurate": _plain_run(plain, check(plain))}
+    wall = {name: 0.0 for name in runs}
+    ended: dict = {}
+    while len(ended) < len(runs):
+        for name, run in runs.items():
+            if name in ended:
+                continue
+            if name == "time_accurate" and "settle" in ended and wall[name] > cap * wall["settle"]:
+                ended[name] = False  # stopped unsettled: the speedup is at least the cap
+                continue
+            t = time.perf_counter()
+            try:
+                while time.perf_counter() - t < SETTLE_BURST_S:
+                    next(run)
+            except StopIteration as end:
+                ended[name] = end.value
+            wall[name] += time.perf_counter() - t
+    fast, levels, settled = ended["settle"]
+    plain_settled = ended["time_accurate"]
+
+    def figures(q: str) -> dict:
+        a = [getattr(read_station(plain, st), q) for st in stations]
+        b = [getattr(read_station(fast, st), q) for st in stations]
+        return {"stations": [st.name for st in stations], "time_accurate": a, "settle": b,
+                "largest_difference_fraction": max(abs(y - x) / abs(x) for x, y in zip(a, b))}
+
+    return {
+        "scenario": s.name, "nx": fast.domain.nx, "ny": fast.domain.ny,
+        "criterion": f"residual figure up to x = {x_max:g} m below {tolerance:g} for {check(fast).hold} steps, "
+                     f"station mass flows within {SETTLE_MASS_TOLERANCE:g}",
+        "timing": f"one run each, alternating bursts of {SETTLE_BURST_S:g} s",
+        "settle_wall_s": wall["settle"], "settle_settled": settled,
+        "settle_steps": fast.steps, "coarse_levels": [vars(lv) for lv in levels],
+        "time_accurate_wall_s": wall["time_accurate"], "time_accurate_settled": plain_settled,
+        "time_accurate_steps": plain.steps, "time_accurate_sim_time_s": plain.time_s,
+        "settle_speedup": wall["time_accurate"] / wall["settle"], "capped": not plain_settled, "cap": cap,
+        "mass_flow_kg_s": figures("mass_flow_kg_s"), "thrust_n": figures("thrust_n"),
+    }
+
+
+def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None) -> dict:
     import numba
 
     all_threads = numba.config.NUMBA_NUM_THREADS
@@ -186,6 +291,7 @@ def run_benchmark(repeats: int = 5, grids=GRIDS) -> dict:
     numba.set_num_threads(all_threads)
     array_bytes, rss_bytes = measure_memory(2048, 1024)
     key = next((g for g in results if (g["nx"], g["ny"], g["threads"]) == (512, 256, all_threads)), results[-1])
+    settled = measure_settle(nx=settle_nx)
     return {
         "scheme": "planar, closed box of walls, HLLC, MUSCL van Leer, SSP-RK2, CFL 0.4",
         "bare_cell_updates_per_s": key["bare_cell_updates_per_s"],
@@ -198,6 +304,8 @@ def run_benchmark(repeats: int = 5, grids=GRIDS) -> dict:
         "walls": {"grid": f"512x256, {all_threads} threads", "sketch": "rotated square, disc, sloped stroke",
                   "plain_cell_updates_per_s": plain, "walls_cell_updates_per_s": walled,
                   "walls_over_plain": walled / plain},
+        "settle_speedup": settled["settle_speedup"],
+        "settle": settled,
         "warm_start_s": measure_warm_start(),
         "bytes_per_cell_2048x1024": array_bytes,
         "rss_growth_bytes_per_cell_2048x1024": rss_bytes,
@@ -217,14 +325,36 @@ def _print_table(report: dict) -> None:
     w = report["walls"]
     print(f"drawn walls ({w['sketch']}) at {w['grid']}: {w['walls_cell_updates_per_s'] / 1e6:.1f} against "
           f"{w['plain_cell_updates_per_s'] / 1e6:.1f} Mcell-updates/s without, ratio {w['walls_over_plain']:.2f}")
+    st = report["settle"]
+    print(f"settle mode on {st['scenario']} at {st['nx']}x{st['ny']}: {st['settle_wall_s']:.1f} s to steady against "
+          f"{st['time_accurate_wall_s']:.1f} s time-accurate, speedup {st['settle_speedup']:.1f}"
+          f"{' (at least: the time-accurate run was stopped unsettled)' if st['capped'] else ''}; mass flow and "
+          f"thrust differ by at most {100 * st['mass_flow_kg_s']['largest_difference_fraction']:.2f} % and "
+          f"{100 * st['thrust_n']['largest_difference_fraction']:.2f} %")
     print(f"warm start to first step: {report['warm_start_s']:.2f} s")
     print(f"memory at 2048x1024: {report['bytes_per_cell_2048x1024']:.0f} bytes/cell in arrays, "
           f"{report['rss_growth_bytes_per_cell_2048x1024']:.0f} bytes/cell resident growth")
 
 
 def main(args: argparse.Namespace) -> int:
+    if args.settle_only:
+        import numba
+
+        fig = measure_settle()
+        fig["threads"] = numba.get_num_threads()
+        print(json.dumps({"settle_speedup": fig["settle_speedup"], "settle": fig}, indent=2) if args.json else
+              f"settle mode on {fig['scenario']} at {fig['nx']}x{fig['ny']}: {fig['settle_wall_s']:.1f} s to steady "
+              f"against {fig['time_accurate_wall_s']:.1f} s time-accurate, speedup {fig['settle_speedup']:.1f}"
+              f"{' (at least: the time-accurate run was stopped unsettled)' if fig['capped'] else ''}")
+        return 0
     grids = GRIDS[:2] if args.quick else GRIDS
-    report = run_benchmark(repeats=args.repeats, grids=grids)
+    # --quick: settle mode on the scenario at half its resolution
+    settle_nx = None
+    if args.quick:
+        from shockslate.solver.scenario import load_builtin
+
+        settle_nx = load_builtin(SETTLE_SCENARIO).domain.nx // 2
+    report = run_benchmark(repeats=args.repeats, grids=grids, settle_nx=settle_nx)
     if args.json:
         print(json.dumps(report, indent=2))
     else:
@@ -237,6 +367,8 @@ def add_bench_command(subparsers) -> argparse.ArgumentParser:
     p = subparsers.add_parser("bench", help="measure solver speed, start-up time and memory")
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.add_argument("--repeats", type=int, default=5, help="timed bursts per figure (median is reported)")
-    p.add_argument("--quick", action="store_true", help="only the two smaller grids")
+    p.add_argument("--quick", action="store_true", help="only the two smaller grids (settle mode at half resolution)")
+    p.add_argument("--settle-only", action="store_true",
+                   help=f"only settle mode against time-accurate stepping on {SETTLE_SCENARIO} (settle_speedup)")
     p.set_defaults(handler=main)
     return p

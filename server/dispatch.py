@@ -95,6 +95,7 @@ class Dispatcher:
             "pause": lambda c, m: self._control(c, m, self.session.pause),
             "reset_flow": lambda c, m: self._control(c, m, self.session.reset_flow),
             "step": self._step,
+            "settle": lambda c, m: self._control(c, m, lambda: self.session.set_settle(m.on)),
             "add_station": lambda c, m: self._change(c, m, self.session.add_station, m.name, m.start_m, m.end_m,
                                                      m.role),
             "remove_station": lambda c, m: self._change(c, m, self.session.remove_station, m.name),

@@ -211,6 +211,12 @@ class Step(_Message):
     count: int = Field(1, ge=1, le=MAX_STEP_COUNT, description=f"an integer from 1 to {MAX_STEP_COUNT}")
 
 
+class Settle(_Message):
+    """Settle mode on or off: local time steps reach the steady end state sooner; no time history."""
+    type: Literal["settle"]
+    on: bool
+
+
 # ----------------------------------------------------------------------------- measuring
 
 class AddStation(_Message):
@@ -448,7 +454,7 @@ class WaveHistoryRequest(_Message):
 
 ClientMessage = Annotated[
     Union[AddShape, RemoveShape, Undo, Redo, ClearSketch, ClearAll, SetMirror, SetGas, SetConditions, SetNumerics,
-          SetResolution, SetDomain, SetEdges, SetMode, SetInitial, Run, Pause, ResetFlow, Step, AddStation,
+          SetResolution, SetDomain, SetEdges, SetMode, SetInitial, Run, Pause, ResetFlow, Step, Settle, AddStation,
           RemoveStation, AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios,
           DeleteScenario, Export, ListExports, DeleteExport, BuildNozzle, PropellantGas,
           ListFrames, RecallFrame, SetWaveLine,

@@ -297,6 +297,7 @@ class Runner:
         status = {"type": "status", "state": s.state.value, "revision": s.revision,
                   "steps_per_s": self.steps_per_s, "cell_updates_per_s": self.cell_updates_per_s,
                   "nx": sim.domain.nx, "ny": sim.domain.ny, "undo_depth": s.undo_depth, "redo_depth": s.redo_depth}
+        status["settle"] = s.settle  # settle mode: the page says the flow shown is no time history
         status.update(readings.status_figures(sim, s.scenario, nozzle, floors))
         status.update(engine.engine_status(sim, s.scenario, nozzle))  # engine figures, separation marks
         if self.comparison is not None:  # where the comparison run is (its time, how far behind, any trouble)

@@ -32,6 +32,7 @@ from shockslate.solver.kinds import HELD_KINDS, CellKind
 from shockslate.solver.gas import PRESETS, Gas
 from shockslate.solver.geometry import SampledWalls, resample_walls, sample_walls
 from shockslate.solver.shapes import Sketch, shape_from_dict
+from shockslate.solver.settle import LocalStepper
 from shockslate.solver.simulation import Simulation
 from shockslate.solver.validation import Refused
 
@@ -215,6 +216,10 @@ class Session:
         self._walls: SampledWalls | None = None  # the flow's wall geometry with its samples, once a change made it
         self._shapes: tuple[list, tuple] = ([], ())  # the shape models of the last sketch built, and its shapes
         self._before_unsaved: tuple | None = None  # what the last unsaved_change replaced, until it is saved
+        #: settle mode: every cell takes its own time step (solver/settle.py); the flow on the way to the
+        #: steady state is no time history, so the page says so while it is on
+        self.settle = False
+        self._stepper: LocalStepper | None = None
         self._set_origin(scenario)
 
     # ------------------------------------------------------------------ what was loaded, what is edited
@@ -276,6 +281,21 @@ class Session:
     def running(self) -> bool:
         return self.state is RUNNING
 
+    def set_settle(self, on: bool) -> None:
+        """Settle mode on (local time steps: the steady end state sooner, no time history) or off (time-accurate
+        steps again, from the flow as it is)."""
+        if not isinstance(on, bool):
+            raise RequestError("on", on, "true or false", rule="type")
+        self.settle = on
+
+    def _one_step(self) -> float:
+        """One step of the current flow: time-accurate, or a local-time step in settle mode."""
+        if not self.settle:
+            return self.sim.step()
+        if self._stepper is None or self._stepper.sim is not self.sim:  # a new flow since the last step
+            self._stepper = LocalStepper(self.sim)
+        return self._stepper.step()
+
     # ------------------------------------------------------------------ stepping
     def step(self, count: int = 1, max_wall_s: float = math.inf) -> Advanced:
         """Advance `count` steps while paused (or after a divergence); stops early on divergence, and after
@@ -288,7 +308,7 @@ class Session:
         done = 0
         for _ in range(count):
             try:
-                if self.sim.step() <= 0.0:
+                if self._one_step() <= 0.0:
                     break
             except SolverDiverged as err:
                 return self._diverged(err, done, start)
@@ -307,7 +327,7 @@ class Session:
         done = 0
         while done < max_steps:
             try:
-                if self.sim.step() <= 0.0:
+                if self._one_step() <= 0.0:
                     break
             except SolverDiverged as err:
                 return self._diverged(err, done, start)

@@ -25,7 +25,7 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Callable, Optional
 
-from . import export, nozzle, nozzle_report, report, separation, steady
+from . import export, nozzle, nozzle_report, report, separation, settle, steady
 from .diagnostics import read_probe, read_station, station_profile
 from .errors import SolverDiverged
 from .fields import VIEWS
@@ -36,7 +36,7 @@ from .suggest import did_you_mean
 #: Keys every summary.json has (the nozzle block is null unless the scenario is a reservoir-fed nozzle).
 SUMMARY_KEYS = ("scenario", "description", "status", "message", "sim_time_s", "end_time_s", "steps", "wall_s",
                 "cell_updates_per_s", "resolution", "mode", "stations", "probes", "snapshots", "history_rows",
-                "floors_total", "nozzle", "steady", "caution", "files")
+                "floors_total", "nozzle", "steady", "settle", "caution", "files")
 #: Keys of each station entry of summary.json.
 STATION_KEYS = ("mass_flow_kg_s", "thrust_n", "mean_mach", "mean_pressure_pa", "area_m2")
 #: History samples per run, at most (plus one per snapshot).
@@ -109,7 +109,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
                  view: str = "mach", progress: Callable[[Progress], None] | None = print_progress,
                  write_fields: bool = True, write_pictures: bool = True, progress_interval_s: float = 1.0,
                  until_steady: bool = False, tolerance: float = steady.DEFAULT_TOLERANCE,
-                 mass_tolerance: float = steady.DEFAULT_MASS_TOLERANCE) -> dict:
+                 mass_tolerance: float = steady.DEFAULT_MASS_TOLERANCE, settle_mode: bool = False) -> dict:
     """Run a scenario headless to until_s (default: its end_time_s) or for `steps` steps, whichever comes first.
 
     With until_steady the run stops as soon as the flow is steady (solver.steady: the residual below
@@ -117,6 +117,10 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     until_s is then the time limit, and a run that reaches it unsettled ends with status "unsteady".
     Station readings averaged over a window (the last transit time of a steady run, else the last fifth
     of the run) with their unsteadiness (+-) go into summary["steady"]; history.csv carries the residual.
+
+    settle_mode (with until_steady only) reaches the steady state by settle mode (solver.settle: grid sequencing,
+    then local time steps on the scenario's grid): the end state only, the run's times are pseudo times and
+    summary["settle"] says so; wall time includes the coarse grids.
 
     nx overrides the resolution; every_s is the interval of field files and snapshots (default a tenth of the
     run); view is one of solver.fields.VIEWS. progress(Progress) is called every progress_interval_s of wall
@@ -133,6 +137,9 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
         raise ValueError(f"steps = {steps!r} must be at least 1")
     if every_s is not None and not (math.isfinite(every_s) and every_s > 0.0):
         raise ValueError(f"every_s = {every_s!r} must be a finite interval greater than 0 s")
+    if settle_mode and not until_steady:
+        raise ValueError("settle_mode = True needs until_steady: settle mode gives the steady end state, not a "
+                         "time history")
     every = float(every_s) if every_s is not None else until / DEFAULT_SNAPSHOTS
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
@@ -188,15 +195,23 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
     next_snapshot = every
     start = time.perf_counter()
     last_report = start
+    stepper = settle.LocalStepper(sim) if settle_mode else None
+    settle_info = {"notice": settle.NOTICE, "coarse_levels": []} if settle_mode else None
     sample()
     snapshot()
     stop = _StopFlag()
     try:
+        if settle_info is not None:  # grid sequencing: the coarse grids first, their flow carried over to sim
+            levels = settle.settle_coarse(lambda n: build_simulation(s, n), sim, x_max_m=settle.interior_end_m(exit_),
+                                          stop=lambda: stop.raised)
+            settle_info["coarse_levels"] = [asdict(lv) for lv in levels]
+            if stop.raised:
+                raise KeyboardInterrupt
         while sim.time_s < until * (1.0 - 1e-12) and (steps is None or sim.steps < steps):
             if stop.raised:
                 raise KeyboardInterrupt
             target = min(until, next_snapshot)
-            dt = sim.step(max_dt_s=target - sim.time_s)
+            dt = stepper.step() if stepper is not None else sim.step(max_dt_s=target - sim.time_s)
             if dt <= 0.0:
                 status, message = "stalled", "time step is zero (no fluid cells or no wave speed)"
                 break
@@ -274,6 +289,7 @@ def run_scenario(scenario: Scenario | str | Path, out_dir: str | Path, until_s: 
                    "balanced_stations": [stations[i].name for i in balanced],
                    "mass_imbalance": None if monitor.imbalance is None else _finite(monitor.imbalance),
                    "window": averaged},
+        "settle": settle_info,
         "caution": report.CAUTION,
         "files": files,
     }

@@ -35,3 +35,30 @@ def test_bare_kernel_matches_the_solver():
     for a, b in zip(sim.primitive(), bare.primitive()):
         np.testing.assert_allclose(a, b, rtol=1e-9, atol=1e-9 * np.abs(b).max())
     assert np.abs(bare.primitive()[1]).max() > 1.0  # the flow has moved
+
+
+def test_settle_speedup_figures_on_a_small_duct():
+    # `settle_speedup` of `shockslate bench --json` comes from measure_settle: both runs reach the same criterion
+    # and end in the same steady state (the 0.5 % on mass flow and thrust); no timing is asserted.
+    import math
+
+    import numba
+
+    from shockslate.bench.solver_bench import GOALS, measure_settle
+    from shockslate.solver.scenario import parse_scenario
+
+    from test_settle import duct_doc
+
+    before = numba.get_num_threads()
+    numba.set_num_threads(1)
+    try:
+        fig = measure_settle(parse_scenario(duct_doc(80)), tolerance=1e-3, cap=1000.0)
+    finally:
+        numba.set_num_threads(before)
+    assert GOALS["settle_speedup"] == 5.0
+    assert fig["settle_settled"] and fig["time_accurate_settled"] and not fig["capped"]
+    assert math.isfinite(fig["settle_speedup"]) and fig["settle_speedup"] > 0.0
+    assert fig["coarse_levels"][0]["nx"] == 40 and fig["nx"] == 80
+    assert fig["mass_flow_kg_s"]["largest_difference_fraction"] < 0.005
+    assert fig["thrust_n"]["largest_difference_fraction"] < 0.005
+    assert fig["settle_steps"] < fig["time_accurate_steps"]

@@ -454,6 +454,13 @@ function setupTools() {
   $("#mirror").addEventListener("change", (ev) => app.send("set_mirror", { mirror: ev.target.value }));
 }
 
+/** Settle mode (the `settle` status field, set from any tab): the tick and the notice that the flow shown is
+ * no time history. */
+function showSettle(on) {
+  $("#settle-mode").checked = on;
+  $("#settle-notice").hidden = !on;
+}
+
 function toggleRun() {
   app.send(app.state === "running" ? "pause" : "run");
 }
@@ -465,6 +472,7 @@ function setupRunControls() {
     app.send("step", { count: Number.isFinite(n) ? n : 1 });
   });
   $("#reset-flow").addEventListener("click", () => app.send("reset_flow"));
+  $("#settle-mode").addEventListener("change", (ev) => app.send("settle", { on: ev.target.checked }));
   $("#fix-halve-cfl").addEventListener("click", () => {
     const cfl = app.scenario ? app.scenario.numerics.cfl : 0.4;
     app.send("set_numerics", { cfl: Math.max(0.05, Math.round(cfl * 50) / 100) });
@@ -700,6 +708,7 @@ function onMessage(msg) {
       if (msg.state !== app.state) showRunState(msg.state);
       app.pace.add(msg, performance.now());
       showClock(msg, tabFps(), app.pace.value());
+      showSettle(Boolean(msg.settle));
       showStations(msg, app.scenario && app.scenario.mode);
       showProbes(msg);
       app.histories.add(msg);

@@ -47,6 +47,10 @@ def add_batch_commands(subparsers) -> None:
     run.add_argument("--time-limit", type=positive_float, metavar="SECONDS", default=None,
                      help="with --until steady: simulated time at which an unsettled run stops (default: the "
                           "scenario's end time)")
+    run.add_argument("--settle", action="store_true",
+                     help="with --until steady: settle mode, the steady end state sooner (coarse grid first, then "
+                          "every cell at its own time step); the run's times are then pseudo times, not a time "
+                          "history")
     run.add_argument("--steps", type=positive_int, metavar="N", help="stop after N steps at most")
     run.add_argument("--resolution", type=positive_int, metavar="NX", help="cells across x (default: the scenario's)")
     run.add_argument("--out", default="results", metavar="DIR", help="output folder (default: results)")
@@ -72,6 +76,10 @@ def cmd_run(args: argparse.Namespace) -> int:
     if not steady and (args.tolerance is not None or args.time_limit is not None):
         print("shockslate run: --tolerance and --time-limit go with --until steady", file=sys.stderr)
         return EXIT_BAD_INPUT
+    if args.settle and not steady:
+        print("shockslate run: --settle goes with --until steady (settle mode gives the steady end state, not a time "
+              "history)", file=sys.stderr)
+        return EXIT_BAD_INPUT
     until = args.time_limit if steady else args.until
     tolerance = DEFAULT_TOLERANCE if args.tolerance is None else args.tolerance
     # Before the clock starts: a first run compiles the kernels, which would otherwise look like a stuck step 1.
@@ -81,7 +89,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     try:
         summary = run_scenario(args.scenario, Path(args.out), until_s=until, steps=args.steps,
                                nx=args.resolution, every_s=args.every, view=args.view,
-                               until_steady=steady, tolerance=tolerance)
+                               until_steady=steady, tolerance=tolerance, settle_mode=args.settle)
     except (ScenarioError, ValueError) as err:
         print(f"shockslate run: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -98,6 +106,8 @@ def cmd_run(args: argparse.Namespace) -> int:
               f"{nozzle['thrust_coefficient_ratio']:.4f} of ideal ({nozzle['thrust_coefficient_ratio_with_divergence']:.4f} "
               f"with divergence factor), Isp {nozzle['specific_impulse_s']:.1f} s")
     st = summary["steady"]
+    if summary.get("settle"):
+        print(f"settle mode: {summary['settle']['notice']}", file=sys.stderr)
     if steady:
         print(f"residual {st['residual']} over {st['residual_over']} (tolerance {st['tolerance']:g}), station "
               f"mass-flow imbalance {st['mass_imbalance']} ({', '.join(st['balanced_stations']) or 'no stations'})")
