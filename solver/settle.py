@@ -24,7 +24,7 @@ from typing import Callable, Optional, Sequence
 
 import numpy as np
 
-from . import cut_cells, kernels, settle_kernels
+from . import kernels, settle_kernels
 from .diagnostics import Station, read_station
 from .kinds import CellKind
 from .numerics import CFL_MAX
@@ -106,20 +106,14 @@ class LocalStepper:
         res = sim._held_prim[CellKind.RESERVOIR]
         if flux == kernels.FLUX_HLLC:
             kernels.shock_switch(sim.W, sim.kind, sim._hll_x, sim._hll_y, kernels.SHOCK_PRESSURE_RATIO)
-        cc = sim._cut_cells
         for a, b in num.tableau.stages:
-            kernels.feed_reservoir_edge(sim.U, sim.W, sim.kind, sim._feed_j, sim._feed_i, res[0], res[3], gamma)
-            kernels.x_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, sim.Fx, gamma, lim, flux, sim._hll_x)
-            kernels.y_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, sim.Gy, gamma, lim, flux, sim._hll_y)
+            sim.stage_fluxes(res, gamma, lim, flux)
             u0 = sim.U0 if a != 0.0 else sim.U
             settle_kernels.update_stage_local(sim.U, u0, sim.W, sim.Fx, sim.Gy, sim.kind, sim._cut, a, b, self.dt,
                                               inv_dx, sim._w_plus, sim._w_minus, sim._source, gamma,
                                               sim._rho_floor, sim._p_floor, sim._row_rate, sim._row_floors,
                                               sim._row_bad)
-            cut_cells.update_cut_cells(sim.U, u0, sim.W, sim.Fx, sim.Gy, a, b, dt_cut, inv_dx, cc.j, cc.i, cc.volume,
-                                       cc.area_left, cc.area_right, cc.area_bottom, cc.area_top, cc.area_2d,
-                                       cc.wall_x, cc.wall_y, cc.start, gamma, sim._rho_floor, sim._p_floor,
-                                       sim._cut_out)
+            sim.update_cut_cells(u0, a, b, dt_cut, inv_dx, gamma)
             sim._fill_edges()
             floors += int(sim._row_floors.sum()) + int(sim._cut_out[1])
         change, rate_sum, _ = settle_kernels.density_rates(sim.U, sim.U0, sim.kind, self.dt, 0, sim.domain.nx)

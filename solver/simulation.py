@@ -465,6 +465,23 @@ class Simulation:
         ny, nx = self.domain.shape
         return ny * nx
 
+    def stage_fluxes(self, res, gamma: float, lim: int, flux: int) -> None:
+        """The face fluxes of one stage (the reservoir feed, x and y faces, the faces beside cut cells): shared by
+        the time-accurate step and settle mode's local steps (solver/settle.py), so both use one scheme."""
+        kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
+        kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
+        kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
+        cut_cells.reconstruct(self._cut_cells, self.W, self.kind, self.Fx, self.Gy, self._hll_x, self._hll_y, gamma,
+                              lim, flux)
+
+    def update_cut_cells(self, u0: np.ndarray, a: float, b: float, dt: float, inv_dx: float, gamma: float) -> None:
+        """One stage's update of the cut cells (merged groups) with time step dt."""
+        cc = self._cut_cells
+        cut_cells.update_cut_cells(self.U, u0, self.W, self.Fx, self.Gy, a, b, dt, inv_dx, cc.j, cc.i, cc.volume,
+                                   cc.area_left, cc.area_right, cc.area_bottom, cc.area_top, cc.area_2d,
+                                   cc.wall_x, cc.wall_y, cc.start, cc.wall_ox, cc.wall_oy, cc.band, cc.grad, gamma,
+                                   self._rho_floor, self._p_floor, self._cut_out)
+
     def step(self, max_dt_s: float = math.inf) -> float:
         """Advance one time step of at most max_dt_s; returns its dt in seconds.
 
@@ -484,20 +501,13 @@ class Simulation:
         if flux == kernels.FLUX_HLLC:  # once a step: a shock moves less than a cell, the marks reach two beyond it
             kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO)
         for a, b in num.tableau.stages:
-            kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
-            kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
-            kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
-            cc = self._cut_cells
-            cut_cells.reconstruct(cc, self.W, self.kind, self.Fx, self.Gy, self._hll_x, self._hll_y, gamma, lim, flux)
+            self.stage_fluxes(res, gamma, lim, flux)
             # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
             u0 = self.U0 if a != 0.0 else self.U
             kernels.update_stage(self.U, u0, self.W, self.Fx, self.Gy, self.kind, self._cut, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
                                  self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
-            cut_cells.update_cut_cells(self.U, u0, self.W, self.Fx, self.Gy, a, b, dt, inv_dx, cc.j, cc.i, cc.volume,
-                                       cc.area_left, cc.area_right, cc.area_bottom, cc.area_top, cc.area_2d,
-                                       cc.wall_x, cc.wall_y, cc.start, cc.wall_ox, cc.wall_oy, cc.band, cc.grad, gamma,
-                                       self._rho_floor, self._p_floor, self._cut_out)
+            self.update_cut_cells(u0, a, b, dt, inv_dx, gamma)
             self._fill_edges()
             floors += int(self._row_floors.sum()) + int(self._cut_out[1])
         prev_rate = self._rate
