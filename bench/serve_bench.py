@@ -286,15 +286,16 @@ def load_phase(server: "ServerProcess", clients: int, seconds: float) -> dict:
             "server_rss_growth_percent": 100.0 * (rss_after / rss_before - 1.0)}
 
 
-def big_sketch_scenario(polygons: int = 30, points: int = 15_000, seed: int = 7) -> dict:
-    """The default nozzle with `polygons` wall polygons of `points` corners each (wavy rings, seeded), spread
-    over its domain: the big sketch of the issue's goal (one more shape after 30 polygons of 15,000 points)."""
+def big_sketch_scenario(polygons: int = 30, points: int = 15_000, seed: int = 7, base: str | None = None) -> dict:
+    """The default nozzle (or the built-in `base`) with `polygons` wall polygons of `points` corners each (wavy
+    rings, seeded), spread over its domain: the big sketch of the issue's goal (one more shape after 30 polygons
+    of 15,000 points)."""
     import math
 
     import numpy as np
     from shockslate.solver import scenario as scn
 
-    doc = scn.scenario_to_dict(scn.load_builtin(scn.DEFAULT_SCENARIO))
+    doc = scn.scenario_to_dict(scn.load_builtin(base or scn.DEFAULT_SCENARIO))
     d = doc["domain"]
     w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
     rng = np.random.default_rng(seed)
@@ -347,6 +348,97 @@ def sketch_change_phase(changes: int = 7) -> dict:
             "whole_geometry_s": statistics.median(whole), "whole_geometry_s_each": whole,
             "polygons": 30, "points_per_polygon": 15_000, "grid": [d["nx"], session.sim.domain.ny],
             "autosave_mb": autosave_mb, "goal_s": 0.5}
+
+
+def _recv_until(sock, want, timeout_s: float = 120.0):
+    """Read messages until want(message) holds for a JSON one; that message (parsed), or TimeoutError."""
+    deadline = time.monotonic() + timeout_s
+    while True:
+        msg = sock.recv(timeout=max(0.01, deadline - time.monotonic()))
+        if isinstance(msg, str):
+            data = json.loads(msg)
+            if want(data):
+                return data
+
+
+def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict:
+    """The big sketch (30 polygons of 15,000 points) as a user meets it: a real server process and real
+    websocket tabs. Seconds from sending `add_shape` (and its `undo`) to its acknowledgement at the sender and
+    to the change reaching a second tab; bytes each tab received for it; and seconds a new tab waits for its
+    `hello`, with the longest gap between frames another tab saw meanwhile (beside the longest gap before)."""
+    import threading
+
+    # on the blast room, not the nozzle: with a reservoir in the sketch the live status draws the nozzle from
+    # every shape (solver/nozzle.py), which with this sketch holds the solver for tens of seconds (left alone here)
+    doc = big_sketch_scenario(base="blast_room")
+    d = doc["domain"]
+    w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
+    server = ServerProcess(doc, threads)
+    out: dict = {"polygons": 30, "points_per_polygon": 15_000, "goal_s": 0.5}
+    try:
+        server.wait_running(timeout_s=600)
+        t0 = time.perf_counter()
+        sender, hello = _connect(server.url)
+        out["first_hello_s"] = time.perf_counter() - t0
+        other, _ = _connect(server.url)
+        adds, undos, reach_other, sent_bytes = [], [], [], []
+        for k in range(repeats):
+            shape = {"kind": "circle", "centre_m": [d["x_min_m"] + w * (0.2 + 0.6 * k / max(repeats - 1, 1)),
+                                                    d["y_min_m"] + 0.5 * h], "radius_m": 0.02 * h, "paints": "wall"}
+            for kind, times in (("add_shape", adds), ("undo", undos)):
+                rid = f"{kind}{k}"
+                body = {"type": kind, "id": rid, **({"shape": shape} if kind == "add_shape" else {})}
+                t0 = time.perf_counter()
+                sender.send(json.dumps(body))
+                ack = _recv_until(sender, lambda m: m.get("id") == rid)
+                times.append(time.perf_counter() - t0)
+                if ack["type"] == "error":
+                    raise RuntimeError(f"{kind} refused: {ack}")
+                revision = ack["revision"]
+                seen = _recv_until(other, lambda m: m.get("revision") == revision and
+                                   m.get("type") in ("scenario", "sketch_change"))
+                reach_other.append(time.perf_counter() - t0)
+                sent_bytes.append(len(json.dumps(seen)))
+        out.update({"sketch_change_roundtrip_s": statistics.median(adds), "add_shape_s_each": adds,
+                    "undo_roundtrip_s": statistics.median(undos), "undo_s_each": undos,
+                    "other_tab_s": statistics.median(reach_other), "message_bytes_median": statistics.median(sent_bytes)})
+        # a new tab's hello, while the other tab watches frames
+        arrivals: list[float] = []
+        stop = threading.Event()
+
+        def watch() -> None:
+            while not stop.is_set():
+                try:
+                    msg = other.recv(timeout=0.2)
+                except TimeoutError:
+                    continue
+                except Exception:  # noqa: BLE001 - the socket closed at the end
+                    return
+                if isinstance(msg, bytes):
+                    arrivals.append(time.monotonic())
+
+        watcher = threading.Thread(target=watch, daemon=True)
+        watcher.start()
+        time.sleep(3.0)
+        joined = time.monotonic()
+        t0 = time.perf_counter()
+        newcomer, _ = _connect(server.url)
+        out["new_tab_hello_s"] = time.perf_counter() - t0
+        time.sleep(2.0)
+        stop.set()
+        watcher.join(5)
+        newcomer.close()
+
+        def longest_gap(times: list[float]) -> float:
+            return max((b - a for a, b in zip(times, times[1:])), default=float("nan"))
+
+        out["frame_gap_s_before_join"] = longest_gap([a for a in arrivals if a < joined])
+        out["frame_gap_s_during_join"] = longest_gap([a for a in arrivals if a >= joined - 0.5])
+        sender.close()
+        other.close()
+    finally:
+        server.stop()
+    return out
 
 
 def resolution_change_phase(url: str, resolutions: tuple[int, ...] = (1024, 512, 2048, 512),
