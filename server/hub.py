@@ -86,6 +86,12 @@ class Client:
             self.queued_bytes += size
         self.wake.set()
 
+    def queue_first(self, text: str) -> None:
+        """A message to send before everything queued (a tab's hello, made while broadcasts were queued)."""
+        self.outbox.appendleft(text)
+        self.queued_bytes += _counted(text)
+        self.wake.set()
+
     def next_queued(self) -> str | bytes:
         text = self.outbox.popleft()
         self.queued_bytes -= _counted(text)
