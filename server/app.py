@@ -270,11 +270,11 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
     # to convert and encode, and on the event loop every other tab's frames stopped meanwhile
     # the scenario and its revision read together under the solver's lock (a `sketch_change` applies to exactly it)
     try:
-        hello, scenario = await runner.read(lambda: (hello_message(client, runner, with_scenario=False),
-                                                     runner.session.scenario))
+        hello, document = await runner.read(lambda: (hello_message(client, runner, with_scenario=False),
+                                                     runner.session.document()))
         # first in the queue, before any change broadcast while it was made (the page skips those it already
         # holds); the sender starts only then
-        client.queue_first(await asyncio.to_thread(_hello_text, {**hello, **extra}, scenario))
+        client.queue_first(await asyncio.to_thread(_hello_text, {**hello, **extra}, document))
     except BaseException:
         hub.remove(client)
         raise
@@ -327,10 +327,19 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
             await sender
 
 
-def _hello_text(hello: dict, scenario: scn.Scenario) -> str:
-    """The hello message as JSON text with the scenario, which (validated: finite) is encoded without p.dumps's
-    NaN walk. A scenario object is immutable, so another thread may read it."""
-    body = json.dumps(scn.scenario_to_dict(scenario), separators=(",", ":"), allow_nan=False)
+def _hello_text(hello: dict, document: dict) -> str:
+    """The hello message as JSON text with the scenario document (the session's, read-only: never changed in
+    place). The document is validated, so finite: it is encoded without p.dumps's NaN walk, one shape at a time,
+    so that the event loop gets its turns in between (one json.dumps call of 19 MB holds the GIL for a second)."""
+    def compact(value) -> str:
+        return json.dumps(value, separators=(",", ":"), allow_nan=False)
+
+    sketch = document["sketch"]
+    shapes = "[" + ",".join(compact(shape) for shape in sketch["shapes"]) + "]"
+    sketch_text = compact({k: v for k, v in sketch.items() if k != "shapes"})[:-1]
+    sketch_text += (',' if len(sketch_text) > 1 else '') + '"shapes":' + shapes + "}"
+    rest = compact({k: v for k, v in document.items() if k != "sketch"})
+    body = rest[:-1] + (',' if len(rest) > 2 else '') + '"sketch":' + sketch_text + "}"
     return p.dumps(hello)[:-1] + ',"scenario":' + body + "}"
 
 

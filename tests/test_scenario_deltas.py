@@ -164,6 +164,7 @@ def test_sketch_delta_finds_one_inserted_or_removed_shape():
 
 def test_two_tabs_hold_the_servers_scenario_after_adds_removes_undos_and_redos(live):
     with live.tab() as a, live.tab() as b:
+        assert a.doc == b.doc == live.saved_document() and a.revision == 0  # the hello's scenario, made in a thread
         steps = [({"type": "add_shape", "shape": disc(0.15)}, "sketch_change"),
                  ({"type": "add_shape", "shape": disc(0.25)}, "sketch_change"),
                  ({"type": "add_shape", "shape": disc(0.35)}, "sketch_change"),
