@@ -250,3 +250,21 @@ def test_small_sketches_go_whole_and_big_ones_as_deltas(tmp_path):
             assert a.send({"type": "add_shape", "shape": disc(0.22)}, "one")["type"] == "scenario"
     finally:
         small.stop()
+
+
+def test_a_scenario_bigger_than_the_queue_cap_still_reaches_a_tab():
+    """A big sketch's hello (17.5 MB for 30 polygons of 15,000 points) is larger than the per-tab queue cap; it
+    counts as half the cap, so it and the replies behind it are queued, while a tab that reads none of two such
+    messages is dropped as before."""
+    from shockslate.server.hub import MAX_QUEUED_BYTES, Client
+
+    tab = Client("c1", websocket=None)
+    big = "x" * (MAX_QUEUED_BYTES + 1)
+    tab.queue_first(big)
+    tab.queue('{"type":"history"}')
+    assert not tab.closed and len(tab.outbox) == 2 and tab.outbox[0] is big
+    assert tab.next_queued() is big and tab.queued_bytes == len('{"type":"history"}')
+    tab.queue(big)
+    assert not tab.closed
+    tab.queue(big)  # a second unread whole scenario beside a reply: this tab is not reading
+    assert tab.closed
