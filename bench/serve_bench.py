@@ -9,6 +9,9 @@ noise hits both sides alike:
   - a load phase: several tabs at once (8 by default), frames per second each and the server's memory growth,
   - one more shape after 30 polygons of 15,000 points (server side: parsed, applied and saved; in this process with
     the server's parts) beside the whole-sketch geometry time,
+  - the same sketch live (its own server process, real websocket tabs): add_shape and undo to their acknowledgement
+    and to another tab, a new tab's hello with another tab's frame gaps meanwhile, and (with playwright and
+    Chromium) the real page's add_shape to its sketch drawn,
   - the issue's long segment: time to its answer and the server's peak memory growth,
   - frames per second another tab gets while the resolution changes.
 Goals from the issue: 30 frames/s, latency under 150 ms, solver slowdown under 10 %.
@@ -286,15 +289,16 @@ def load_phase(server: "ServerProcess", clients: int, seconds: float) -> dict:
             "server_rss_growth_percent": 100.0 * (rss_after / rss_before - 1.0)}
 
 
-def big_sketch_scenario(polygons: int = 30, points: int = 15_000, seed: int = 7) -> dict:
-    """The default nozzle with `polygons` wall polygons of `points` corners each (wavy rings, seeded), spread
-    over its domain: the big sketch of the issue's goal (one more shape after 30 polygons of 15,000 points)."""
+def big_sketch_scenario(polygons: int = 30, points: int = 15_000, seed: int = 7, base: str | None = None) -> dict:
+    """The default nozzle (or the built-in `base`) with `polygons` wall polygons of `points` corners each (wavy
+    rings, seeded), spread over its domain: the big sketch of the issue's goal (one more shape after 30 polygons
+    of 15,000 points)."""
     import math
 
     import numpy as np
     from shockslate.solver import scenario as scn
 
-    doc = scn.scenario_to_dict(scn.load_builtin(scn.DEFAULT_SCENARIO))
+    doc = scn.scenario_to_dict(scn.load_builtin(base or scn.DEFAULT_SCENARIO))
     d = doc["domain"]
     w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
     rng = np.random.default_rng(seed)
@@ -347,6 +351,156 @@ def sketch_change_phase(changes: int = 7) -> dict:
             "whole_geometry_s": statistics.median(whole), "whole_geometry_s_each": whole,
             "polygons": 30, "points_per_polygon": 15_000, "grid": [d["nx"], session.sim.domain.ny],
             "autosave_mb": autosave_mb, "goal_s": 0.5}
+
+
+def _recv_until(sock, want, timeout_s: float = 120.0):
+    """Read messages until want(message) holds for a JSON one; that message (parsed), or TimeoutError."""
+    deadline = time.monotonic() + timeout_s
+    while True:
+        msg = sock.recv(timeout=max(0.01, deadline - time.monotonic()))
+        if isinstance(msg, str):
+            data = json.loads(msg)
+            if want(data):
+                return data
+
+
+def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict:
+    """The big sketch (30 polygons of 15,000 points) as a user meets it: a real server process and real
+    websocket tabs. Seconds from sending `add_shape` (and its `undo`) to its acknowledgement at the sender and
+    to the change reaching a second tab; bytes each tab received for it; and seconds a new tab waits for its
+    `hello`, with the longest gap between frames another tab saw meanwhile (beside the longest gap before)."""
+    import threading
+
+    # on the blast room, not the nozzle: with a reservoir in the sketch the live status draws the nozzle from
+    # every shape (solver/nozzle.py), which with this sketch holds the solver for tens of seconds (left alone here)
+    doc = big_sketch_scenario(base="blast_room")
+    d = doc["domain"]
+    w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
+    server = ServerProcess(doc, threads)
+    out: dict = {"polygons": 30, "points_per_polygon": 15_000, "goal_s": 0.5}
+    try:
+        server.wait_running(timeout_s=600)
+        t0 = time.perf_counter()
+        sender, hello = _connect(server.url)
+        out["first_hello_s"] = time.perf_counter() - t0
+        other, _ = _connect(server.url)
+        adds, undos, reach_other, sent_bytes = [], [], [], []
+        for k in range(repeats):
+            shape = {"kind": "circle", "centre_m": [d["x_min_m"] + w * (0.2 + 0.6 * k / max(repeats - 1, 1)),
+                                                    d["y_min_m"] + 0.5 * h], "radius_m": 0.02 * h, "paints": "wall"}
+            for kind, times in (("add_shape", adds), ("undo", undos)):
+                rid = f"{kind}{k}"
+                body = {"type": kind, "id": rid, **({"shape": shape} if kind == "add_shape" else {})}
+                t0 = time.perf_counter()
+                sender.send(json.dumps(body))
+                ack = _recv_until(sender, lambda m: m.get("id") == rid)
+                times.append(time.perf_counter() - t0)
+                if ack["type"] == "error":
+                    raise RuntimeError(f"{kind} refused: {ack}")
+                revision = ack["revision"]
+                seen = _recv_until(other, lambda m: m.get("revision") == revision and
+                                   m.get("type") in ("scenario", "sketch_change"))
+                reach_other.append(time.perf_counter() - t0)
+                sent_bytes.append(len(json.dumps(seen)))
+        out.update({"sketch_change_roundtrip_s": statistics.median(adds), "add_shape_s_each": adds,
+                    "undo_roundtrip_s": statistics.median(undos), "undo_s_each": undos,
+                    "other_tab_s": statistics.median(reach_other), "message_bytes_median": statistics.median(sent_bytes)})
+        # a new tab's hello, while the other tab watches frames
+        arrivals: list[float] = []
+        stop = threading.Event()
+
+        def watch() -> None:
+            while not stop.is_set():
+                try:
+                    msg = other.recv(timeout=0.2)
+                except TimeoutError:
+                    continue
+                except Exception:  # noqa: BLE001 - the socket closed at the end
+                    return
+                if isinstance(msg, bytes):
+                    arrivals.append(time.monotonic())
+
+        watcher = threading.Thread(target=watch, daemon=True)
+        watcher.start()
+        time.sleep(3.0)
+        # the new tab in its own process: receiving 17 MB here would hold this process's GIL and stall the watcher
+        code = ("import json, sys, time\nfrom websockets.sync.client import connect\n"
+                "with connect(sys.argv[1], max_size=None, open_timeout=30) as s:\n"
+                "    t0 = time.perf_counter(); print('go', flush=True); hello = s.recv(timeout=120)\n"
+                "    print(time.perf_counter() - t0, len(hello), flush=True)\n")
+        newcomer = subprocess.Popen([sys.executable, "-c", code, server.url.replace("http://", "ws://") + "/ws"],
+                                    stdout=subprocess.PIPE, text=True)
+        newcomer.stdout.readline()  # connected: the server makes the hello from now on
+        joined = time.monotonic()
+        seconds, size = newcomer.stdout.readline().split()
+        newcomer.wait(30)
+        out["new_tab_hello_s"], out["hello_bytes"] = float(seconds), int(size)
+        time.sleep(1.0)
+        stop.set()
+        watcher.join(5)
+
+        def longest_gap(times: list[float]) -> float:
+            return max((b - a for a, b in zip(times, times[1:])), default=float("nan"))
+
+        out["frame_gap_s_before_join"] = longest_gap([a for a in arrivals if a < joined])
+        out["frame_gap_s_during_join"] = longest_gap([a for a in arrivals if a >= joined - 0.2])
+        sender.close()
+        other.close()
+    finally:
+        server.stop()
+    return out
+
+
+def page_sketch_phase(threads: int | None = None, changes: int = 6) -> dict | None:
+    """The real page in headless Chromium on the big sketch (30 polygons of 15,000 points): seconds from the page
+    sending `add_shape` to its next drawing showing the new shape (median over `changes`; the first change after a
+    load samples the whole sketch). None when playwright or Chromium is missing."""
+    try:
+        from playwright.sync_api import sync_playwright
+    except ImportError:
+        return None
+    if not Path("/usr/bin/chromium").exists():
+        return None
+    doc = big_sketch_scenario(base="blast_room")
+    d = doc["domain"]
+    w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
+    server = ServerProcess(doc, threads)
+    try:
+        server.wait_running(timeout_s=600)
+        with sync_playwright() as p:
+            browser = p.chromium.launch(executable_path="/usr/bin/chromium", headless=True,
+                                        args=["--no-sandbox", "--disable-gpu"])
+            try:
+                page = browser.new_page(viewport={"width": 1280, "height": 900})
+                t0 = time.perf_counter()
+                page.goto(server.url + "/")
+                page.wait_for_function("window.shockslate && window.shockslate.scenario && "
+                                       "window.shockslate.framesDrawn > 0", timeout=300_000)
+                opened = time.perf_counter() - t0
+                times = []
+                for k in range(changes):
+                    shape = {"kind": "circle", "centre_m": [d["x_min_m"] + w * (0.2 + 0.6 * k / max(changes - 1, 1)),
+                                                            d["y_min_m"] + 0.5 * h], "radius_m": 0.02 * h,
+                             "paints": "wall"}
+                    ms = page.evaluate("""s => new Promise(done => {
+                      const app = window.shockslate, n = app.scenario.sketch.shapes.length, t0 = performance.now();
+                      app.send('add_shape', {shape: s});
+                      const poll = () => {
+                        if (app.scenario.sketch.shapes.length !== n + 1) return setTimeout(poll, 1);
+                        const drawn = app.framesDrawn;  // the next drawing after the sketch changed shows it
+                        const wait = () => app.framesDrawn > drawn ? done(performance.now() - t0)
+                                                                   : requestAnimationFrame(wait);
+                        requestAnimationFrame(wait);
+                      };
+                      poll();
+                    })""", shape)
+                    times.append(ms / 1000)
+            finally:
+                browser.close()
+    finally:
+        server.stop()
+    return {"page_sketch_change_s": statistics.median(times), "page_sketch_change_s_each": times,
+            "page_open_to_first_drawing_s": opened}
 
 
 def resolution_change_phase(url: str, resolutions: tuple[int, ...] = (1024, 512, 2048, 512),
@@ -478,6 +632,10 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
                     threads: int | None = None, load_clients: int = 8) -> dict:
     first_frame = first_frame_phase()
     sketch_change = sketch_change_phase()
+    roundtrip = sketch_roundtrip_phase(threads)
+    page_sketch = page_sketch_phase(threads)
+    if page_sketch is not None:
+        roundtrip.update(page_sketch)
     scenario = bench_scenario()
     server = ServerProcess(scenario, threads)
     try:
@@ -521,6 +679,8 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
         "sketch_change_s": sketch_change["sketch_change_s"],
         "whole_geometry_s": sketch_change["whole_geometry_s"],
         "sketch_change": sketch_change,
+        "sketch_change_roundtrip_s": roundtrip["sketch_change_roundtrip_s"],
+        "sketch_roundtrip": roundtrip,
         "resolution_change": resolution,
         "long_segment": segment,
         "numba_threading_layer": health.get("threading_layer"),
@@ -562,6 +722,16 @@ def print_report(r: dict) -> None:
         print(f"  one more shape          {sc['sketch_change_s']:6.3f} s median (goal < 0.5 s) after {sc['polygons']} "
               f"polygons of {sc['points_per_polygon']} points, parsed + applied + saved ({sc['autosave_mb']:.1f} MB); "
               f"whole-sketch geometry {sc['whole_geometry_s']:.3f} s")
+    rt = r.get("sketch_roundtrip")
+    if rt:
+        print(f"  one more shape, live    {rt['sketch_change_roundtrip_s']:6.3f} s median from add_shape to its "
+              f"acknowledgement (goal < 0.5 s), undo {rt['undo_roundtrip_s']:.3f} s, to another tab "
+              f"{rt['other_tab_s']:.3f} s, {rt['message_bytes_median']:.0f} bytes per change; a new tab's hello "
+              f"({rt['hello_bytes'] / 1e6:.1f} MB) {rt['new_tab_hello_s']:.2f} s, another tab's longest frame gap "
+              f"meanwhile {rt['frame_gap_s_during_join']:.2f} s ({rt['frame_gap_s_before_join']:.2f} s before)")
+    if rt and "page_sketch_change_s" in rt:
+        print(f"  one more shape, page    {rt['page_sketch_change_s']:6.3f} s median from the page's add_shape to its "
+              f"sketch drawn (Chromium); page open to first drawing {rt['page_open_to_first_drawing_s']:.1f} s")
     rc = r.get("resolution_change")
     if rc:
         print(f"  resolution changes      {rc['frames_per_s_min']:6.1f} frames/s at least to another tab (goal 10); "

@@ -35,6 +35,7 @@ from .exports import Exports
 from .hub import MAX_CLIENTS, Hub
 from .persistence import AutosaveFailed, ScenarioStore
 from .runner import Runner
+from .scenario_delta import DELTA_MIN_BYTES
 from .security import Access, RateLimiter
 from .session import Session
 
@@ -65,6 +66,9 @@ class ServerConfig:
     runner_options: dict[str, Any] = field(default_factory=dict)
     #: False: gas from propellants answers as if Cantera were not installed (what a `make run` install shows).
     thermochemistry: bool = True
+    #: A one-shape change goes to the tabs as `sketch_change` once the whole scenario's text is this long
+    #: (0: always; tests use that on small sketches).
+    delta_min_bytes: int = DELTA_MIN_BYTES
 
 
 @dataclass
@@ -148,7 +152,8 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
         runner = Runner(session, hub, **config.runner_options)
         exports = Exports(store.exports_dir)
         parts = ServerParts(config, store, session, hub, runner, Dispatcher(runner, hub, store, exports, access,
-                                                                           config.thermochemistry),
+                                                                           config.thermochemistry,
+                                                                           config.delta_min_bytes),
                             exports, warnings)
         app.state.parts = parts
         runner.start()
@@ -257,13 +262,23 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
         await websocket.close(code=TRY_AGAIN_LATER, reason="too many tabs")
         return
     client = hub.new_client(websocket)
+    extra = {"notices": list(parts.warnings),  # e.g. a damaged autosave set aside at start, naming the kept file
+             "warming": parts.warming,
+             "warming_stage": parts.warming_stage,  # what compiles now: {stage, done, total, label} or None
+             "thermochemistry": design.thermochemistry(parts.config.thermochemistry).as_dict()}
+    # made in another thread: a big sketch's hello (19 MB of JSON for 30 polygons of 15,000 points) took seconds
+    # to convert and encode, and on the event loop every other tab's frames stopped meanwhile
+    # the scenario and its revision read together under the solver's lock (a `sketch_change` applies to exactly it)
+    try:
+        hello, document = await runner.read(lambda: (hello_message(client, runner, with_scenario=False),
+                                                     runner.session.document()))
+        # first in the queue, before any change broadcast while it was made (the page skips those it already
+        # holds); the sender starts only then
+        client.queue_first(await asyncio.to_thread(_hello_text, {**hello, **extra}, document))
+    except BaseException:
+        hub.remove(client)
+        raise
     sender = asyncio.create_task(_run_sender(hub, client), name=f"sender-{client.id}")
-    hello = hello_message(client, runner)
-    hello["notices"] = list(parts.warnings)  # e.g. a damaged autosave set aside at start, naming the kept file
-    hello["warming"] = parts.warming
-    hello["warming_stage"] = parts.warming_stage  # what compiles now: {stage, done, total, label} or None
-    hello["thermochemistry"] = design.thermochemistry(parts.config.thermochemistry).as_dict()
-    hub.send(client, hello)
     hub.send(client, runner.history.message())  # what the probes and stations saw before this tab came
     if runner.session.divergence is not None:  # a tab opened after a divergence learns why the run stopped
         hub.send(client, runner.session.divergence.to_message())
@@ -310,6 +325,22 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
         sender.cancel()
         with contextlib.suppress(asyncio.CancelledError, Exception):
             await sender
+
+
+def _hello_text(hello: dict, document: dict) -> str:
+    """The hello message as JSON text with the scenario document (the session's, read-only: never changed in
+    place). The document is validated, so finite: it is encoded without p.dumps's NaN walk, one shape at a time,
+    so that the event loop gets its turns in between (one json.dumps call of 19 MB holds the GIL for a second)."""
+    def compact(value) -> str:
+        return json.dumps(value, separators=(",", ":"), allow_nan=False)
+
+    sketch = document["sketch"]
+    shapes = "[" + ",".join(compact(shape) for shape in sketch["shapes"]) + "]"
+    sketch_text = compact({k: v for k, v in sketch.items() if k != "shapes"})[:-1]
+    sketch_text += (',' if len(sketch_text) > 1 else '') + '"shapes":' + shapes + "}"
+    rest = compact({k: v for k, v in document.items() if k != "sketch"})
+    body = rest[:-1] + (',' if len(rest) > 2 else '') + '"sketch":' + sketch_text + "}"
+    return p.dumps(hello)[:-1] + ',"scenario":' + body + "}"
 
 
 async def _handle_text(parts: ServerParts, client, text: str) -> None:

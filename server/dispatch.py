@@ -24,21 +24,27 @@ from .runner import Runner
 from .security import Access
 from .session import SessionState, request_error_from_scenario
 from .comparison import Comparison, off_message as comparison_off_message
+from .scenario_delta import DELTA_MIN_BYTES, sketch_delta
 from .wave_history import WaveLine
 
 
-def hello_message(client: Client, runner: Runner) -> dict:
+def hello_message(client: Client, runner: Runner, with_scenario: bool = True) -> dict:
+    """The hello; with_scenario False leaves the scenario document out (the server adds its text itself)."""
     s = runner.session
-    return {"type": "hello", "protocol": p.PROTOCOL_VERSION, "client_id": client.id,
+    hello = {"type": "hello", "protocol": p.PROTOCOL_VERSION, "client_id": client.id,
             "views": [{"name": n, "label": label, "unit": unit, "map": colourmaps.view_map(n)}
                       for n, (label, unit) in VIEWS.items()],
             "vocabulary": p.vocabulary(), "colour_maps": colourmaps.for_page(),
-            "scenario": scn.scenario_to_dict(s.scenario), "edited": s.edited, "origin": s.origin_name,
+            "scenario": scn.scenario_to_dict(s.scenario) if with_scenario else None,
+            "edited": s.edited, "origin": s.origin_name,
             "state": s.state.value, "revision": s.revision,
             "limits": {"max_message_bytes": p.MAX_MESSAGE_BYTES, "max_messages_per_s": p.MAX_MESSAGES_PER_S,
                        "max_frames_per_s": runner.hub.max_frames_per_s},
             "view": {"view": client.view.view, "width": client.view.width, "height": client.view.height,
                      "range": "auto" if client.view.fixed_range is None else list(client.view.fixed_range)}}
+    if not with_scenario:
+        del hello["scenario"]
+    return hello
 
 
 #: Wall time of one slice of a `step N` request; between slices the other tabs get frames and requests.
@@ -64,7 +70,7 @@ def is_harmless(request: str, err: RequestError) -> bool:
 
 class Dispatcher:
     def __init__(self, runner: Runner, hub: Hub, store: ScenarioStore, exports: Exports, access: Access,
-                 thermochemistry: bool = True):
+                 thermochemistry: bool = True, delta_min_bytes: int = DELTA_MIN_BYTES):
         self.runner = runner
         self.hub = hub
         self.store = store
@@ -74,6 +80,8 @@ class Dispatcher:
         #: False: answer gas-from-propellants as if Cantera were not installed (serve --without-thermochemistry)
         self.thermochemistry = thermochemistry
         self._changes = asyncio.Lock()  # one scenario change at a time, from its start until it is saved
+        #: a one-shape change is sent as `sketch_change` when the whole scenario's text is at least this long
+        self.delta_min_bytes = delta_min_bytes
         self._handlers: dict[str, Callable[[Client, Any], Awaitable[None]]] = {
             "add_shape": self._add_shape,
             "remove_shape": lambda c, m: self._change(c, m, self.session.remove_shape, m.index),
@@ -118,6 +126,7 @@ class Dispatcher:
             "set_wave_line": self._set_wave_line,
             "wave_history": self._wave_history,
             "set_comparison": self._set_comparison,
+            "get_scenario": self._get_scenario,
         }
         missing = set(p.MESSAGE_TYPES) - set(self._handlers)
         assert not missing, f"message types without a handler: {missing}"
@@ -154,15 +163,51 @@ class Dispatcher:
             else:
                 other.queue(text)
 
+    def _broadcast_change(self, client: Client, message: Any, before: tuple[int, dict], document: dict) -> None:
+        """A saved change to every tab: as `sketch_change` (the one shape inserted or removed) when that is all
+        that changed, the revision moved by one and the whole scenario is big; else as the whole `scenario`."""
+        s = self.session
+        revision, old = before
+        delta = sketch_delta(old, document) if s.revision == revision + 1 else None
+        if delta is not None and self.delta_min_bytes > 0:
+            size = sum(len(piece) for piece in self.store.document_text.pieces(document))  # shapes' text is kept
+            if size < self.delta_min_bytes:
+                delta = None
+        if delta is None:
+            self._broadcast_scenario(client, message, document)
+            return
+        self.hub.broadcast({"type": "sketch_change", "base_revision": revision, "revision": s.revision, **delta,
+                            "name": document.get("name"), "description": document.get("description"),
+                            "edited": s.edited, "origin": s.origin_name}, reply_to=client, request_id=message.id)
+
+    def _change_with_before(self, fn: Callable, *args: Any, **kwargs: Any) -> tuple[tuple[int, dict], Any, dict]:
+        """session.unsaved_change, with the revision and document it started from (solver thread, locked)."""
+        s = self.session
+        before = (s.revision, s.document())
+        scenario, document = s.unsaved_change(fn, *args, **kwargs)
+        return before, scenario, document
+
+    async def _get_scenario(self, client: Client, message: Any) -> None:
+        """The whole scenario to this tab only (a tab that missed a `sketch_change` asks for it). Taken while no
+        change is being saved, so the `sketch_change` messages after it start from its revision."""
+        async with self._changes:
+            document = await self.runner.read(self.session.document)
+            s = self.session
+            tail = {"revision": s.revision, "edited": s.edited, "origin": s.origin_name,
+                    **({"id": message.id} if message.id is not None else {})}
+            body = await asyncio.to_thread(self.store.document_text, document)
+        client.queue('{"type":"scenario","scenario":' + body + "," + p.dumps(tail)[1:])
+
     # ------------------------------------------------------------ handlers
     async def _change(self, client: Client, message: Any, fn: Callable, *args: Any, **kwargs: Any) -> None:
         """Apply a change in the solver's thread, then save it in another thread while the flow steps on, and
-        acknowledge it (the `scenario` broadcast) only once saved. Changes wait for each other's save, so
-        files are written in order; a save that fails rolls the change back and AutosaveFailed tells every tab."""
+        acknowledge it (the `scenario` or `sketch_change` broadcast) only once saved. Changes wait for each
+        other's save, so files are written in order; a save that fails rolls the change back and AutosaveFailed
+        tells every tab."""
         async with self._changes:
-            scenario, document = await self.runner.call(self.session.unsaved_change, fn, *args, **kwargs)
+            before, scenario, document = await self.runner.call(self._change_with_before, fn, *args, **kwargs)
             await self._save_or_roll_back(scenario, document)
-            self._broadcast_scenario(client, message, document)
+            self._broadcast_change(client, message, before, document)
 
     async def _save_or_roll_back(self, scenario: scn.Scenario, document: dict) -> None:
         try:

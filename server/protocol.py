@@ -452,13 +452,19 @@ class WaveHistoryRequest(_Message):
     after_steps: int = Field(-1, ge=-1, description="an integer from -1 (every row) upwards")
 
 
+class GetScenario(_Message):
+    """The whole scenario, to the asking tab only (a tab whose copy missed a `sketch_change` asks for it)."""
+
+    type: Literal["get_scenario"]
+
+
 ClientMessage = Annotated[
     Union[AddShape, RemoveShape, Undo, Redo, ClearSketch, ClearAll, SetMirror, SetGas, SetConditions, SetNumerics,
           SetResolution, SetDomain, SetEdges, SetMode, SetInitial, Run, Pause, ResetFlow, Step, Settle, AddStation,
           RemoveStation, AddProbe, RemoveProbe, SetView, Inspect, Profile, SaveScenario, LoadScenario, ListScenarios,
           DeleteScenario, Export, ListExports, DeleteExport, BuildNozzle, PropellantGas,
           ListFrames, RecallFrame, SetWaveLine,
-          WaveHistoryRequest, SetComparison],
+          WaveHistoryRequest, SetComparison, GetScenario],
     Field(discriminator="type"),
 ]
 _ADAPTER: TypeAdapter = TypeAdapter(ClientMessage)

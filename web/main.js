@@ -44,6 +44,7 @@ const app = {
   range: "auto",
   scenario: null,
   revision: -1,
+  awaitingScenario: false, // a sketch_change was missed: the whole scenario is asked for and skipped changes wait
   state: "paused",
   status: null,
   frame: null,
@@ -663,12 +664,30 @@ function takeScenario(scenario, revision, edited, origin) {
   } else scheduleDraw();
 }
 
+/** One shape inserted or removed (server/PROTOCOL.md `sketch_change`): applied to this tab's copy when that is
+ * the revision it starts from; a tab that missed a change asks for the whole scenario and waits for it. */
+function takeSketchChange(msg) {
+  if (!app.scenario || msg.revision <= app.revision || app.awaitingScenario) return; // held already, or coming whole
+  if (msg.base_revision !== app.revision) {
+    app.awaitingScenario = true;
+    app.send("get_scenario");
+    return;
+  }
+  const shapes = app.scenario.sketch.shapes.slice();
+  if (msg.insert) shapes.splice(msg.insert.index, 0, msg.insert.shape);
+  else shapes.splice(msg.remove.index, 1);
+  const scenario = { ...app.scenario, name: msg.name, description: msg.description,
+    sketch: { ...app.scenario.sketch, shapes } };
+  takeScenario(scenario, msg.revision, msg.edited, msg.origin);
+}
+
 function onMessage(msg) {
   designMessage(app, msg);
   engineMessage(app, msg);
   switch (msg.type) {
     case "hello": {
       app.hello = msg;
+      app.awaitingScenario = false;
       app.views = msg.views || [];
       app.vocabulary = msg.vocabulary || { choices: {}, limits: {} };
       fillChoices(app);
@@ -700,7 +719,12 @@ function onMessage(msg) {
       drawStrip();
       break;
     case "scenario":
+      app.awaitingScenario = false;
       takeScenario(msg.scenario, msg.revision, msg.edited, msg.origin);
+      for (const el of $$(".invalid")) el.classList.remove("invalid");
+      break;
+    case "sketch_change":
+      takeSketchChange(msg);
       for (const el of $$(".invalid")) el.classList.remove("invalid");
       break;
     case "status":
