@@ -42,6 +42,9 @@ G0_M_S2 = 9.80665
 SECTION_LINES = 2048
 #: Golden-section steps refining the throat between its neighbouring lines (shrinks the bracket by 0.618^n).
 REFINE_STEPS = 80
+#: A shape with more vertices than this adds no reading lines of its own (30 polygons of 15,000 vertices would
+#: ask for 900,000 lines); common practice, no source: 512 covers every hand-drawn or designed contour here
+VERTEX_LINES_PER_SHAPE = 512
 #: Share of the divergent length, ending at the exit, over which the wall's half angle is fitted.
 HALF_ANGLE_TAIL = 0.4
 
@@ -244,7 +247,10 @@ def _drawing(scenario) -> Drawing:
         shapes.append(shape)
         if mirror_y is not None:
             shapes.append(shape.mirrored_about_y(mirror_y))
-    vx = sorted({x for s in shapes for x in _vertices_x(s) if dom.x_min_m <= x <= dom.x_max_m})
+    # corners are read exactly where they are drawn; a long outline (an imported contour, a big freehand sketch)
+    # is read on the SECTION_LINES grid instead, its throat found by the golden-section refinement
+    vx = sorted({x for s in shapes for x in (lambda v: v if len(v) <= VERTEX_LINES_PER_SHAPE else [])(_vertices_x(s))
+                 if dom.x_min_m <= x <= dom.x_max_m})
     return Drawing(tuple(shapes), dom.x_min_m, dom.x_max_m, dom.y_min_m, dom.y_max_m,
                    symmetry_line_m(scenario.mode, sketch.mirror, dom.y_min_m, dom.y_max_m), scenario.mode,
                    tuple(vx))
@@ -327,8 +333,16 @@ def _key(scenario) -> str:
 
 def _kept(scenario) -> dict:
     """What has been worked out for this drawing (the Drawing, the DrawnNozzle), kept for the last few drawings
-    (keyed by sketch, domain, mode and stations), since the page asks at every status."""
-    key = _key(scenario)
+    (keyed by sketch, domain, mode and stations), since the page asks at every status. The same scenario object
+    asked again skips building its key (a big sketch's key takes about a second)."""
+    for obj, known in _KEYS:
+        if obj is scenario:
+            key = known
+            break
+    else:
+        key = _key(scenario)
+        _KEYS.append((scenario, key))
+        del _KEYS[:-8]
     if key in _KEPT:
         _KEPT.move_to_end(key)
         return _KEPT[key]
@@ -340,6 +354,8 @@ def _kept(scenario) -> dict:
 
 
 _KEPT: "OrderedDict[str, dict]" = OrderedDict()
+#: (scenario object, its key) of the last few scenarios asked about; scenarios are not changed in place
+_KEYS: list = []
 
 
 def drawing(scenario) -> Drawing:
