@@ -49,42 +49,51 @@ def _free_port() -> int:
         return s.getsockname()[1]
 
 
-@pytest.fixture(scope="module")
-def server_url(tmp_path_factory):
-    """`shockslate serve` on a free loopback port, its data folder fresh, its output in a log file."""
+def start_server(args: list[str], data_dir: Path, log_path: Path, wait_s: float = 180.0) -> tuple[subprocess.Popen, str]:
+    """`shockslate serve` with `args` on a free loopback port, data in data_dir, output in log_path; returns
+    (process, url) once /health answers (a first start may compile the numba kernels: wait_s is a ceiling)."""
     port = _free_port()
-    data_dir = tmp_path_factory.mktemp("shockslate-data")
-    log_path = tmp_path_factory.mktemp("server-log") / "server.log"
     env = dict(os.environ)
     env["SHOCKSLATE_DATA_DIR"] = str(data_dir)
-    env.setdefault("NUMBA_CACHE_DIR", str(ROOT / ".numba_cache"))
     with open(log_path, "wb") as log:
         proc = subprocess.Popen(
             [sys.executable, "-m", "shockslate.server.cli", "serve", "--host", "127.0.0.1", "--port", str(port),
-             "--data-dir", str(data_dir)],
+             "--data-dir", str(data_dir), *args],
             cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
     url = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 120  # first start may compile the numba kernels
+    deadline = time.monotonic() + wait_s
+    while True:
+        if proc.poll() is not None:
+            pytest.fail(f"server exited with {proc.returncode}:\n{log_path.read_text()[-3000:]}")
+        try:
+            with urllib.request.urlopen(url + "/health", timeout=2) as r:
+                if r.status == 200:
+                    return proc, url
+        except OSError:
+            pass
+        if time.monotonic() > deadline:
+            stop_server(proc)
+            pytest.fail(f"server did not answer /health:\n{log_path.read_text()[-3000:]}")
+        time.sleep(0.2)
+
+
+def stop_server(proc: subprocess.Popen) -> None:
+    proc.terminate()
     try:
-        while True:
-            if proc.poll() is not None:
-                pytest.fail(f"server exited with {proc.returncode}:\n{log_path.read_text()[-3000:]}")
-            try:
-                with urllib.request.urlopen(url + "/health", timeout=2) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                pass
-            if time.monotonic() > deadline:
-                pytest.fail(f"server did not answer /health:\n{log_path.read_text()[-3000:]}")
-            time.sleep(0.2)
+        proc.wait(timeout=10)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+
+
+@pytest.fixture(scope="module")
+def server_url(tmp_path_factory):
+    """`shockslate serve` on a free loopback port, its data folder fresh, its output in a log file."""
+    proc, url = start_server([], tmp_path_factory.mktemp("shockslate-data"),
+                             tmp_path_factory.mktemp("server-log") / "server.log")
+    try:
         yield url
     finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            proc.kill()
+        stop_server(proc)
 
 
 @pytest.fixture(scope="module")

@@ -8,14 +8,7 @@ revision number and a resend on a gap is common practice, no single source.
 from __future__ import annotations
 
 import json
-import os
-import shutil
-import socket
-import subprocess
-import sys
 import time
-import urllib.request
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -24,30 +17,7 @@ from websockets.sync.client import connect
 from shockslate.server.scenario_delta import DELTA_MIN_BYTES
 from scenario_docs import duct_doc
 
-ROOT = Path(__file__).resolve().parent.parent
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
-                 "--disable-sync", "--no-first-run", "--disable-quic"]
-#: Upper bound for any one wait (a generous ceiling, not a timing check).
-WAIT_MS = 60_000
-
-try:
-    from playwright.sync_api import sync_playwright
-except ImportError:  # pragma: no cover - depends on the machine
-    sync_playwright = None
-
-
-def _missing(reason: str):
-    """Without a browser: skip on a developer's machine, fail in CI (where .ci/run installs one)."""
-    if os.environ.get("CI"):
-        pytest.fail(f"browser tests cannot run in CI: {reason}")
-    pytest.skip(reason)
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
+from test_page import WAIT_MS, browser, start_server, stop_server  # noqa: F401 - fixtures are found by name
 
 
 def big_duct() -> dict:
@@ -69,52 +39,15 @@ def disc(x_m: float) -> dict:
 @pytest.fixture(scope="module")
 def server_url(tmp_path_factory):
     """`shockslate serve --paused` on the big duct, a free loopback port, a fresh data folder, output to a log."""
-    port = _free_port()
     folder = tmp_path_factory.mktemp("page-deltas")
     scenario = folder / "big_duct.json"
     scenario.write_text(json.dumps(big_duct()))
-    log_path = folder / "server.log"
-    env = dict(os.environ)
-    env.setdefault("NUMBA_CACHE_DIR", str(ROOT / ".numba_cache"))
-    with open(log_path, "wb") as log:
-        proc = subprocess.Popen(
-            [sys.executable, "-m", "shockslate.server.cli", "serve", "--host", "127.0.0.1", "--port", str(port),
-             "--data-dir", str(folder / "data"), "--scenario", str(scenario), "--paused", "--threads", "1"],
-            cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
-    url = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 120
+    proc, url = start_server(["--scenario", str(scenario), "--paused", "--threads", "1"], folder / "data",
+                             folder / "server.log", wait_s=120.0)
     try:
-        while True:
-            if proc.poll() is not None:
-                pytest.fail(f"server exited with {proc.returncode}:\n{log_path.read_text()[-3000:]}")
-            try:
-                with urllib.request.urlopen(url + "/health", timeout=2) as r:
-                    if r.status == 200:
-                        break
-            except OSError:
-                pass
-            if time.monotonic() > deadline:
-                pytest.fail(f"server did not answer /health:\n{log_path.read_text()[-3000:]}")
-            time.sleep(0.2)
         yield url
     finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    if sync_playwright is None:
-        _missing("the playwright package is not installed (pip install -e '.[test]')")
-    if not (Path(CHROMIUM).exists() or shutil.which("chromium")):
-        _missing("Debian's chromium is not installed (apt-get install chromium)")
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS)
-        yield b
-        b.close()
+        stop_server(proc)
 
 
 class OtherTab:

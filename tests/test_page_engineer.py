@@ -17,11 +17,6 @@ from __future__ import annotations
 import csv
 import importlib.util
 import math
-import os
-import subprocess
-import sys
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
@@ -29,7 +24,7 @@ import pytest
 from shockslate.solver import nozzle
 from shockslate.solver import scenario as scn
 from test_page import (  # noqa: F401 - fixtures are found by name
-    CHROMIUM, ROOT, WAIT_MS, _free_port, browser, load_through_upload, pause, step, stream_duct)
+    CHROMIUM, ROOT, WAIT_MS, browser, load_through_upload, pause, start_server, step, stop_server, stream_duct)
 
 HAS_CANTERA = importlib.util.find_spec("cantera") is not None
 ROWS = list(csv.DictReader((Path(__file__).parent / "data" / "propellant_check_values.csv").open(encoding="utf-8")))
@@ -37,41 +32,11 @@ MINUS = "\u2212"
 
 
 def _start_server(tmp_path_factory, *extra: str):
-    port = _free_port()
-    data_dir = tmp_path_factory.mktemp("shockslate-data")
+    """Its own paused, one-thread server (the console is read; a second one runs without thermochemistry)."""
     log_path = tmp_path_factory.mktemp("server-log") / "server.log"
-    env = dict(os.environ)
-    env["SHOCKSLATE_DATA_DIR"] = str(data_dir)
-    env.setdefault("NUMBA_CACHE_DIR", str(ROOT / ".numba_cache"))
-    with open(log_path, "wb") as log:
-        proc = subprocess.Popen(
-            [sys.executable, "-m", "shockslate.server.cli", "serve", "--host", "127.0.0.1", "--port", str(port),
-             "--data-dir", str(data_dir), "--paused", "--threads", "1", *extra],
-            cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
-    url = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 180  # a first start may compile the numba kernels
-    while True:
-        if proc.poll() is not None:
-            pytest.fail(f"server exited with {proc.returncode}:\n{log_path.read_text()[-3000:]}")
-        try:
-            with urllib.request.urlopen(url + "/health", timeout=2) as r:
-                if r.status == 200:
-                    break
-        except OSError:
-            pass
-        if time.monotonic() > deadline:
-            proc.terminate()
-            pytest.fail(f"server did not answer /health:\n{log_path.read_text()[-3000:]}")
-        time.sleep(0.2)
+    proc, url = start_server(["--paused", "--threads", "1", *extra], tmp_path_factory.mktemp("shockslate-data"),
+                             log_path)
     return proc, url, log_path
-
-
-def _stop(proc) -> None:
-    proc.terminate()
-    try:
-        proc.wait(timeout=10)
-    except subprocess.TimeoutExpired:
-        proc.kill()
 
 
 @pytest.fixture(scope="module")
@@ -80,7 +45,7 @@ def engineer_server(tmp_path_factory):
     try:
         yield url, log_path
     finally:
-        _stop(proc)
+        stop_server(proc)
 
 
 def _open(browser, url):
@@ -289,7 +254,7 @@ def plain_server(tmp_path_factory):
     try:
         yield url
     finally:
-        _stop(proc)
+        stop_server(proc)
 
 
 def test_without_the_thermochemistry_library_the_page_says_so_and_how_to_add_it(browser, plain_server):
