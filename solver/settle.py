@@ -121,17 +121,7 @@ class LocalStepper:
         positive = self.dt[self.dt > 0.0]
         dt_min = float(positive.min()) if positive.size else 0.0
         pseudo = change / rate_sum if rate_sum > 0.0 and change > 0.0 else dt_min
-        prev_rate = sim._rate
-        sim.floors_last_step = floors
-        sim.floors_total += floors
-        sim.time_s += pseudo
-        sim.steps += 1
-        sim.last_dt_s = pseudo
-        if sim._row_bad.any() or sim._cut_out[2] > 0:
-            sim._diverged("non_finite")
-        sim._rate = max(float(sim._row_rate.max()), float(sim._cut_out[0]), sim._held_rate)
-        sim._fluxes_step = sim.steps
-        sim._watch(prev_rate, floors)
+        sim.finish_step(pseudo, floors)
         return pseudo
 
 

@@ -510,18 +510,23 @@ class Simulation:
             self.update_cut_cells(u0, a, b, dt, inv_dx, gamma)
             self._fill_edges()
             floors += int(self._row_floors.sum()) + int(self._cut_out[1])
+        self.finish_step(dt, floors)
+        return dt
+
+    def finish_step(self, dt_s: float, floors: int) -> None:
+        """The end of every step (time-accurate, or settle mode's with its pseudo time step): the counts, the
+        non-finite check and the divergence watch."""
         prev_rate = self._rate
         self.floors_last_step = floors
         self.floors_total += floors
-        self.time_s += dt
+        self.time_s += dt_s
         self.steps += 1
-        self.last_dt_s = dt
+        self.last_dt_s = dt_s
         if self._row_bad.any() or self._cut_out[2] > 0:
             self._diverged("non_finite")
         self._rate = max(float(self._row_rate.max()), float(self._cut_out[0]), self._held_rate)
         self._fluxes_step = self.steps
         self._watch(prev_rate, floors)
-        return dt
 
     def _watch(self, prev_rate: float, floors: int) -> None:
         """Stop a run that is going bad before it produces garbage, and keep snapshots while it is well."""

@@ -102,9 +102,13 @@ def cmd_run(args: argparse.Namespace) -> int:
         print(f"nozzle figures are from an unfinished run (stopped at t = {summary['sim_time_s']:.6g} s of "
               f"{summary['end_time_s']:.6g} s); see summary.json", file=sys.stderr)
     elif nozzle:
-        print(f"nozzle ({nozzle['regime']}): mass flow {nozzle['mass_flow_ratio']:.4f} of choked, C_F "
-              f"{nozzle['thrust_coefficient_ratio']:.4f} of ideal ({nozzle['thrust_coefficient_ratio_with_divergence']:.4f} "
-              f"with divergence factor), Isp {nozzle['specific_impulse_s']:.1f} s")
+        def fig(key: str, spec: str, unit: str = "") -> str:  # a figure the flow does not give yet is None
+            value = nozzle.get(key)
+            return "not available" if value is None else format(value, spec) + unit
+
+        print(f"nozzle ({nozzle['regime']}): mass flow {fig('mass_flow_ratio', '.4f')} of choked, C_F "
+              f"{fig('thrust_coefficient_ratio', '.4f')} of ideal ({fig('thrust_coefficient_ratio_with_divergence', '.4f')} "
+              f"with divergence factor), Isp {fig('specific_impulse_s', '.1f', ' s')}")
     st = summary["steady"]
     if summary.get("settle"):
         print(f"settle mode: {summary['settle']['notice']}", file=sys.stderr)
