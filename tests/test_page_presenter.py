@@ -108,6 +108,9 @@ def test_looking_back_shows_an_earlier_frame_while_the_run_goes_on_then_live(pag
     load_builtin(page, "shock_tube_reflection")
     run(page)
     page.wait_for_function("window.shockslate.frame && window.shockslate.frame.step > 200", timeout=WAIT_MS)
+    # the ring starts again with the loaded flow: wait (bounded) until it holds a few instants to look back on
+    drawn = page.evaluate("window.shockslate.framesDrawn")
+    page.wait_for_function("n => window.shockslate.framesDrawn >= n + 4", arg=drawn, timeout=WAIT_MS)
     page.click("#scrub-back")
     page.wait_for_function("window.shockslate.presenter.recalled !== null && !document.querySelector('#scrub').disabled",
                            timeout=WAIT_MS)
