@@ -364,6 +364,19 @@ def _recv_until(sock, want, timeout_s: float = 120.0):
                 return data
 
 
+def _note_frames(sock, arrivals: list[float], stop, poll_s: float) -> None:
+    """Note the arrival time of every binary frame on sock until stop is set or the socket closes (a thread)."""
+    while not stop.is_set():
+        try:
+            msg = sock.recv(timeout=poll_s)
+        except TimeoutError:
+            continue
+        except Exception:  # noqa: BLE001 - the socket closed at the end
+            return
+        if isinstance(msg, bytes):
+            arrivals.append(time.monotonic())
+
+
 def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict:
     """The big sketch (30 polygons of 15,000 points) as a user meets it: a real server process and real
     websocket tabs. Seconds from sending `add_shape` (and its `undo`) to its acknowledgement at the sender and
@@ -409,18 +422,7 @@ def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict
         arrivals: list[float] = []
         stop = threading.Event()
 
-        def watch() -> None:
-            while not stop.is_set():
-                try:
-                    msg = other.recv(timeout=0.2)
-                except TimeoutError:
-                    continue
-                except Exception:  # noqa: BLE001 - the socket closed at the end
-                    return
-                if isinstance(msg, bytes):
-                    arrivals.append(time.monotonic())
-
-        watcher = threading.Thread(target=watch, daemon=True)
+        watcher = threading.Thread(target=_note_frames, args=(other, arrivals, stop, 0.2), daemon=True)
         watcher.start()
         time.sleep(3.0)
         # the new tab in its own process: receiving 17 MB here would hold this process's GIL and stall the watcher
@@ -514,18 +516,7 @@ def resolution_change_phase(url: str, resolutions: tuple[int, ...] = (1024, 512,
     arrivals: list[float] = []
     stop = threading.Event()
 
-    def watch() -> None:
-        while not stop.is_set():
-            try:
-                msg = watcher.recv(timeout=0.5)
-            except TimeoutError:
-                continue
-            except Exception:  # noqa: BLE001 - the socket closed at the end
-                return
-            if isinstance(msg, bytes):
-                arrivals.append(time.monotonic())
-
-    thread = threading.Thread(target=watch, daemon=True)
+    thread = threading.Thread(target=_note_frames, args=(watcher, arrivals, stop, 0.5), daemon=True)
     thread.start()
     changer, _ = _connect(url)
     changes = []

@@ -38,10 +38,12 @@ def _free_port() -> int:
 class LiveServer:
     """create_app served by uvicorn on a free loopback port, in a thread; parts gives the server's own objects."""
 
-    def __init__(self, tmp_path, nx: int = 64):
-        config = ServerConfig(data_dir=tmp_path / "data", scenario=scn.parse_scenario(duct_doc(nx, name="live duct")),
-                              start_running=False, warm=False, solver_threads=1)
-        self.app = create_app(config)
+    def __init__(self, tmp_path, nx: int = 64, doc: dict | None = None, **config: object):
+        """The test duct at nx cells (or the scenario document `doc`), paused, one solver thread; `config` adds
+        ServerConfig fields."""
+        doc = doc if doc is not None else duct_doc(nx, name="live duct")
+        self.app = create_app(ServerConfig(data_dir=tmp_path / "data", scenario=scn.parse_scenario(doc),
+                                           start_running=False, warm=False, solver_threads=1, **config))
         self.port = _free_port()
         self.server = uvicorn.Server(uvicorn.Config(self.app, host="127.0.0.1", port=self.port, log_level="warning"))
         self.thread = threading.Thread(target=self.server.run, daemon=True)

@@ -10,19 +10,16 @@ from __future__ import annotations
 
 import contextlib
 import json
-import socket
-import threading
 import time
 
 import numpy as np
 import pytest
-import uvicorn
 from websockets.sync.client import connect
 
-from shockslate.server.app import ServerConfig, create_app
 from shockslate.server.scenario_delta import DELTA_MIN_BYTES, apply_delta, sketch_delta
 from shockslate.solver import scenario as scn
 from scenario_docs import duct_doc
+from test_live_changes import LiveServer as BaseLiveServer
 
 #: Generous limit for anything the test waits for (a busy 2-core machine).
 WAIT_S = 120.0
@@ -32,32 +29,11 @@ def disc(x_m: float, r_m: float = 0.01) -> dict:
     return {"kind": "circle", "centre_m": [x_m, 0.05], "radius_m": r_m, "paints": "wall"}
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-class LiveServer:
-    """create_app served by uvicorn on a free loopback port, in a thread; parts gives the server's own objects."""
+class LiveServer(BaseLiveServer):
+    """The live server of test_live_changes on a given document, with tabs that keep their own scenario copy."""
 
     def __init__(self, tmp_path, doc: dict, delta_min_bytes: int):
-        config = ServerConfig(data_dir=tmp_path / "data", scenario=scn.parse_scenario(doc), start_running=False,
-                              warm=False, solver_threads=1, delta_min_bytes=delta_min_bytes)
-        self.app = create_app(config)
-        self.port = _free_port()
-        self.server = uvicorn.Server(uvicorn.Config(self.app, host="127.0.0.1", port=self.port, log_level="warning"))
-        self.thread = threading.Thread(target=self.server.run, daemon=True)
-        self.thread.start()
-        deadline = time.monotonic() + WAIT_S
-        while not self.server.started:
-            if not self.thread.is_alive() or time.monotonic() > deadline:
-                raise AssertionError("the server did not start")
-            time.sleep(0.05)
-
-    @property
-    def parts(self):
-        return self.app.state.parts
+        super().__init__(tmp_path, doc=doc, delta_min_bytes=delta_min_bytes)
 
     def saved_document(self) -> dict:
         """The autosave as written after the last acknowledged change."""
@@ -68,9 +44,6 @@ class LiveServer:
         with connect(f"ws://127.0.0.1:{self.port}/ws", max_size=None) as sock:
             yield Tab(sock)
 
-    def stop(self) -> None:
-        self.server.should_exit = True
-        self.thread.join(timeout=30)
 
 
 class Tab:
