@@ -36,7 +36,7 @@ import numpy as np
 from numba import njit
 
 from .geometry import SMALL_GAS_FRACTION, WallGeometry
-from .kernels import FLUX_HLL, LIM_FIRST_ORDER, _riemann_flux, floored_primitive
+from .kernels import FLUX_HLL, LIM_FIRST_ORDER, MARK_HLL, _riemann_flux, floored_primitive
 from .kinds import CellKind
 
 #: Groups are grown until their gas volume is at least this fraction of a full cell's.
@@ -336,7 +336,7 @@ def band_face_fluxes(W, bj, bi, grad, xj, xf, xl, xr, yf, yi, yb, yt, Fx, Gy, hl
         if rl <= 0.0 or pl <= 0.0 or rr <= 0.0 or pr <= 0.0:
             rl, ul, vl, pl = W[0, ja, ia], W[1, ja, ia], W[2, ja, ia], W[3, ja, ia]
             rr, ur, vr, pr = W[0, jb, ib], W[1, jb, ib], W[2, jb, ib], W[3, jb, ib]
-        fid = FLUX_HLL if (hll_x[ja, ia] | hll_x[jb, ib]) else flux
+        fid = FLUX_HLL if ((hll_x[ja, ia] | hll_x[jb, ib]) & MARK_HLL) else flux
         m0, m1, m2, m3 = _riemann_flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, fid)
         Fx[0, j, f] = m0
         Fx[1, j, f] = m1
@@ -362,7 +362,7 @@ def band_face_fluxes(W, bj, bi, grad, xj, xf, xl, xr, yf, yi, yb, yt, Fx, Gy, hl
         if rl <= 0.0 or pl <= 0.0 or rr <= 0.0 or pr <= 0.0:
             rl, ul, vl, pl = W[0, ja, ia], W[1, ja, ia], W[2, ja, ia], W[3, ja, ia]
             rr, ur, vr, pr = W[0, jb, ib], W[1, jb, ib], W[2, jb, ib], W[3, jb, ib]
-        fid = FLUX_HLL if (hll_y[ja, ia] | hll_y[jb, ib]) else flux
+        fid = FLUX_HLL if ((hll_y[ja, ia] | hll_y[jb, ib]) & MARK_HLL) else flux
         m0, mn, mt, m3 = _riemann_flux(rl, vl, ul, pl, rr, vr, ur, pr, gamma, fid)
         Gy[0, f, i] = m0
         Gy[1, f, i] = mt

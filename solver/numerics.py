@@ -11,7 +11,7 @@ from .choices import Choice, table
 
 #: Kernel ids of the slope limiters (id 0 is first order: no slope) and the numerical fluxes.
 #: `kernels.py` compares against these; the tables below are the only place a name meets its id.
-LIM_FIRST_ORDER, LIM_MINMOD, LIM_VAN_LEER, LIM_MC = 0, 1, 2, 3
+LIM_FIRST_ORDER, LIM_MINMOD, LIM_VAN_LEER, LIM_MC, LIM_VAN_LEER_SHOCK_MINMOD = 0, 1, 2, 3, 4
 FLUX_HLLC, FLUX_HLL, FLUX_RUSANOV = 0, 1, 2
 
 #: Reconstruction order: 1 piecewise constant, 2 MUSCL (van Leer 1979) with a slope limiter.
@@ -19,7 +19,9 @@ ORDERS: dict[int, Choice] = table(Choice(1, "1 (piecewise constant)"), Choice(2,
 #: Slope limiters by scenario name.
 LIMITERS: dict[str, Choice] = table(Choice("minmod", "minmod", LIM_MINMOD),
                                     Choice("van_leer", "van Leer", LIM_VAN_LEER),
-                                    Choice("mc", "MC", LIM_MC))
+                                    Choice("mc", "MC", LIM_MC),
+                                    Choice("van_leer_shock_minmod", "van Leer, minmod at shocks",
+                                           LIM_VAN_LEER_SHOCK_MINMOD))
 #: Approximate Riemann solvers (numerical fluxes) by scenario name.
 FLUXES: dict[str, Choice] = table(Choice("hllc", "HLLC", FLUX_HLLC),
                                   Choice("hll", "HLL", FLUX_HLL),

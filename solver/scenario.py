@@ -23,7 +23,7 @@ from .conditions import MACH_MAX, P_MAX_PA, T_MAX_K, T_MIN_K, Ambient, Condition
 from .diagnostics import Station
 from .domain import MAX_NX, Domain
 from .gas import GAMMA_MAX, GAMMA_MIN, PRESET_CHOICES, PRESETS, Gas
-from .geometry import wall_geometry
+from .geometry import WallGeometry, wall_geometry
 from .kinds import EDGES, PAINTS
 from .numerics import CFL_MAX, CFL_MIN, FLUXES, INTEGRATOR_CHOICES, LIMITERS, ORDERS, Numerics
 from .shapes import MIRRORS, SHAPE_KINDS, Metres, PositiveMetres, Sketch, SketchModel
@@ -444,10 +444,11 @@ def initial_region(s: Scenario, domain: Domain) -> np.ndarray:
     return np.zeros(domain.shape, bool)
 
 
-def build_simulation(s: Scenario, nx: int | None = None) -> Simulation:
-    """A Simulation at the scenario's resolution (or nx), walls where the sketch draws them, `initial` applied."""
+def build_simulation(s: Scenario, nx: int | None = None, geometry: WallGeometry | None = None) -> Simulation:
+    """A Simulation at the scenario's resolution (or nx), walls where the sketch draws them, `initial` applied.
+    geometry: the sketch's wall geometry on that grid when the caller has it already (the live session keeps it)."""
     setup = to_setup(s, nx)
-    geo = wall_geometry(to_sketch(s), setup.domain)
+    geo = geometry if geometry is not None else wall_geometry(to_sketch(s), setup.domain)
     sim = Simulation(setup, geo.mask, geo)
     gas, cond = setup.gas, setup.conditions
     if s.initial.kind == "stream":

@@ -42,6 +42,10 @@ FLOOR_CELLS_MIN, FLOOR_CELLS_FRACTION, FLOOR_STEPS = 4, 0.005, 20
 #: A snapshot of the state is kept every SNAPSHOT_EVERY untroubled steps, the newest SNAPSHOT_RING of them
 #: (each one 32 bytes per cell; the arrays of a simulation stay under the 300 bytes per cell of the benchmark goal).
 SNAPSHOT_EVERY, SNAPSHOT_RING = 25, 2
+#: The reservoir feed follows its held state with this time constant, in acoustic transits of the domain at the
+#: reservoir's sound speed (Simulation.feed_relax; long beside a chamber's acoustic periods, short beside a run).
+#: Common practice to relax over a few such times, no source for the exact value.
+FEED_RELAX_TRANSITS = 0.25
 
 
 @dataclass(frozen=True)
@@ -238,7 +242,7 @@ class Simulation:
 
     def set_numerics(self, numerics: Numerics) -> None:
         self.setup = replace(self.setup, numerics=numerics)
-        self._hll_x[:] = 0  # set again each stage while the flux is HLLC
+        self._hll_x[:] = 0  # set again each step while the flux is HLLC or the limiter marks shocks
         self._hll_y[:] = 0
         self._update_rate()
 
@@ -465,14 +469,37 @@ class Simulation:
         ny, nx = self.domain.shape
         return ny * nx
 
-    def stage_fluxes(self, res, gamma: float, lim: int, flux: int) -> None:
+    def stage_fluxes(self, res, gamma: float, lim: int, flux: int, feed_relax: float = 1.0) -> None:
         """The face fluxes of one stage (the reservoir feed, x and y faces, the faces beside cut cells): shared by
-        the time-accurate step and settle mode's local steps (solver/settle.py), so both use one scheme."""
-        kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma)
+        the time-accurate step and settle mode's local steps (solver/settle.py), so both use one scheme.
+        feed_relax: the fraction of the way the reservoir's feed cells move to their held state this stage."""
+        kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma,
+                                    feed_relax)
         kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
         kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
         cut_cells.reconstruct(self._cut_cells, self.W, self.kind, self.Fx, self.Gy, self._hll_x, self._hll_y, gamma,
                               lim, flux)
+
+    def feed_relax(self, dt_s: float, stages: int) -> float:
+        """The reservoir feed's relaxation per stage (kernels.feed_reservoir_edge): its cells follow their held
+        state with the time constant FEED_RELAX_TRANSITS acoustic transits of the domain at the reservoir's sound
+        speed, so sound leaves the chamber through the feed instead of ringing in it."""
+        if self._feed_j.size == 0:
+            return 1.0
+        tau_s = FEED_RELAX_TRANSITS * (self.domain.x_max_m - self.domain.x_min_m) / self._feed_sound_speed_m_s()
+        return 1.0 - math.exp(-dt_s / (tau_s * stages))
+
+    def _feed_sound_speed_m_s(self) -> float:
+        rho0, p0 = self._held_prim[CellKind.RESERVOIR][0], self._held_prim[CellKind.RESERVOIR][3]
+        return math.sqrt(self.setup.gas.gamma * p0 / rho0)
+
+    def mark_shocks(self, lim: int, flux: int) -> None:
+        """The shock marks (kernels.shock_switch), once a step: a shock moves less than a cell, the marks reach two
+        beyond it. HLLC takes HLL across strong shocks; the limiter van_leer_shock_minmod takes minmod in them."""
+        marks = ((kernels.MARK_HLL if flux == kernels.FLUX_HLLC else 0)
+                 | (kernels.MARK_MINMOD if lim == kernels.LIM_VAN_LEER_SHOCK_MINMOD else 0))
+        if marks:
+            kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO, marks)
 
     def update_cut_cells(self, u0: np.ndarray, a: float, b: float, dt: float, inv_dx: float, gamma: float) -> None:
         """One stage's update of the cut cells (merged groups) with time step dt."""
@@ -498,10 +525,10 @@ class Simulation:
         kernels.copy_state(self.U, self.U0)
         floors = 0
         res = self._held_prim[CellKind.RESERVOIR]
-        if flux == kernels.FLUX_HLLC:  # once a step: a shock moves less than a cell, the marks reach two beyond it
-            kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO)
+        self.mark_shocks(lim, flux)
+        relax = self.feed_relax(dt, len(num.tableau.stages))
         for a, b in num.tableau.stages:
-            self.stage_fluxes(res, gamma, lim, flux)
+            self.stage_fluxes(res, gamma, lim, flux, relax)
             # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
             u0 = self.U0 if a != 0.0 else self.U
             kernels.update_stage(self.U, u0, self.W, self.Fx, self.Gy, self.kind, self._cut, a, b, dt, inv_dx,

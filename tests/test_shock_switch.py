@@ -42,6 +42,28 @@ def test_a_shock_along_x_switches_only_the_faces_across_its_front():
     assert hy[:, cols].all()
 
 
+def test_the_minmod_marks_cover_all_faces_of_shock_cells_and_leave_the_hll_marks_alone():
+    # the limiter van_leer_shock_minmod (kernels.MARK_MINMOD): a cell in a shock along x has both its x- and
+    # y-faces marked for minmod; the HLL bit stays on the y-faces only, as [NK] has it
+    sim = Simulation(Setup(Domain(0.0, 1.0, 0.0, 0.5, 40), edges=Edges("wall", "wall", "wall", "wall")))
+    x = sim.domain.x_centres_m()[None, :]
+    sim.set_primitive(np.where(x < 0.5, 4.0, 1.0), np.where(x < 0.5, 500.0, 0.0), 0.0, np.where(x < 0.5, 5e5, 1e5))
+    kernels.shock_switch(sim.W, sim.kind, sim._hll_x, sim._hll_y, kernels.SHOCK_PRESSURE_RATIO,
+                         kernels.MARK_HLL | kernels.MARK_MINMOD)
+    hx, hy = sim._hll_x[2:-2, 2:-2].copy(), sim._hll_y[2:-2, 2:-2].copy()
+    hll_only = _switch(sim)
+    assert np.array_equal(hx & kernels.MARK_HLL, hll_only[0]) and np.array_equal(hy & kernels.MARK_HLL, hll_only[1])
+    assert np.array_equal((hx & kernels.MARK_MINMOD) > 0, hll_only[1] > 0)
+    assert np.array_equal((hy & kernels.MARK_MINMOD) > 0, hll_only[1] > 0)
+    # a limiter alone (plain HLL flux) marks minmod only
+    sim2 = Simulation(Setup(Domain(0.0, 1.0, 0.0, 0.5, 40), edges=Edges("wall", "wall", "wall", "wall"),
+                            numerics=Numerics(flux="hll", limiter="van_leer_shock_minmod")))
+    sim2.set_primitive(np.where(x < 0.5, 4.0, 1.0), np.where(x < 0.5, 500.0, 0.0), 0.0, np.where(x < 0.5, 5e5, 1e5))
+    sim2.advance(1)
+    assert not ((sim2._hll_x | sim2._hll_y) & kernels.MARK_HLL).any()
+    assert (sim2._hll_y & kernels.MARK_MINMOD).any()
+
+
 def test_expansions_and_weak_jumps_keep_hllc():
     sim = Simulation(Setup(Domain(0.0, 1.0, 0.0, 0.5, 40), edges=Edges("wall", "wall", "wall", "wall")))
     x = sim.domain.x_centres_m()[None, :]

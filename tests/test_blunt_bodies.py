@@ -1,0 +1,189 @@
+"""Blunt bodies at Mach 3 with the limiter `van_leer_shock_minmod` (solver/kernels.py shock_switch, MARK_MINMOD).
+
+Sources:
+  [N]  NACA Report 1135 (1953), Equations, tables and charts for compressible flow: Rayleigh's pitot formula
+       (eq. 100, equation number from memory): p02 / p1 = 12.061 at Mach 3, gamma = 1.4.
+  [T]  E. F. Toro, Riemann Solvers and Numerical Methods for Fluid Dynamics, 3rd ed. (2009), sec. 4.3.3: the
+       shock-tube problems (Sod's is Test 1) and their exact solution (solver/riemann.py).
+
+What was measured, before the limiter was added (Mach 3, 40 cells per radius, HLLC with the shock switch, scripts
+reusing the setups below, largest gas pressure over the pitot value [N] every half flow time):
+  - planar cylinder on a domain x 0.07 to 0.17 m, y +-0.06 m (+-2 radii): the bow shock stands at x = 88.4 mm
+    from 7 to 12 flow times, then walks upstream (80.9 mm at 20, 76.4 mm at 30 flow times) with van Leer and with
+    minmod alike, the same with the right edge at the cylinder's centre (no wake in the domain), and with a cut-cell
+    body (from 22 flow times). On a domain +-4 radii high (the one below) it stays at 88.44 mm up to 30 flow times:
+    the subsonic layer behind the bow shock reaching the open edges at +-2 radii let the shock walk;
+  - on that taller domain the stagnation pressure still rang: 0.996 to 1.017 from 12 to 30 flow times with van
+    Leer (HLLC with the switch), 0.998 to 1.013 from 12 to 24 with plain HLL, but 0.9964 to 0.9973 with minmod
+    everywhere. So the ringing comes with van Leer's slopes, not with the flux or the wall;
+  - minmod only on the faces normal to a shock (a four-cell pressure jump across the face) left the sphere at
+    0.9899; minmod on all four faces of the cells the shock switch marks (a jump along either axis) reads 0.9938,
+    so the faces along the shock matter too. The limiter kept applies minmod to pressure and normal velocity only
+    on those faces (density and tangential velocity keep van Leer, for contacts): sphere 0.9915, cylinder 0.9971
+    to 0.9979 from 13 to 20 flow times;
+  - the sphere with a cut-cell body reads 0.9870 with the new limiter, 0.9863 with minmod everywhere (van Leer
+    0.9858): there the loss is made in the shock on every limiter (total pressure 0.990 just behind it on the
+    axis), and stays open;
+  - contact width in a shock tube (cells between 10 and 90 % of the density jump at the contact; and the jump over
+    the steepest one-cell step, a width that does not jump by whole cells), at 200 and 400 cells, van Leer against
+    the new limiter (minmod everywhere in brackets): Sod 5 / 4.69 and 6 / 5.64 against 5 / 4.66 and 7 / 5.68 (7, 9);
+    Toro 3: 7 / 5.82 and 7 / 6.83 against 7 / 5.77 and 7 / 6.85 (8, 10); Toro 5: 6 / 5.76 and 7 / 6.76 against
+    6 / 5.91 and 7 / 6.85 (9, 11).
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from shockslate.solver.conditions import Conditions, Stream
+from shockslate.solver.domain import Domain
+from shockslate.solver.gas import AIR, Gas
+from shockslate.solver.geometry import wall_geometry
+from shockslate.solver.kinds import CellKind
+from shockslate.solver.numerics import Numerics
+from shockslate.solver.raster import rasterise
+from shockslate.solver.riemann import exact_solution, star_state, wave_speeds
+from shockslate.solver.shapes import Circle, Sketch
+from shockslate.solver.simulation import Edges, Setup, Simulation
+
+G, M = 1.4, 3.0
+P1, T1 = 1.0e5, 300.0
+RADIUS_M = 0.03
+LIMITER = "van_leer_shock_minmod"
+#: a starting state of the cylinder below (12 flow times from a uniform stream), made by `python
+#: tests/test_blunt_bodies.py`; not a check value, only where the run starts, so the test needs a few flow times
+CYLINDER_START = Path(__file__).parent / "data" / "cylinder_mach3_40_cells_per_radius_start.npz"
+
+
+def _pitot_pa(m: float = M) -> float:
+    """[N] eq. 100, Rayleigh's pitot formula."""
+    return P1 * ((G + 1) ** 2 * m * m / (4 * G * m * m - 2 * (G - 1))) ** (G / (G - 1)) * (1 - G + 2 * G * m * m) / (G + 1)
+
+
+def _body(dom: Domain, mode: str, bottom: str, cut: bool, limiter: str) -> Simulation:
+    sketch = Sketch((Circle((0.14, 0.0), RADIUS_M, "wall"),))
+    geo = wall_geometry(sketch, dom) if cut else None
+    mask = geo.mask if cut else rasterise(sketch, dom)
+    edges = Edges(left="stream", right="open", bottom=bottom, top="open")
+    return Simulation(Setup(dom, mode=mode, edges=edges, numerics=Numerics(limiter=limiter),
+                            conditions=Conditions(stream=Stream(mach=M, p_pa=P1, t_k=T1))), mask, geometry=geo)
+
+
+def _stagnation(sim: Simulation) -> float:
+    """Largest gas pressure over the pitot pressure [N]."""
+    gas = sim.mask == CellKind.FLUID
+    return float(np.max(np.where(gas, sim.primitive()[3], 0.0))) / _pitot_pa()
+
+
+def _cylinder_domain() -> Domain:
+    """x 0.07 to 0.14 m (the nose and the shoulders; the flow leaves supersonic), y +-4 radii, 40 cells per radius."""
+    return Domain(0.07, 0.14, -0.12, 0.12, round(0.07 / RADIUS_M * 40))
+
+
+def _flow_time_s(dom: Domain) -> float:
+    return (dom.x_max_m - dom.x_min_m) / (M * AIR.sound_speed_m_s(T1))
+
+
+def _shock_x_m(sim: Simulation) -> float:
+    """Where the bow shock crosses the centre line: the first cell whose pressure is above the mean of the two sides."""
+    p = sim.primitive()[3]
+    j = int(np.argmin(np.abs(sim.domain.y_centres_m())))
+    p2 = P1 * (2 * G * M * M - (G - 1)) / (G + 1)  # [N] eq. 93, normal-shock pressure ratio
+    return float(sim.domain.x_centres_m()[np.nonzero(p[j] > 0.5 * (P1 + p2))[0][0]])
+
+
+def write_cylinder_start() -> None:
+    """Run the cylinder 12 flow times from a uniform stream and keep its state (float32) as the test's start."""
+    dom = _cylinder_domain()
+    sim = _body(dom, "planar", "open", False, LIMITER)
+    sim.set_primitive(AIR.density_kg_m3(P1, T1), M * AIR.sound_speed_m_s(T1), 0.0, P1)
+    sim.run_until(12.0 * _flow_time_s(dom))
+    r, u, v, p = (a.astype(np.float32) for a in sim.primitive())
+    np.savez_compressed(CYLINDER_START, rho=r, u=u, v=v, p=p, nx=dom.nx, flow_times=12.0)
+
+
+def test_sphere_at_40_cells_per_radius_reads_the_pitot_pressure():
+    # the sphere of tests/test_axis.py (nose domain, axisymmetric), where van Leer reads 0.9835 at this grid.
+    # Measured with the new limiter: 0.9915 at 4 to 7 flow times. Not met with a cut-cell body: 0.9870 (van Leer
+    # 0.9858, minmod everywhere 0.9863): the total pressure behind the shock on the axis is already 0.990 there
+    # with any of the three limiters, so it is set by where the shock lies on the grid, not by the limiter.
+    cut = False
+    assert _pitot_pa() / P1 == pytest.approx(12.061, abs=1e-3)  # [N] eq. 100, its tabulated value
+    dom = Domain(0.095, 0.17, 0.0, 0.05, round(2.5 * 40))
+    sim = _body(dom, "axisymmetric", "axis", cut, LIMITER)
+    sim.set_primitive(AIR.density_kg_m3(P1, T1), M * AIR.sound_speed_m_s(T1), 0.0, P1)
+    stag = []
+    for k in (4.0, 5.0, 6.0, 7.0):
+        sim.run_until(k * _flow_time_s(dom))
+        stag.append(_stagnation(sim))
+    assert np.ptp(stag) < 0.003  # steady to 0.3 %
+    assert np.mean(stag) == pytest.approx(1.0, abs=0.01)  # within 1 % of [N]
+
+
+def test_cylinder_at_40_cells_per_radius_is_steady_at_the_pitot_pressure():
+    dom = _cylinder_domain()
+    start = np.load(CYLINDER_START)
+    assert int(start["nx"]) == dom.nx
+    sim = _body(dom, "planar", "open", False, LIMITER)
+    sim.set_primitive(*(start[k].astype(np.float64) for k in ("rho", "u", "v", "p")))
+    x_shock = _shock_x_m(sim)
+    stag = []
+    for k in range(1, 7):  # three flow times, every half
+        sim.run_until(0.5 * k * _flow_time_s(dom))
+        stag.append(_stagnation(sim))
+    # Measured from a uniform stream: 0.9971 to 0.9979 from 13 to 20 flow times, the shock at 88.44 mm
+    # throughout; van Leer on the same grid 0.996 to 1.017 (module docstring). From this start: 0.9971 to 0.9988
+    # (0.17 %); van Leer from the same start 0.9942 to 1.0010 (0.67 %), so this test fails with van Leer.
+    assert np.ptp(stag) < 0.003  # steady to 0.3 %
+    assert np.mean(stag) == pytest.approx(1.0, abs=0.01)  # within 1 % of [N]
+    assert abs(_shock_x_m(sim) - x_shock) <= dom.dx_m  # the shock stands still
+
+
+def _contact_widths(name: str, limiter: str, n: int) -> tuple[int, float]:
+    """A shock-tube problem [T] on an n x 4 strip: (cells between 10 and 90 % of the density jump at the contact,
+    the jump over the steepest one-cell step there)."""
+    left, right, x0, t_end = {
+        "sod": ((1.0, 0.0, 1.0), (0.125, 0.0, 0.1), 0.5, 0.2),  # [T] Test 1
+        "toro3": ((1.0, 0.0, 1000.0), (1.0, 0.0, 0.01), 0.5, 0.012),  # [T] Test 3
+        "toro5": ((5.99924, 19.5975, 460.894), (5.99242, -6.19633, 46.0950), 0.4, 0.035),  # [T] Test 5
+    }[name]
+    dom = Domain(0.0, 1.0, 0.0, 4.0 / n, n)
+    sim = Simulation(Setup(domain=dom, gas=Gas(1.4, 28.965), edges=Edges("open", "open", "wall", "wall"),
+                           numerics=Numerics(limiter=limiter)), None)
+    x = dom.x_centres_m()
+    lft = np.broadcast_to(x < x0, (4, n))
+    rho0, u0, p0 = (np.where(lft, a, b) for a, b in zip(left, right))
+    sim.set_primitive(rho0, u0, 0.0, p0)
+    sim.run_until(t_end)
+    rho = sim.primitive()[0][2]
+    star, waves = star_state(left, right, 1.4), wave_speeds(left, right, 1.4)
+    x_contact = x0 + waves.contact * t_end
+    # a window around the contact reaching halfway to the nearer wave beside it
+    near = min(waves.right_head - waves.contact, waves.contact - waves.left_tail) * t_end
+    win = np.abs(x - x_contact) < 0.5 * near
+    lo, hi = sorted((star.rho_l, star.rho_r))
+    cells = int(np.sum(win & (rho > lo + 0.1 * (hi - lo)) & (rho < hi - 0.1 * (hi - lo))))
+    steepest = float(np.max(np.abs(np.diff(rho[win]))))
+    # the scheme's solution is close to [T]'s everywhere, so the window holds the contact
+    assert np.sum(np.abs(rho - exact_solution(left, right, 1.4, x, x0, t_end)[0])) / n < 0.2 * (hi - lo)
+    return cells, (hi - lo) / steepest
+
+
+@pytest.mark.parametrize("name", ["sod", "toro3", "toro5"])
+def test_contacts_stay_as_sharp_as_with_van_leer(name):
+    for n in (200, 400):
+        cells_vl, width_vl = _contact_widths(name, "van_leer", n)
+        cells, width = _contact_widths(name, LIMITER, n)
+        cells_mm, width_mm = _contact_widths(name, "minmod", n)
+        # measured (module docstring): within +3 % of van Leer's width (Toro 5 at 200 cells: 5.91 against 5.76), at
+        # most one cell more between 10 and 90 % (Sod at 400: 7 against 6), and always sharper than minmod
+        assert width < 1.03 * width_vl, (n, width, width_vl)
+        assert cells <= cells_vl + 1, (n, cells, cells_vl)
+        assert width < width_mm and cells <= cells_mm, (n, width, width_mm)
+
+
+if __name__ == "__main__":
+    write_cylinder_start()
+    print(f"wrote {CYLINDER_START}")
