@@ -29,7 +29,7 @@ from shockslate.solver.warm import warm_kernels
 
 from . import design
 from . import protocol as p
-from .dispatch import Dispatcher, hello_message
+from .dispatch import Dispatcher, hello_message, hello_text
 from .errors import RequestError
 from .exports import Exports
 from .hub import MAX_CLIENTS, Hub
@@ -144,7 +144,9 @@ def create_app(config: ServerConfig | None = None) -> FastAPI:
         scenario, warnings = await asyncio.to_thread(starting_scenario, config, store)
         session = await asyncio.to_thread(Session, scenario, store.save_current)
         try:
-            await asyncio.to_thread(store.save_current, scenario)
+            # with the session's own document: the store keeps each shape's text by that document's shape dicts,
+            # so the first change saves only what it adds (a big sketch's 19 MB encoded again took most of a second)
+            await asyncio.to_thread(store.save_current, scenario, session.document())
         except AutosaveFailed as err:  # start anyway: the page says why changes are refused
             warnings.append(err.message)
             print(f"shockslate: {err.message}", file=sys.stderr, flush=True)
@@ -274,7 +276,7 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
                                                      runner.session.document()))
         # first in the queue, before any change broadcast while it was made (the page skips those it already
         # holds); the sender starts only then
-        client.queue_first(await asyncio.to_thread(_hello_text, {**hello, **extra}, document))
+        client.queue_first(await asyncio.to_thread(hello_text, {**hello, **extra}, document, parts.store.document_text))
     except BaseException:
         hub.remove(client)
         raise
@@ -325,22 +327,6 @@ async def serve_client(websocket: WebSocket, parts: ServerParts, access: Access)
         sender.cancel()
         with contextlib.suppress(asyncio.CancelledError, Exception):
             await sender
-
-
-def _hello_text(hello: dict, document: dict) -> str:
-    """The hello message as JSON text with the scenario document (the session's, read-only: never changed in
-    place). The document is validated, so finite: it is encoded without p.dumps's NaN walk, one shape at a time,
-    so that the event loop gets its turns in between (one json.dumps call of 19 MB holds the GIL for a second)."""
-    def compact(value) -> str:
-        return json.dumps(value, separators=(",", ":"), allow_nan=False)
-
-    sketch = document["sketch"]
-    shapes = "[" + ",".join(compact(shape) for shape in sketch["shapes"]) + "]"
-    sketch_text = compact({k: v for k, v in sketch.items() if k != "shapes"})[:-1]
-    sketch_text += (',' if len(sketch_text) > 1 else '') + '"shapes":' + shapes + "}"
-    rest = compact({k: v for k, v in document.items() if k != "sketch"})
-    body = rest[:-1] + (',' if len(rest) > 2 else '') + '"sketch":' + sketch_text + "}"
-    return p.dumps(hello)[:-1] + ',"scenario":' + body + "}"
 
 
 async def _handle_text(parts: ServerParts, client, text: str) -> None:

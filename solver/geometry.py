@@ -108,11 +108,11 @@ def _painted_shapes(sketch: Sketch, domain: Domain):
     for shape in sketch.shapes:
         out.append(shape)
         if y_line is not None:
-            out.append(_mirror_of(shape, y_line))
+            out.append(mirror_of(shape, y_line))
     return out
 
 
-def _mirror_of(shape, y_line_m: float):
+def mirror_of(shape, y_line_m: float):
     """The shape's reflection about y = y_line_m, made once per line and kept on the frozen shape."""
     kept = shape.__dict__.get("_mirror")
     if kept is None or kept[0] != y_line_m:

@@ -32,7 +32,9 @@ import numpy as np
 
 from . import relations
 from .domain import Domain
+from .geometry import mirror_of
 from .kinds import CellKind
+from .raster import points_array
 from .shapes import Circle, Polygon, Rectangle, Segment, Shape, Stroke
 
 #: Standard gravity for specific impulse in seconds (exact by definition, CGPM 1901).
@@ -45,6 +47,15 @@ REFINE_STEPS = 80
 #: A shape with more vertices than this adds no reading lines of its own (30 polygons of 15,000 vertices would
 #: ask for 900,000 lines); common practice, no source: 512 covers every hand-drawn or designed contour here
 VERTEX_LINES_PER_SHAPE = 512
+#: A polygon crossing the reading lines more often than this is read line by line instead of all lines at once,
+#: so the memory of the batched reading stays bounded whatever the outline (common practice, no source: about
+#: 100 MB of work arrays at most)
+BATCH_CROSSINGS = 2_000_000
+#: Solver shapes kept converted from their scenario models (one per model object), least recently used first
+#: out past this many vertices in all: a change of a big sketch then converts only the shapes it adds, and a
+#: sketch left behind is not held for long (common practice, no source: four times the 450,000 vertices of 30
+#: polygons of 15,000 points)
+SHAPES_KEPT_VERTICES = 2_000_000
 #: Share of the divergent length, ending at the exit, over which the wall's half angle is fitted.
 HALF_ANGLE_TAIL = 0.4
 
@@ -62,11 +73,53 @@ def _polygon_crossings(points, x: float) -> list[float]:
             if (x1 > x) != (x2 > x):
                 ys.append(y1 + (x - x1) * (y2 - y1) / (x2 - x1))
         return sorted(ys)
-    pts = np.asarray(points, dtype=np.float64)
+    return _edge_crossings(_edges_of(np.asarray(points, dtype=np.float64)), x)
+
+
+def _edges_of(pts: np.ndarray) -> np.ndarray:
+    """(4, n) x1, y1, x2, y2 of the edges of the closed polygon through the (n, 2) points."""
     x1, y1 = pts[:, 0], pts[:, 1]
-    x2, y2 = np.roll(x1, -1), np.roll(y1, -1)
+    return np.ascontiguousarray(np.stack([x1, y1, np.roll(x1, -1), np.roll(y1, -1)]))
+
+
+def _polygon_edges(shape: Polygon) -> np.ndarray:
+    """The polygon's edges (_edges_of), made once and kept on the frozen shape: a long outline is read at
+    thousands of lines, and turning 15,000 pairs into an array each time cost seconds."""
+    edges = shape.__dict__.get("_edges_xy")
+    if edges is None:
+        edges = _edges_of(points_array(shape))
+        object.__setattr__(shape, "_edges_xy", edges)
+    return edges
+
+
+def _edge_crossings(edges: np.ndarray, x: float) -> list[float]:
+    """_polygon_crossings from the polygon's edges (the same arithmetic, so the same numbers)."""
+    x1, y1, x2, y2 = edges
     hit = (x1 > x) != (x2 > x)
     return sorted((y1[hit] + (x - x1[hit]) * (y2[hit] - y1[hit]) / (x2[hit] - x1[hit])).tolist())
+
+
+def _edge_crossings_on(edges: np.ndarray, xs: np.ndarray):
+    """The polygon's intervals on every line of the ascending xs at once: (line index, y_lo, y_hi) arrays in
+    order of line, then y, equal line by line to pairing _edge_crossings; None past BATCH_CROSSINGS.
+    An edge crosses the line x when min(x1, x2) <= x < max(x1, x2) (the half-open rule), so the lines it
+    crosses are one run of xs, found by bisection."""
+    x1, y1, x2, y2 = edges
+    first = np.searchsorted(xs, np.minimum(x1, x2), "left")
+    count = np.searchsorted(xs, np.maximum(x1, x2), "left") - first
+    total = int(count.sum())
+    if total > BATCH_CROSSINGS:
+        return None
+    edge = np.repeat(np.arange(count.size), count)
+    line = first[edge] + (np.arange(total) - (np.cumsum(count) - count)[edge])
+    x = xs[line]
+    y = y1[edge] + (x - x1[edge]) * (y2[edge] - y1[edge]) / (x2[edge] - x1[edge])
+    order = np.lexsort((y, line))
+    line, y = line[order], y[order]
+    at = np.arange(total)
+    start, end = np.searchsorted(line, line, "left"), np.searchsorted(line, line, "right")
+    lower = np.flatnonzero(((at - start) % 2 == 0) & (at + 1 < end))  # crossings 0-1, 2-3, ... of each line
+    return line[lower], y[lower], y[lower + 1]
 
 
 def _capsule_interval(a: tuple, b: tuple, half: float, x: float) -> Optional[tuple[float, float]]:
@@ -136,7 +189,10 @@ def _paint(line: list[tuple[float, float, str]], lo: float, hi: float, kind: str
 @dataclass(frozen=True)
 class Drawing:
     """What the section reader needs of a scenario: shapes in paint order (mirror images included), the domain
-    extent, the symmetry line and the mode. Built once per scenario (`drawing_of`)."""
+    extent, the symmetry line and the mode. Built once per scenario (`drawing`).
+
+    A line is read on its own (`painted`, `section`) or many lines at once (`painted_lines`, `sections`); both
+    paint the same intervals in the same order, so they give the same numbers."""
 
     shapes: tuple[Shape, ...]
     x_min_m: float
@@ -152,26 +208,44 @@ class Drawing:
     pieces: tuple[Optional[np.ndarray], ...] = field(default=(), repr=False, compare=False)
 
     def __post_init__(self) -> None:
-        ranges, pieces = [], []
+        ranges = []
         for shape in self.shapes:
             x0, _, x1, _ = shape.bounds_m()
             ranges.append((x0, x1))
-            if isinstance(shape, Stroke):
-                pts = np.asarray(shape.points_m, dtype=np.float64)
-                a, b, h = pts[:-1], pts[1:], 0.5 * shape.width_m
-                pieces.append(np.column_stack([a, b, np.minimum(a[:, 0], b[:, 0]) - h, np.maximum(a[:, 0], b[:, 0]) + h]))
-            else:
-                pieces.append(None)
         object.__setattr__(self, "x_ranges", tuple(ranges))
-        object.__setattr__(self, "pieces", tuple(pieces))
+        object.__setattr__(self, "pieces", tuple(_stroke_pieces(s) if isinstance(s, Stroke) else None
+                                                 for s in self.shapes))
 
     def _intervals(self, k: int, x: float) -> list[tuple[float, float]]:
         shape, pieces = self.shapes[k], self.pieces[k]
+        if isinstance(shape, Polygon):
+            ys = _edge_crossings(_polygon_edges(shape), x)
+            return [(ys[j], ys[j + 1]) for j in range(0, len(ys) - 1, 2)]
         if pieces is None:
             return shape_intervals(shape, x)
-        near = pieces[(pieces[:, 4] <= x) & (x <= pieces[:, 5])]
-        found = (_capsule_interval((p[0], p[1]), (p[2], p[3]), 0.5 * shape.width_m, x) for p in near)
-        return [f for f in found if f]
+        return _capsules_on_line(pieces, 0.5 * shape.width_m, x)
+
+    def _intervals_on(self, k: int, xs: np.ndarray, i0: int, i1: int):
+        """(line index, y_lo, y_hi) of shape k on the lines xs[i0:i1] (all within its x range), in the order
+        `_intervals` gives them line by line: numpy for polygons, circles and rectangles, else line by line."""
+        shape = self.shapes[k]
+        part = xs[i0:i1]
+        if isinstance(shape, Polygon):
+            found = _edge_crossings_on(_polygon_edges(shape), part)
+            if found is not None:
+                line, lo, hi = found
+                return zip((line + i0).tolist(), lo.tolist(), hi.tolist())
+        elif isinstance(shape, Circle):
+            d = part - shape.centre_m[0]
+            on = np.flatnonzero(np.abs(d) <= shape.radius_m)
+            s = np.sqrt(shape.radius_m ** 2 - d[on] * d[on])
+            cy = shape.centre_m[1]
+            return zip((on + i0).tolist(), (cy - s).tolist(), (cy + s).tolist())
+        elif isinstance(shape, Rectangle):
+            (ax, ay), (bx, by) = shape.corner_a_m, shape.corner_b_m
+            on = np.flatnonzero((min(ax, bx) <= part) & (part <= max(ax, bx)))
+            return ((int(i), min(ay, by), max(ay, by)) for i in on + i0)
+        return ((i, lo, hi) for i in range(i0, i1) for lo, hi in self._intervals(k, float(xs[i])))
 
     def painted(self, x: float) -> list[tuple[float, float, str]]:
         """The painted intervals of the line x, clipped to the domain height, in order of y."""
@@ -186,9 +260,38 @@ class Drawing:
                     line = _paint(line, lo, hi, shape.paints)
         return line
 
+    def painted_lines(self, xs: np.ndarray) -> list[list[tuple[float, float, str]]]:
+        """`painted` of every line of the ascending xs, each shape read on all its lines at once."""
+        xs = np.asarray(xs, dtype=np.float64)
+        lines: list[list[tuple[float, float, str]]] = [[] for _ in range(xs.size)]
+        for k, shape in enumerate(self.shapes):
+            x0, x1 = self.x_ranges[k]
+            i0, i1 = int(np.searchsorted(xs, x0, "left")), int(np.searchsorted(xs, x1, "right"))
+            if i0 >= i1:
+                continue
+            for i, lo, hi in self._intervals_on(k, xs, i0, i1):
+                lo, hi = max(lo, self.y_min_m), min(hi, self.y_max_m)
+                if hi >= lo:
+                    lines[i] = _paint(lines[i], lo, hi, shape.paints)
+        return lines
+
+    def sections(self, xs) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """`section` of every line of xs (any order): area, y_bottom, y_top, reservoir-on-line arrays."""
+        xs = np.asarray(xs, dtype=np.float64).ravel()
+        order = np.argsort(xs, kind="stable")
+        found = [self._section_of(line) for line in self.painted_lines(xs[order])]
+        area, bottom, top = (np.empty(xs.size) for _ in range(3))
+        fed = np.zeros(xs.size, dtype=bool)
+        if found:
+            for col, values in zip((area, bottom, top, fed), zip(*found)):
+                col[order] = values
+        return area, bottom, top, fed
+
     def section(self, x: float) -> tuple[float, float, float, bool]:
         """(area, y_bottom, y_top, reservoir on this line) of the gas column at x; area NaN if not walled."""
-        line = self.painted(x)
+        return self._section_of(self.painted(x))
+
+    def _section_of(self, line: list[tuple[float, float, str]]) -> tuple[float, float, float, bool]:
         walls = [(a, b) for a, b, k in line if k == "wall"]
         fed = any(k == "reservoir" for _, _, k in line)
         ya = self.axis_y_m
@@ -226,6 +329,70 @@ def symmetry_line_m(mode: str, mirror: str, y_min_m: float, y_max_m: float) -> f
     return y_min_m
 
 
+def _stroke_pieces(shape: Stroke) -> np.ndarray:
+    """(n - 1, 9) ax, ay, bx, by, x_lo, x_hi, off_x, off_y, length of a stroke's pieces (x_lo, x_hi: the x range
+    each can cover; off: the half-width offset normal to the piece, as _capsule_interval makes it), in order of
+    x_lo (what a line reads of them does not depend on their order), made once and kept on the frozen shape."""
+    pieces = shape.__dict__.get("_nozzle_pieces")
+    if pieces is None:
+        pts = points_array(shape)
+        a, b, h = pts[:-1], pts[1:], 0.5 * shape.width_m
+        ux, uy = b[:, 0] - a[:, 0], b[:, 1] - a[:, 1]
+        length = np.hypot(ux, uy)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            off_x = np.where(length > 0.0, -uy / length * h, 0.0)
+            off_y = np.where(length > 0.0, ux / length * h, 0.0)
+        pieces = np.column_stack([a, b, np.minimum(a[:, 0], b[:, 0]) - h, np.maximum(a[:, 0], b[:, 0]) + h,
+                                  off_x, off_y, length])
+        pieces = np.ascontiguousarray(pieces[np.argsort(pieces[:, 4], kind="stable")])
+        object.__setattr__(shape, "_nozzle_pieces", pieces)
+    return pieces
+
+
+def _capsules_on_line(pieces: np.ndarray, half: float, x: float) -> list[tuple[float, float]]:
+    """What a stroke covers on the line x: each piece's capsule interval (_capsule_interval, all pieces near the
+    line at once), joined where they overlap or touch, in order of y. A long freehand stroke has thousands of
+    pieces on some lines; painted one by one they took minutes for one 15,000-point stroke. Joining changes no
+    section: the pieces paint the same kind, and a section reads only where walls begin and end."""
+    x_lo = pieces[:, 4]
+    widest = float(np.max(pieces[:, 5] - x_lo)) if pieces.shape[0] else 0.0
+    near = pieces[np.searchsorted(x_lo, x - widest, "left"): np.searchsorted(x_lo, x, "right")]
+    near = near[x <= near[:, 5]]
+    if near.shape[0] == 0:
+        return []
+    lo, hi = np.full(near.shape[0], math.inf), np.full(near.shape[0], -math.inf)
+    for cx, cy in ((near[:, 0], near[:, 1]), (near[:, 2], near[:, 3])):  # the round ends
+        d = x - cx
+        on = np.abs(d) <= half
+        s = np.sqrt(np.where(on, half * half - d * d, 0.0))
+        lo, hi = np.where(on, np.minimum(lo, cy - s), lo), np.where(on, np.maximum(hi, cy + s), hi)
+    ax, ay, bx, by, ox, oy = (near[:, c] for c in (0, 1, 2, 3, 6, 7))
+    quad = ((ax + ox, ay + oy), (bx + ox, by + oy), (bx - ox, by - oy), (ax - ox, ay - oy))
+    has_length = near[:, 8] > 0.0
+    for k in range(4):  # the sides of the band between them
+        (x1, y1), (x2, y2) = quad[k], quad[(k + 1) % 4]
+        upright = x1 == x2
+        on = has_length & upright & (x1 == x)
+        lo, hi = np.where(on, np.minimum(lo, np.minimum(y1, y2)), lo), np.where(on, np.maximum(hi, np.maximum(y1, y2)), hi)
+        on = has_length & ~upright & (np.minimum(x1, x2) <= x) & (x <= np.maximum(x1, x2))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            y = y1 + (x - x1) * (y2 - y1) / (x2 - x1)
+        lo, hi = np.where(on, np.minimum(lo, y), lo), np.where(on, np.maximum(hi, y), hi)
+    found = np.isfinite(lo)
+    lo, hi = lo[found], hi[found]
+    if lo.size == 0:
+        return []
+    order = np.argsort(lo, kind="stable")
+    lo, reach = lo[order], np.maximum.accumulate(hi[order])
+    first = np.flatnonzero(np.concatenate([[True], lo[1:] > reach[:-1]]))
+    last = np.concatenate([first[1:], [lo.size]]) - 1
+    return list(zip(lo[first].tolist(), reach[last].tolist()))
+
+
+def _vertex_count(shape: Shape) -> int:
+    return len(shape.points_m) if isinstance(shape, (Polygon, Stroke)) else 2
+
+
 def _vertices_x(shape: Shape) -> list[float]:
     if isinstance(shape, (Polygon, Stroke)):
         return [p[0] for p in shape.points_m]
@@ -236,20 +403,54 @@ def _vertices_x(shape: Shape) -> list[float]:
     return [shape.centre_m[0]]
 
 
-def _drawing(scenario) -> Drawing:
-    from .scenario import to_sketch
+def _shape_of(model) -> Shape:
+    """The solver shape of a scenario's shape model (model.to_shape()), converted once per model object: the
+    scenario after a change holds the same model objects for the shapes it kept (server/session.py), so a
+    change of a big sketch converts only what it adds. The model is kept with its shape, so its id is not reused
+    while the entry lives."""
+    kept = _SHAPES.get(id(model))
+    if kept is not None and kept[0] is model:
+        _SHAPES.move_to_end(id(model))
+        return kept[1]
+    return _remember(model, model.to_shape())
 
-    sketch = to_sketch(scenario)
+
+def remember_shapes(models, shapes) -> None:
+    """Take the solver shapes already made from these scenario models (model.to_shape(), in the same order): the
+    live session converts a sketch once for its walls, and the drawn nozzle need not convert it again."""
+    for model, shape in zip(models, shapes):
+        kept = _SHAPES.get(id(model))
+        if kept is None or kept[0] is not model:
+            _remember(model, shape)
+
+
+def _remember(model, shape: Shape) -> Shape:
+    global _SHAPES_VERTICES
+    _SHAPES[id(model)] = (model, shape, _vertex_count(shape))
+    _SHAPES_VERTICES += _vertex_count(shape)
+    while _SHAPES_VERTICES > SHAPES_KEPT_VERTICES and len(_SHAPES) > 1:
+        _SHAPES_VERTICES -= _SHAPES.popitem(last=False)[1][2]
+    return shape
+
+
+#: id(model) -> (model, its shape, the shape's vertex count); the vertices of all of them
+_SHAPES: "OrderedDict[int, tuple]" = OrderedDict()
+_SHAPES_VERTICES = 0
+
+
+def _drawing(scenario) -> Drawing:
+    sketch = scenario.sketch
     dom = scenario.domain
     mirror_y = {"none": None, "axis": 0.0, "midline": 0.5 * (dom.y_min_m + dom.y_max_m)}[sketch.mirror]
     shapes: list[Shape] = []
-    for shape in sketch.shapes:
+    for model in sketch.shapes:
+        shape = _shape_of(model)
         shapes.append(shape)
         if mirror_y is not None:
-            shapes.append(shape.mirrored_about_y(mirror_y))
+            shapes.append(mirror_of(shape, mirror_y))
     # corners are read exactly where they are drawn; a long outline (an imported contour, a big freehand sketch)
     # is read on the SECTION_LINES grid instead, its throat found by the golden-section refinement
-    vx = sorted({x for s in shapes for x in (lambda v: v if len(v) <= VERTEX_LINES_PER_SHAPE else [])(_vertices_x(s))
+    vx = sorted({x for s in shapes if _vertex_count(s) <= VERTEX_LINES_PER_SHAPE for x in _vertices_x(s)
                  if dom.x_min_m <= x <= dom.x_max_m})
     return Drawing(tuple(shapes), dom.x_min_m, dom.x_max_m, dom.y_min_m, dom.y_max_m,
                    symmetry_line_m(scenario.mode, sketch.mirror, dom.y_min_m, dom.y_max_m), scenario.mode,
@@ -325,16 +526,20 @@ def exit_line_x_m(scenario) -> Optional[float]:
     return None
 
 
-def _key(scenario) -> str:
-    return json.dumps({"sketch": scenario.sketch.model_dump(mode="json"),
-                       "domain": scenario.domain.model_dump(mode="json"), "mode": scenario.mode,
+def _key(scenario) -> tuple:
+    """What the drawn figures depend on: the shapes (by model object: scenarios are immutable and a change keeps
+    the models of the shapes it keeps; dumping a big sketch to compare it took about a second), the mirror,
+    domain, mode and stations."""
+    rest = json.dumps({"domain": scenario.domain.model_dump(mode="json"), "mode": scenario.mode,
+                       "mirror": scenario.sketch.mirror,
                        "stations": [st.model_dump(mode="json") for st in scenario.stations]}, sort_keys=True)
+    return tuple(id(m) for m in scenario.sketch.shapes), rest
 
 
 def _kept(scenario) -> dict:
     """What has been worked out for this drawing (the Drawing, the DrawnNozzle), kept for the last few drawings
-    (keyed by sketch, domain, mode and stations), since the page asks at every status. The same scenario object
-    asked again skips building its key (a big sketch's key takes about a second)."""
+    (keyed by `_key`), since the page asks at every status. The box holds the shape models its key names, so
+    their ids are not reused while it lives."""
     for obj, known in _KEYS:
         if obj is scenario:
             key = known
@@ -346,14 +551,14 @@ def _kept(scenario) -> dict:
     if key in _KEPT:
         _KEPT.move_to_end(key)
         return _KEPT[key]
-    box: dict = {}
+    box: dict = {"models": tuple(scenario.sketch.shapes)}
     _KEPT[key] = box
     while len(_KEPT) > 32:
         _KEPT.popitem(last=False)
     return box
 
 
-_KEPT: "OrderedDict[str, dict]" = OrderedDict()
+_KEPT: "OrderedDict[tuple, dict]" = OrderedDict()
 #: (scenario object, its key) of the last few scenarios asked about; scenarios are not changed in place
 _KEYS: list = []
 
@@ -374,12 +579,20 @@ def drawn_nozzle(scenario) -> Optional[DrawnNozzle]:
     return box["nozzle"]
 
 
+def drawn_nozzle_known(scenario) -> bool:
+    """Whether drawn_nozzle(scenario) is worked out already (then it answers at once)."""
+    return "nozzle" in _kept(scenario)
+
+
+def drawing_vertices(scenario) -> int:
+    """How many vertices the scenario's sketch has (what the drawn nozzle's reading time grows with)."""
+    return sum(len(m.points_m) if hasattr(m, "points_m") else 2 for m in scenario.sketch.shapes)
+
+
 def _drawn_nozzle(scenario) -> Optional[DrawnNozzle]:
     d = drawing(scenario)
     xs = _lines(d)
-    sections = [d.section(float(x)) for x in xs]
-    area = np.array([s[0] for s in sections])
-    fed_line = np.array([s[3] for s in sections])
+    area, _, _, fed_line = d.sections(xs)
     runs = _runs(np.isfinite(area) & (area > 0.0))
     if not runs:
         return None
@@ -415,7 +628,7 @@ def _half_angle_deg(d: Drawing, throat_x: float, exit_x: float) -> float:
     if exit_x <= throat_x:
         return 0.0
     xs = np.linspace(exit_x - HALF_ANGLE_TAIL * (exit_x - throat_x), exit_x, 41)
-    tops = np.array([d.section(float(x))[2] for x in xs])
+    tops = d.sections(xs)[2]
     ok = np.isfinite(tops)
     if ok.sum() < 3:
         return 0.0
@@ -571,10 +784,9 @@ def ideal_axis_mach(scenario, nozzle: DrawnNozzle, xs_m: np.ndarray, gamma: floa
     xs_m = np.asarray(xs_m, float)
     out = np.full(xs_m.shape, np.nan)
     lo, hi = nozzle.run_m
-    for k, x in enumerate(xs_m):
-        if not lo <= x <= hi:
-            continue
-        a = d.area_m2(float(x))
+    inside = np.flatnonzero((lo <= xs_m) & (xs_m <= hi))
+    for k, a in zip(inside.tolist(), d.sections(xs_m[inside])[0].tolist()):
+        x = xs_m[k]
         if not (math.isfinite(a) and a > 0.0):
             continue
         ratio = max(a / nozzle.throat_area_m2, 1.0)

@@ -17,6 +17,7 @@ import math
 import re
 
 import numba
+import numpy as np
 import pytest
 from pygasflow import isentropic as pg_ise
 from pygasflow.solvers.de_laval import nozzle_mass_flow_rate as pg_mass_flow
@@ -213,3 +214,87 @@ def test_long_outline_reads_like_a_short_one():
         s = parse_scenario(doc([{"kind": "polygon", "points_m": outline, "paints": "wall"}, RESERVOIR]))
         assert nozzle.drawing(s).area_m2(0.1234) == pytest.approx(0.03, rel=1e-12)
         assert nozzle.drawn_nozzle(s).throat_area_m2 == pytest.approx(0.03, rel=1e-12)
+
+
+# ----------------------------------------------------------------------------- reading many lines at once
+
+def _mixed_sketch(seed: int) -> list[dict]:
+    """Seeded shapes of every kind over the test domain: long and short polygons (some with vertical edges and
+    corners on shared x), circles, rectangles, segments, strokes, fluid paint over wall, and a reservoir."""
+    rng = np.random.default_rng(seed)
+    shapes = [RESERVOIR]
+    for k in range(6):
+        n = int(rng.choice([3, 5, 64, 65, 400]))
+        cx, cy = rng.uniform(0.02, 0.18), rng.uniform(0.0, 0.05)
+        t = np.linspace(0.0, 2.0 * math.pi, n, endpoint=False)
+        r = 0.01 * (1.0 + 0.3 * np.sin(5.0 * t + k))
+        pts = np.column_stack([cx + r * np.cos(t), cy + r * np.sin(t)])
+        if k % 2:
+            pts[:2, 0] = round(cx, 3)  # a vertical edge on a reading line
+        shapes.append({"kind": "polygon", "points_m": pts.tolist(), "paints": "wall"})
+    for _ in range(3):
+        shapes.append({"kind": "circle", "centre_m": [rng.uniform(0, 0.2), rng.uniform(0, 0.05)],
+                       "radius_m": rng.uniform(0.002, 0.02), "paints": str(rng.choice(["wall", "fluid"]))})
+        a, b = rng.uniform(0, 0.2, 2), rng.uniform(0, 0.05, 2)
+        shapes.append({"kind": "rectangle", "corner_a_m": [a[0], b[0]], "corner_b_m": [a[1], b[1]],
+                       "paints": str(rng.choice(["wall", "fluid"]))})
+        shapes.append({"kind": "segment", "start_m": [a[0], b[1]], "end_m": [a[1], b[0]], "width_m": 0.003,
+                       "paints": "wall"})
+    xs = np.linspace(0.0, 0.2, 200)
+    shapes.append({"kind": "stroke", "points_m": np.column_stack([xs, 0.04 + 0.005 * np.sin(40 * xs)]).tolist(),
+                   "width_m": 0.002, "paints": "wall"})
+    return shapes
+
+
+@pytest.mark.parametrize("mirror,y_min", [("none", 0.0), ("axis", 0.0), ("midline", -0.05)])
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_lines_read_at_once_equal_lines_read_one_by_one(seed, mirror, y_min):
+    # exact agreement (same arithmetic): the batched reader behind the drawn nozzle against the one-line reader
+    # the throat refinement and the stations use, on reading lines, vertex lines and lines between them
+    s = parse_scenario(doc(_mixed_sketch(seed), mirror=mirror, y_min=y_min))
+    d = nozzle.drawing(s)
+    xs = np.concatenate([nozzle._lines(d), np.linspace(-0.01, 0.21, 301)])[::-1]  # any order
+    area, bottom, top, fed = d.sections(xs)
+    one = [d.section(float(x)) for x in xs]
+    for column, k in ((area, 0), (bottom, 1), (top, 2)):
+        np.testing.assert_array_equal(column, np.array([o[k] for o in one]))
+    np.testing.assert_array_equal(fed, np.array([o[3] for o in one]))
+    assert np.isfinite(area).sum() > 50 and fed.any()  # the sketch is walled and fed on many of them
+
+
+def test_a_scenario_built_from_the_last_one_reads_as_if_parsed_afresh():
+    # the drawing is kept per shape model object: a scenario that shares the earlier models and adds one (what a
+    # live change makes) must read exactly as the same document parsed from scratch
+    shapes = _mixed_sketch(4)
+    first = parse_scenario(doc(shapes))
+    before = nozzle.drawn_nozzle(first)
+    narrow = {"kind": "rectangle", "corner_a_m": [0.05, 0.012], "corner_b_m": [0.15, 0.05], "paints": "wall"}
+    later = parse_scenario(doc(shapes + [narrow]))
+    shared = first.model_copy(update={"sketch": first.sketch.model_copy(
+        update={"shapes": [*first.sketch.shapes, later.sketch.shapes[-1]]})})
+    assert shared.sketch.shapes[0] is first.sketch.shapes[0]
+    got, fresh = nozzle.drawn_nozzle(shared), nozzle.drawn_nozzle(parse_scenario(doc(shapes + [narrow])))
+    assert got == fresh and got != before
+    assert nozzle.drawn_nozzle(first) == before
+
+
+def test_a_strokes_joined_capsules_give_the_sections_of_its_pieces_painted_one_by_one():
+    # a long wavy stroke folding over itself, with a reservoir: the reader joins the pieces' capsules on a line
+    # before painting; painting every piece's capsule on its own (shape_intervals, piece by piece) must give the
+    # same sections (exact: the same end points)
+    t = np.linspace(0.0, 1.0, 1500)
+    pts = np.column_stack([0.02 + 0.16 * t + 0.01 * np.sin(60 * t), 0.035 + 0.008 * np.sin(23 * t)])
+    s = parse_scenario(doc([{"kind": "stroke", "points_m": pts.tolist(), "width_m": 0.003, "paints": "wall"},
+                            RESERVOIR]))
+    d = nozzle.drawing(s)
+    stroke = d.shapes[0]
+    xs = np.linspace(0.0, 0.2, 401)
+    for x, area in zip(xs, d.sections(xs)[0]):
+        line = []
+        for k in (0, 1):  # the shapes in paint order, every interval painted on its own
+            for lo, hi in nozzle.shape_intervals(d.shapes[k], float(x)):
+                lo, hi = max(lo, d.y_min_m), min(hi, d.y_max_m)
+                if hi >= lo:
+                    line = nozzle._paint(line, lo, hi, d.shapes[k].paints)
+        assert d._section_of(line)[0] == area or (math.isnan(area) and math.isnan(d._section_of(line)[0]))
+    assert isinstance(stroke, nozzle.Stroke) and np.isfinite(d.sections(xs)[0]).sum() > 100

@@ -241,3 +241,20 @@ def test_a_scenario_bigger_than_the_queue_cap_still_reaches_a_tab():
     assert not tab.closed
     tab.queue(big)  # a second unread whole scenario beside a reply: this tab is not reading
     assert tab.closed
+
+
+def test_the_hello_takes_the_scenario_text_the_autosave_made_and_parses_as_the_document():
+    """A joining tab's hello is joined from the store's kept shape texts (no big sketch encoded again per tab);
+    it must parse as the hello's fields plus the session's document, with the same text as the autosave's."""
+    from shockslate.server.dispatch import hello_text
+    from shockslate.server.persistence import DocumentText
+
+    doc = duct_doc()
+    doc["sketch"]["shapes"] += [disc(0.2 + 0.1 * k) for k in range(3)]
+    document = scn.scenario_to_dict(scn.parse_scenario(doc))
+    text = DocumentText()
+    saved = text(document)  # what the autosave wrote
+    hello = {"type": "hello", "revision": 3, "limits": {"max_frames_per_s": 30.0}}
+    made = hello_text(hello, document, text)
+    assert json.loads(made) == {**hello, "scenario": document}
+    assert made.endswith(',"scenario":' + saved + "}")
