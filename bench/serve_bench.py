@@ -33,6 +33,8 @@ from pathlib import Path
 from shockslate.server.frames import WALL_LEVEL, decode_frame
 
 FRAME_W, FRAME_H = 512, 256
+#: Interleaved rounds (without a client, then with one) behind the slowdown figure; its medians are quoted.
+SLOWDOWN_ROUNDS = 8
 
 
 def add_serve_bench(parser: argparse.ArgumentParser) -> None:
@@ -48,6 +50,14 @@ def add_serve_bench(parser: argparse.ArgumentParser) -> None:
                         help="tabs connected at once in the load phase of --serve (default 8; 0 skips it)")
     parser.add_argument("--serve-threads", type=int, metavar="N",
                         help="solver threads of the server under test (default: all cores)")
+    parser.add_argument("--serve-slowdown-only", action="store_true",
+                        help="with --serve: measure only the solver's slowdown with one streaming tab "
+                             "(serve_slowdown_fraction), in --serve-rounds interleaved rounds")
+    parser.add_argument("--serve-settle-only", action="store_true",
+                        help="with --serve: measure only the page's settle mode, time to steady on nozzle_sea_level "
+                             "with and without grid sequencing")
+    parser.add_argument("--serve-rounds", type=int, default=SLOWDOWN_ROUNDS, metavar="N",
+                        help=f"interleaved without/with-client rounds of the slowdown figure (default {SLOWDOWN_ROUNDS})")
     for key in ("handler", "func"):
         previous = parser.get_default(key)
         if previous is not None:
@@ -68,8 +78,19 @@ def _either(previous):
 
 
 def main(args: argparse.Namespace) -> int:
+    if getattr(args, "serve_settle_only", False):
+        report = live_settle_phase()
+        print(json.dumps(report, indent=2) if getattr(args, "json", False) else format_live_settle(report))
+        return 0
+    if getattr(args, "serve_slowdown_only", False):
+        report = slowdown_only(phase_s=args.phase_seconds, threads=args.serve_threads, rounds=args.serve_rounds)
+        if getattr(args, "json", False):
+            print(json.dumps(report, indent=2))
+        else:
+            print_slowdown(report)
+        return 0
     report = run_serve_bench(phase_s=args.phase_seconds, latency_samples=args.latency_samples,
-                             threads=args.serve_threads, load_clients=args.load_clients)
+                             threads=args.serve_threads, load_clients=args.load_clients, rounds=args.serve_rounds)
     if getattr(args, "json", False):
         print(json.dumps(report, indent=2))
     else:
@@ -194,6 +215,152 @@ def streaming_phase(url: str, seconds: float) -> tuple[float, float, tuple[int, 
         return frames / wall, (b["steps"] - a["steps"]) * b["cells"] / wall, size
     finally:
         sock.close()
+
+
+def slowdown_phase(url: str, seconds: float, rounds: int = SLOWDOWN_ROUNDS) -> dict:
+    """The solver's cell updates per second with no client and with one tab streaming 512 x 256 Mach frames,
+    in `rounds` interleaved pairs (without, then with) so that the drifting load of a shared machine hits both
+    alike. serve_slowdown_fraction = 1 - the median of the pairs' ratios (with / without): each ratio compares two
+    neighbouring phases, so a load that drifts over the run (other work on a shared machine) cancels in it."""
+    alone, streaming, fps = [], [], []
+    size = (0, 0)
+    for _ in range(max(1, rounds)):
+        alone.append(solver_rate(url, seconds))
+        f, rate, size = streaming_phase(url, seconds)
+        fps.append(f)
+        streaming.append(rate)
+        time.sleep(1.0)  # let the server notice the client left
+    med_alone, med_streaming = statistics.median(alone), statistics.median(streaming)
+    ratios = [b / a for a, b in zip(alone, streaming) if a > 0]
+    return {"phases_without_client": alone, "phases_with_client": streaming, "frames_per_s_phases": fps,
+            "frame_size": list(size), "cell_updates_per_s_without_client": med_alone,
+            "cell_updates_per_s_with_client": med_streaming, "frames_per_s": statistics.median(fps),
+            "pair_ratios": ratios,
+            "serve_slowdown_fraction": (1.0 - statistics.median(ratios)) if ratios else None}
+
+
+def slowdown_only(phase_s: float = 5.0, threads: int | None = None, rounds: int = SLOWDOWN_ROUNDS,
+                  develop_s: float = 3.0) -> dict:
+    """`bench --serve --serve-slowdown-only`: the slowdown phase alone, on its own server process."""
+    scenario = bench_scenario()
+    server = ServerProcess(scenario, threads)
+    try:
+        first = server.wait_running()
+        time.sleep(develop_s)  # a developed flow, not the initial condition
+        out = slowdown_phase(server.url, phase_s, rounds)
+        health = _health(server.url)
+    finally:
+        server.stop()
+    out.update({"grid": [scenario["domain"]["nx"], first["cells"] // scenario["domain"]["nx"]],
+                "numba_threading_layer": health.get("threading_layer"), "solver_threads": threads or "all cores",
+                "cpu_count": os.cpu_count(), "load_average_1min": os.getloadavg()[0],
+                "goals": {"frames_per_s": 30, "slowdown_fraction": 0.10}})
+    return out
+
+
+def print_slowdown(r: dict) -> None:
+    print(f"streaming slowdown: grid {r['grid'][0]}x{r['grid'][1]}, frames {r['frame_size'][0]}x{r['frame_size'][1]}, "
+          f"one loopback client; {r['cpu_count']} CPUs, load average {r['load_average_1min']:.2f}, "
+          f"solver threads {r['solver_threads']}")
+    _print_streaming(r)
+
+
+def _print_streaming(r: dict) -> None:
+    """The frames, solver and slowdown lines of slowdown_phase's figures (in either report)."""
+    print(f"  frames delivered        {r['frames_per_s']:6.1f} /s median (goal 30; phases "
+          + ", ".join(f"{f:.1f}" for f in r["frames_per_s_phases"]) + ")")
+    print(f"  solver, no client       {r['cell_updates_per_s_without_client'] / 1e6:6.2f} M cell updates/s median "
+          "(phases " + ", ".join(f"{v / 1e6:.2f}" for v in r["phases_without_client"]) + ")")
+    print(f"  solver, one client      {r['cell_updates_per_s_with_client'] / 1e6:6.2f} M cell updates/s median "
+          "(phases " + ", ".join(f"{v / 1e6:.2f}" for v in r["phases_with_client"]) + ")")
+    if r["serve_slowdown_fraction"] is not None:
+        print(f"  slowdown from streaming {100 * r['serve_slowdown_fraction']:6.1f} %        (goal < 10 %; 1 - median of "
+              "the pair ratios "
+              + ", ".join(f"{x:.3f}" for x in r["pair_ratios"]) + ")")
+
+
+#: Wall time of one burst of each live settle run when the two alternate.
+SETTLE_BURST_S = 0.5
+#: The run without grid sequencing stops at this multiple of the sequenced run's wall time if not steady by then.
+SETTLE_CAP = 8.0
+
+
+def _live_settle_run(session, check):
+    """The page's settle mode on a session, a step at a time (a generator), as the runner steps it; once the flow
+    is on the user's grid every step is judged by check(sim). Returns the session when steady."""
+    session.set_settle(True)
+    chk = None
+    while True:
+        grid = session.settle_grid()
+        fine_step = grid["levels"] is not None and grid["level"] == grid["levels"]  # this step on the user's grid
+        session.step(1)
+        if fine_step and session._stepper is not None and session._stepper.sim is session.sim:
+            chk = chk or check(session.sim)
+            if chk.after_step(session._stepper.dt):
+                return session
+        yield
+
+
+def live_settle_phase(scenario: str = "nozzle_sea_level") -> dict:
+    """Wall time to steady of the page's settle mode (server.session.Session, the code the runner steps) on the
+    scenario at its own resolution, with grid sequencing (settle_levels 2, what the page does) and without
+    (settle_levels 1), one run each in alternating bursts of SETTLE_BURST_S in this process, so the load of a
+    shared machine hits both alike. Steady: the criterion of `shockslate bench`'s settle_speedup
+    (solver_bench.SETTLE_TOLERANCE inside the nozzle for 50 steps, station mass flows within
+    SETTLE_MASS_TOLERANCE). The sequenced run's time includes its coarse grid."""
+    from shockslate.server.session import Session
+    from shockslate.solver import settle
+    from shockslate.solver import scenario as scn
+    from shockslate.solver.diagnostics import read_station
+
+    from .solver_bench import SETTLE_MASS_TOLERANCE, SETTLE_TOLERANCE, alternate_bursts
+
+    s = scn.load_builtin(scenario)
+    throat, exit_ = scn.station_by_role(s, "throat"), scn.station_by_role(s, "exit")
+    stations = [throat, exit_]
+    x_max = settle.interior_end_m(exit_)
+    small = scn.build_simulation(s, settle.MIN_COARSE_NX)  # load the kernels before the clock starts
+    settle.LocalStepper(small).step()
+
+    def check(sim):
+        return settle.SettleCheck(sim, stations, x_max_m=x_max, tolerance=SETTLE_TOLERANCE,
+                                  mass_tolerance=SETTLE_MASS_TOLERANCE)
+
+    sessions = {"sequenced": Session(s), "own_grid_only": Session(s)}
+    sessions["own_grid_only"].settle_levels = 1
+    runs = {name: _live_settle_run(sess, check) for name, sess in sessions.items()}
+    wall, ended = alternate_bursts(runs, SETTLE_BURST_S, "own_grid_only", "sequenced", SETTLE_CAP)
+    seq, own = sessions["sequenced"], sessions["own_grid_only"]
+
+    def figures(q: str) -> dict:
+        a = [getattr(read_station(own.sim, st), q) for st in stations]
+        b = [getattr(read_station(seq.sim, st), q) for st in stations]
+        return {"stations": [st.name for st in stations], "own_grid_only": a, "sequenced": b,
+                "largest_difference_fraction": max(abs(y - x) / abs(x) for x, y in zip(a, b))}
+
+    return {"scenario": s.name, "nx": seq.sim.domain.nx, "ny": seq.sim.domain.ny,
+            "criterion": f"residual figure up to x = {x_max:g} m below {SETTLE_TOLERANCE:g} for 50 steps, station "
+                         f"mass flows within {SETTLE_MASS_TOLERANCE:g}",
+            "timing": f"one run each, alternating bursts of {SETTLE_BURST_S:g} s, one process",
+            "sequenced_wall_s": wall["sequenced"], "sequenced_fine_steps": seq.sim.steps,
+            "coarse_levels": [vars(lv) for lv in seq._sequence.coarse],
+            "own_grid_only_wall_s": wall["own_grid_only"], "own_grid_only_settled": ended["own_grid_only"] is not False,
+            "own_grid_only_steps": own.sim.steps,
+            "sequencing_speedup": wall["own_grid_only"] / wall["sequenced"],
+            "mass_flow_kg_s": figures("mass_flow_kg_s"), "thrust_n": figures("thrust_n"),
+            "load_average_1min": os.getloadavg()[0]}
+
+
+def format_live_settle(r: dict) -> str:
+    capped = "" if r["own_grid_only_settled"] else f" (stopped unsettled at {SETTLE_CAP:g}x: a lower bound)"
+    return (f"page settle mode, {r['scenario']} at {r['nx']}x{r['ny']} ({r['timing']}; load average "
+            f"{r['load_average_1min']:.2f}):\n"
+            f"  with grid sequencing     {r['sequenced_wall_s']:7.1f} s to steady ({r['sequenced_fine_steps']} steps on "
+            f"the user's grid after " + ", ".join(f"{lv['steps']} on {lv['nx']} ({lv['reason']})"
+                                                   for lv in r["coarse_levels"]) + ")\n"
+            f"  on the user's grid alone {r['own_grid_only_wall_s']:7.1f} s ({r['own_grid_only_steps']} steps){capped}\n"
+            f"  gain from sequencing     {r['sequencing_speedup']:7.2f}x; mass flow and thrust differ by at most "
+            f"{max(r['mass_flow_kg_s']['largest_difference_fraction'], r['thrust_n']['largest_difference_fraction']):.2%}")
 
 
 def latency_phase(url: str, scenario: dict, samples: int) -> list[float]:
@@ -364,8 +531,9 @@ def _recv_until(sock, want, timeout_s: float = 120.0):
                 return data
 
 
-def _note_frames(sock, arrivals: list[float], stop, poll_s: float) -> None:
-    """Note the arrival time of every binary frame on sock until stop is set or the socket closes (a thread)."""
+def _note_frames(sock, arrivals: list[float], stop, poll_s: float, statuses: list | None = None) -> None:
+    """Note the arrival time of every binary frame on sock until stop is set or the socket closes (a thread);
+    with `statuses`, also each status's (arrival time, revision)."""
     while not stop.is_set():
         try:
             msg = sock.recv(timeout=poll_s)
@@ -375,6 +543,28 @@ def _note_frames(sock, arrivals: list[float], stop, poll_s: float) -> None:
             return
         if isinstance(msg, bytes):
             arrivals.append(time.monotonic())
+        elif statuses is not None and '"type":"status"' in msg[:40].replace(" ", ""):
+            statuses.append((time.monotonic(), json.loads(msg).get("revision")))
+
+
+def _join_as_new_tab(url: str) -> tuple[float, float, int]:
+    """A new tab in its own process (receiving 17 MB here would hold this process's GIL and stall a watcher
+    thread): (monotonic time it connected, seconds from then to its hello, the hello's length)."""
+    code = ("import json, sys, time\nfrom websockets.sync.client import connect\n"
+            "with connect(sys.argv[1], max_size=None, open_timeout=30) as s:\n"
+            "    t0 = time.perf_counter(); print('go', flush=True); hello = s.recv(timeout=120)\n"
+            "    print(time.perf_counter() - t0, len(hello), flush=True)\n")
+    newcomer = subprocess.Popen([sys.executable, "-c", code, url.replace("http://", "ws://") + "/ws"],
+                                stdout=subprocess.PIPE, text=True)
+    newcomer.stdout.readline()  # connected: the server makes the hello from now on
+    joined = time.monotonic()
+    seconds, size = newcomer.stdout.readline().split()
+    newcomer.wait(30)
+    return joined, float(seconds), int(size)
+
+
+def _longest_gap(times: list[float]) -> float:
+    return max((b - a for a, b in zip(times, times[1:])), default=float("nan"))
 
 
 def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict:
@@ -384,8 +574,8 @@ def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict
     `hello`, with the longest gap between frames another tab saw meanwhile (beside the longest gap before)."""
     import threading
 
-    # on the blast room, not the nozzle: with a reservoir in the sketch the live status draws the nozzle from
-    # every shape (solver/nozzle.py), which with this sketch holds the solver for tens of seconds (left alone here)
+    # on the blast room; the same sketch on the nozzle (whose live status reads the drawn nozzle from every
+    # shape, solver/nozzle.py) is nozzle_sketch_phase
     doc = big_sketch_scenario(base="blast_room")
     d = doc["domain"]
     w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
@@ -425,18 +615,7 @@ def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict
         watcher = threading.Thread(target=_note_frames, args=(other, arrivals, stop, 0.2), daemon=True)
         watcher.start()
         time.sleep(3.0)
-        # the new tab in its own process: receiving 17 MB here would hold this process's GIL and stall the watcher
-        code = ("import json, sys, time\nfrom websockets.sync.client import connect\n"
-                "with connect(sys.argv[1], max_size=None, open_timeout=30) as s:\n"
-                "    t0 = time.perf_counter(); print('go', flush=True); hello = s.recv(timeout=120)\n"
-                "    print(time.perf_counter() - t0, len(hello), flush=True)\n")
-        newcomer = subprocess.Popen([sys.executable, "-c", code, server.url.replace("http://", "ws://") + "/ws"],
-                                    stdout=subprocess.PIPE, text=True)
-        newcomer.stdout.readline()  # connected: the server makes the hello from now on
-        joined = time.monotonic()
-        seconds, size = newcomer.stdout.readline().split()
-        newcomer.wait(30)
-        out["new_tab_hello_s"], out["hello_bytes"] = float(seconds), int(size)
+        joined, out["new_tab_hello_s"], out["hello_bytes"] = _join_as_new_tab(server.url)
         time.sleep(1.0)
         stop.set()
         watcher.join(5)
@@ -448,6 +627,97 @@ def sketch_roundtrip_phase(threads: int | None = None, repeats: int = 5) -> dict
         out["frame_gap_s_during_join"] = longest_gap([a for a in arrivals if a >= joined - 0.2])
         sender.close()
         other.close()
+    finally:
+        server.stop()
+    return out
+
+
+def nozzle_sketch_phase(threads: int | None = None, repeats: int = 6, settle_s: float = 3.0) -> dict:
+    """The big sketch (30 polygons of 15,000 points) on the default NOZZLE, whose live status reads the drawn
+    nozzle from every shape (solver/nozzle.py): a real server process running the flow and two real websocket
+    tabs. For each add_shape (the first one right after the server started with this sketch: the first change
+    after a load), seconds to its acknowledgement and to the first status of its revision at the other tab,
+    and the longest gap between frames that tab saw while the changes were made (beside the longest before;
+    a gap is the solver's thread held by something else)."""
+    import threading
+
+    doc = big_sketch_scenario()
+    d = doc["domain"]
+    w, h = d["x_max_m"] - d["x_min_m"], d["y_max_m"] - d["y_min_m"]
+    server = ServerProcess(doc, threads)
+    out: dict = {"base": doc["name"], "polygons": 30, "points_per_polygon": 15_000, "goal_s": 0.5}
+    try:
+        server.wait_running(timeout_s=600)
+        watcher, _ = _connect(server.url)
+        sender, _ = _connect(server.url)
+        frames: list[float] = []
+        statuses: list[tuple[float, int]] = []
+        stop = threading.Event()
+        thread = threading.Thread(target=_note_frames, args=(watcher, frames, stop, 0.2, statuses), daemon=True)
+        thread.start()
+        time.sleep(settle_s)
+        began = time.monotonic()
+        acks, to_status = [], []
+        for k in range(repeats):
+            shape = {"kind": "circle", "centre_m": [d["x_min_m"] + w * (0.2 + 0.6 * k / max(repeats - 1, 1)),
+                                                    d["y_min_m"] + 0.5 * h], "radius_m": 0.02 * h, "paints": "wall"}
+            rid = f"nozzle{k}"
+            t0 = time.monotonic()
+            sender.send(json.dumps({"type": "add_shape", "id": rid, "shape": shape}))
+            ack = _recv_until(sender, lambda m: m.get("id") == rid)
+            acks.append(time.monotonic() - t0)
+            if ack["type"] == "error":
+                raise RuntimeError(f"add_shape refused: {ack}")
+            deadline = time.monotonic() + 120.0
+            while not any(r == ack["revision"] for _, r in statuses) and time.monotonic() < deadline:
+                time.sleep(0.005)
+            to_status.append(min((t for t, r in statuses if r == ack["revision"]), default=float("nan")) - t0)
+            time.sleep(0.5)
+        ended = time.monotonic()
+        stop.set()
+        thread.join(5)
+        sender.close()
+        watcher.close()
+        out.update({"first_change_s": acks[0], "sketch_change_roundtrip_s": statistics.median(acks[1:]),
+                    "add_shape_s_each": acks, "status_after_change_s": statistics.median(to_status),
+                    "status_after_change_s_each": to_status,
+                    "frame_gap_s_before": _longest_gap([t for t in frames if t < began]),
+                    "frame_gap_s_during": _longest_gap([t for t in frames if began - 0.2 <= t <= ended])})
+    finally:
+        server.stop()
+    return out
+
+
+def join_phase(threads: int | None = None, joins: int = 5, settle_s: float = 2.0) -> dict:
+    """New tabs joining a server that holds the big sketch (30 polygons of 15,000 points, on the blast room): for
+    each of `joins` tabs (each in its own process, so receiving its 17 MB hello does not hold this process), the
+    seconds to its hello and the longest gap between frames another tab saw from its joining until one second
+    after; beside that tab's longest gap over the same time before the first join."""
+    import threading
+
+    server = ServerProcess(big_sketch_scenario(base="blast_room"), threads)
+    out: dict = {"polygons": 30, "points_per_polygon": 15_000}
+    try:
+        server.wait_running(timeout_s=600)
+        watcher, _ = _connect(server.url)
+        arrivals: list[float] = []
+        stop = threading.Event()
+        thread = threading.Thread(target=_note_frames, args=(watcher, arrivals, stop, 0.2), daemon=True)
+        thread.start()
+        time.sleep(settle_s)
+        quiet = [a for a in arrivals if a >= time.monotonic() - settle_s]
+        hellos, gaps, size = [], [], 0
+        for _ in range(joins):
+            joined, seconds, size = _join_as_new_tab(server.url)
+            hellos.append(seconds)
+            time.sleep(1.0)
+            gaps.append(_longest_gap([a for a in arrivals if a >= joined - 0.2]))
+        stop.set()
+        thread.join(5)
+        watcher.close()
+        out.update({"hello_bytes": size, "new_tab_hello_s": statistics.median(hellos), "hello_s_each": hellos,
+                    "frame_gap_s_during_join_max": max(gaps), "frame_gap_s_each_join": gaps,
+                    "frame_gap_s_before": _longest_gap(quiet)})
     finally:
         server.stop()
     return out
@@ -620,13 +890,15 @@ def first_frame_phase(timeout_s: float = 300.0) -> dict:
 
 
 def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: float = 3.0,
-                    threads: int | None = None, load_clients: int = 8) -> dict:
+                    threads: int | None = None, load_clients: int = 8, rounds: int = SLOWDOWN_ROUNDS) -> dict:
     first_frame = first_frame_phase()
     sketch_change = sketch_change_phase()
     roundtrip = sketch_roundtrip_phase(threads)
     page_sketch = page_sketch_phase(threads)
     if page_sketch is not None:
         roundtrip.update(page_sketch)
+    nozzle_sketch = nozzle_sketch_phase(threads)
+    joins = join_phase(threads)
     scenario = bench_scenario()
     server = ServerProcess(scenario, threads)
     try:
@@ -634,14 +906,7 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
         first = server.wait_running()
         start_s = time.monotonic() - start
         time.sleep(develop_s)  # a developed flow, not the initial condition
-        alone, streaming, fps = [], [], []
-        size = (0, 0)
-        for _ in range(2):  # interleaved: without, with, without, with
-            alone.append(solver_rate(server.url, phase_s))
-            f, rate, size = streaming_phase(server.url, phase_s)
-            fps.append(f)
-            streaming.append(rate)
-            time.sleep(1.0)  # let the server notice the client left
+        slow = slowdown_phase(server.url, phase_s, rounds)
         latencies = latency_phase(server.url, scenario, latency_samples)
         load = load_phase(server, load_clients, 2 * phase_s) if load_clients > 0 else None
         segment = long_segment_phase(server)
@@ -649,22 +914,23 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
         health = _health(server.url)
     finally:
         server.stop()
-    mean_alone, mean_streaming = statistics.mean(alone), statistics.mean(streaming)
     return {
         "grid": [scenario["domain"]["nx"], first["cells"] // scenario["domain"]["nx"]],
-        "frame_size": list(size),
+        "frame_size": slow["frame_size"],
         "start_to_running_s": start_s,
-        "frames_per_s": statistics.mean(fps),
-        "frames_per_s_phases": fps,
+        "frames_per_s": slow["frames_per_s"],
+        "frames_per_s_phases": slow["frames_per_s_phases"],
         "latency_ms_median": 1e3 * statistics.median(latencies) if latencies else None,
         "latency_ms_max": 1e3 * max(latencies) if latencies else None,
         "latency_samples": len(latencies),
-        "cell_updates_per_s_without_client": mean_alone,
-        "cell_updates_per_s_with_client": mean_streaming,
-        "phases_without_client": alone,
-        "phases_with_client": streaming,
-        "solver_slowdown_percent": 100.0 * (1.0 - mean_streaming / mean_alone) if mean_alone > 0 else None,
-        "serve_slowdown_fraction": (1.0 - mean_streaming / mean_alone) if mean_alone > 0 else None,
+        "cell_updates_per_s_without_client": slow["cell_updates_per_s_without_client"],
+        "cell_updates_per_s_with_client": slow["cell_updates_per_s_with_client"],
+        "phases_without_client": slow["phases_without_client"],
+        "phases_with_client": slow["phases_with_client"],
+        "pair_ratios": slow["pair_ratios"],
+        "solver_slowdown_percent": (100.0 * slow["serve_slowdown_fraction"]
+                                    if slow["serve_slowdown_fraction"] is not None else None),
+        "serve_slowdown_fraction": slow["serve_slowdown_fraction"],
         "first_frame": first_frame,
         "load": load,
         "sketch_change_s": sketch_change["sketch_change_s"],
@@ -672,6 +938,8 @@ def run_serve_bench(phase_s: float = 5.0, latency_samples: int = 8, develop_s: f
         "sketch_change": sketch_change,
         "sketch_change_roundtrip_s": roundtrip["sketch_change_roundtrip_s"],
         "sketch_roundtrip": roundtrip,
+        "nozzle_sketch": nozzle_sketch,
+        "joins": joins,
         "resolution_change": resolution,
         "long_segment": segment,
         "numba_threading_layer": health.get("threading_layer"),
@@ -686,17 +954,10 @@ def print_report(r: dict) -> None:
     print(f"serving benchmark: grid {r['grid'][0]}x{r['grid'][1]}, frames {r['frame_size'][0]}x{r['frame_size'][1]}, "
           f"one loopback client; {r['cpu_count']} CPUs, load average {r['load_average_1min']:.2f}, "
           f"numba threading layer {r['numba_threading_layer']}, solver threads {r['solver_threads']}")
-    print(f"  frames delivered        {r['frames_per_s']:6.1f} /s      (goal 30; phases "
-          + ", ".join(f"{f:.1f}" for f in r["frames_per_s_phases"]) + ")")
+    _print_streaming(r)
     if r["latency_ms_median"] is not None:
         print(f"  shape -> frame latency  {r['latency_ms_median']:6.0f} ms median, {r['latency_ms_max']:.0f} ms max "
               f"over {r['latency_samples']} shapes (goal < 150 ms)")
-    print(f"  solver, no client       {r['cell_updates_per_s_without_client'] / 1e6:6.2f} M cell updates/s (phases "
-          + ", ".join(f"{v / 1e6:.2f}" for v in r["phases_without_client"]) + ")")
-    print(f"  solver, one client      {r['cell_updates_per_s_with_client'] / 1e6:6.2f} M cell updates/s (phases "
-          + ", ".join(f"{v / 1e6:.2f}" for v in r["phases_with_client"]) + ")")
-    if r["solver_slowdown_percent"] is not None:
-        print(f"  slowdown from streaming {r['solver_slowdown_percent']:6.1f} %        (goal < 10 %)")
     print(f"  start to running        {r['start_to_running_s']:6.1f} s")
     ff = r.get("first_frame")
     if ff:
@@ -723,6 +984,17 @@ def print_report(r: dict) -> None:
     if rt and "page_sketch_change_s" in rt:
         print(f"  one more shape, page    {rt['page_sketch_change_s']:6.3f} s median from the page's add_shape to its "
               f"sketch drawn (Chromium); page open to first drawing {rt['page_open_to_first_drawing_s']:.1f} s")
+    nz = r.get("nozzle_sketch")
+    if nz:
+        print(f"  one more shape, nozzle  {nz['sketch_change_roundtrip_s']:6.3f} s median to its acknowledgement "
+              f"(goal < 0.5 s), the first after start {nz['first_change_s']:.3f} s, its status at another tab "
+              f"{nz['status_after_change_s']:.3f} s; longest frame gap meanwhile {nz['frame_gap_s_during']:.2f} s "
+              f"({nz['frame_gap_s_before']:.2f} s before)")
+    jn = r.get("joins")
+    if jn:
+        print(f"  tabs joining            hello ({jn['hello_bytes'] / 1e6:.1f} MB) {jn['new_tab_hello_s']:6.3f} s median; "
+              f"another tab's longest frame gap per join {max(jn['frame_gap_s_each_join']):.2f} s at most "
+              f"({jn['frame_gap_s_before']:.2f} s before)")
     rc = r.get("resolution_change")
     if rc:
         print(f"  resolution changes      {rc['frames_per_s_min']:6.1f} frames/s at least to another tab (goal 10); "

@@ -210,6 +210,30 @@ def _plain_run(sim, chk):
         yield
 
 
+def alternate_bursts(runs: dict, burst_s: float, capped: str, reference: str, cap: float) -> tuple[dict, dict]:
+    """Advance the generators `runs` (name -> generator) in turn, burst_s of wall time each, until each has
+    returned, so that the load of a shared machine hits them alike. Run `capped` stops once its wall time passes
+    cap times that of `reference` after that one ended. Returns (wall seconds, return values) by name; a stopped
+    run's value is False."""
+    wall = {name: 0.0 for name in runs}
+    ended: dict = {}
+    while len(ended) < len(runs):
+        for name, run in runs.items():
+            if name in ended:
+                continue
+            if name == capped and reference in ended and wall[name] > cap * wall[reference]:
+                ended[name] = False  # stopped unfinished: the gain is at least the cap
+                continue
+            t = time.perf_counter()
+            try:
+                while time.perf_counter() - t < burst_s:
+                    next(run)
+            except StopIteration as end:
+                ended[name] = end.value
+            wall[name] += time.perf_counter() - t
+    return wall, ended
+
+
 def measure_settle(scenario=SETTLE_SCENARIO, nx: int | None = None, tolerance: float = SETTLE_TOLERANCE,
                    cap: float = SETTLE_CAP) -> dict:
     """Wall time to the same steady criterion by settle mode (grid sequencing, then local time steps) and by
@@ -235,22 +259,7 @@ def measure_settle(scenario=SETTLE_SCENARIO, nx: int | None = None, tolerance: f
 
     plain = build_simulation(s, nx)
     runs = {"settle": _settle_run(s, nx, x_max, check), "time_accurate": _plain_run(plain, check(plain))}
-    wall = {name: 0.0 for name in runs}
-    ended: dict = {}
-    while len(ended) < len(runs):
-        for name, run in runs.items():
-            if name in ended:
-                continue
-            if name == "time_accurate" and "settle" in ended and wall[name] > cap * wall["settle"]:
-                ended[name] = False  # stopped unsettled: the speedup is at least the cap
-                continue
-            t = time.perf_counter()
-            try:
-                while time.perf_counter() - t < SETTLE_BURST_S:
-                    next(run)
-            except StopIteration as end:
-                ended[name] = end.value
-            wall[name] += time.perf_counter() - t
+    wall, ended = alternate_bursts(runs, SETTLE_BURST_S, "time_accurate", "settle", cap)
     fast, levels, settled = ended["settle"]
     plain_settled = ended["time_accurate"]
 

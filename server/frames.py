@@ -14,6 +14,9 @@ import numpy as np
 
 from shockslate.solver.fields import VIEWS, derived
 from shockslate.solver.gas import Gas
+from shockslate.solver.kinds import CellKind
+
+from . import frame_kernels
 
 MAGIC = b"SSF1"
 #: magic, header length, width, height, view index, encoding, reserved, min, max, time_s, step.
@@ -139,9 +142,17 @@ def decode_frame(data: bytes) -> tuple[FrameHeader, np.ndarray]:
 
 def view_field(view: str, gas: Gas, rho: np.ndarray, u: np.ndarray, v: np.ndarray, p: np.ndarray,
                dx_m: float, mask: np.ndarray) -> np.ndarray:
-    """The named view in SI units with NaN on walls (solver.fields.derived, errors kept quiet)."""
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return derived(view, gas, rho, u, v, p, dx_m, mask)
+    """The named view in SI units with NaN on walls: solver.fields.derived's values (errors kept quiet), the
+    views of one cell each by a compiled kernel (frame_kernels.point_view), the others by derived itself."""
+    view_id = frame_kernels.POINT_VIEWS.get(view)
+    if view_id is None:
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return derived(view, gas, rho, u, v, p, dx_m, mask)
+    out = np.empty(rho.shape)
+    frame_kernels.point_view(view_id, rho, u, v, p, mask, int(CellKind.WALL), float(gas.gamma),
+                             float(gas.r_j_kg_k), out)
+    return out
+
 
 
 # ----------------------------------------------------------------------------- overlay
@@ -156,23 +167,19 @@ def sonic_line(mach: np.ndarray, x_centres_m: np.ndarray, y_centres_m: np.ndarra
     f = mach - 1.0
     if f.shape[0] < 2 or f.shape[1] < 2:
         return []
-    a = f[:-1, :-1]  # bottom-left corner of each square
-    b = f[:-1, 1:]   # bottom-right
-    c = f[1:, 1:]    # top-right
-    d = f[1:, :-1]   # top-left
-    valid = np.isfinite(a) & np.isfinite(b) & np.isfinite(c) & np.isfinite(d)
-    pa, pb, pc, pd = a > 0, b > 0, c > 0, d > 0
-    # Edges: 0 bottom (a-b), 1 right (b-c), 2 top (d-c), 3 left (a-d).
-    crossed = np.stack([pa != pb, pb != pc, pd != pc, pa != pd]) & valid[None]
-    count = crossed.sum(axis=0)
-    jj, ii = np.nonzero(count >= 2)
+    # Squares with all corners finite and at least two crossed edges (one compiled pass over the grid).
+    jj, ii = frame_kernels.contour_squares(np.ascontiguousarray(f, dtype=np.float64))
     if jj.size == 0:
         return []
     x0 = x_centres_m[ii]
     y0 = y_centres_m[jj]
     dx = float(x_centres_m[1] - x_centres_m[0]) if x_centres_m.size > 1 else 1.0
     dy = float(y_centres_m[1] - y_centres_m[0]) if y_centres_m.size > 1 else 1.0
-    av, bv, cv, dv = a[jj, ii], b[jj, ii], c[jj, ii], d[jj, ii]
+    # Corners: a bottom-left, b bottom-right, c top-right, d top-left of each square.
+    av, bv, cv, dv = f[jj, ii], f[jj, ii + 1], f[jj + 1, ii + 1], f[jj + 1, ii]
+    pa, pb, pc, pd = av > 0, bv > 0, cv > 0, dv > 0
+    # Edges: 0 bottom (a-b), 1 right (b-c), 2 top (d-c), 3 left (a-d).
+    cr = np.stack([pa != pb, pb != pc, pd != pc, pa != pd])
 
     def frac(p, q):
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -182,9 +189,8 @@ def sonic_line(mach: np.ndarray, x_centres_m: np.ndarray, y_centres_m: np.ndarra
     # Crossing point on each edge (metres).
     ex = np.stack([x0 + frac(av, bv) * dx, x0 + dx, x0 + frac(dv, cv) * dx, x0])
     ey = np.stack([y0, y0 + frac(bv, cv) * dy, y0 + dy, y0 + frac(av, dv) * dy])
-    cr = crossed[:, jj, ii]
     segments: list[np.ndarray] = []
-    two = count[jj, ii] == 2
+    two = cr.sum(axis=0) == 2
     if two.any():
         k = np.nonzero(two)[0]
         first = np.argmax(cr[:, k], axis=0)
@@ -194,7 +200,7 @@ def sonic_line(mach: np.ndarray, x_centres_m: np.ndarray, y_centres_m: np.ndarra
     if four.any():
         k = np.nonzero(four)[0]
         centre_high = (av[k] + bv[k] + cv[k] + dv[k]) > 0
-        a_high = pa[jj[k], ii[k]]
+        a_high = pa[k]
         # When the centre agrees with corner a, a's region joins c's: cut off b and d (edges 0-1, 2-3);
         # otherwise cut off a and c (edges 3-0, 1-2).
         join_ac = centre_high == a_high

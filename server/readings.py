@@ -8,7 +8,9 @@ the resolved (cell mask) throat area goes with them, labelled.
 """
 from __future__ import annotations
 
+import logging
 import math
+import threading
 from typing import Any
 
 import numpy as np
@@ -22,12 +24,75 @@ from shockslate.solver.simulation import GHOST, Simulation
 from shockslate.solver.steady import live_residual, steady_region
 
 
-def nozzle_geometry(mask: np.ndarray, domain: Domain, scenario: scn.Scenario) -> nozzle.DrawnNozzle | None:
+log = logging.getLogger("shockslate.readings")
+
+#: A sketch with more vertices than this has its drawn nozzle read in a thread of its own when the live status
+#: asks (wait=False), and the status waits for it at most READ_APART_WAIT_S, so the solver's thread is never held
+#: longer; a smaller one is read at once (common practice, no source: 30 polygons of 15,000 points read in about
+#: 0.1 s, 30 strokes of 15,000 points in about 5 s)
+READ_APART_VERTICES = 100_000
+READ_APART_WAIT_S = 0.2
+
+
+class _DrawnNozzleReader:
+    """Reads one scenario's drawn nozzle at a time in a thread of its own; solver.nozzle keeps the result, so the
+    next status finds it. A reading that fails is not tried again apart: that scenario is then read at once."""
+
+    def __init__(self) -> None:
+        self._lock = threading.Lock()
+        self._thread: threading.Thread | None = None
+        self._scenario: scn.Scenario | None = None
+        self._failed: scn.Scenario | None = None
+
+    def busy_with(self, scenario: scn.Scenario) -> bool:
+        with self._lock:
+            return self._scenario is scenario and self._thread is not None and self._thread.is_alive()
+
+    def failed(self, scenario: scn.Scenario) -> bool:
+        return self._failed is scenario
+
+    def start(self, scenario: scn.Scenario, wait_s: float) -> None:
+        """Read this scenario apart and wait for it at most wait_s seconds, unless a reading is under way
+        already (then return at once: the next status asks again)."""
+        with self._lock:
+            if self._thread is not None and self._thread.is_alive():
+                return
+            self._scenario = scenario
+            self._thread = thread = threading.Thread(target=self._read, args=(scenario,), name="drawn-nozzle",
+                                                     daemon=True)
+            thread.start()
+        thread.join(wait_s)
+
+    def _read(self, scenario: scn.Scenario) -> None:
+        try:
+            nozzle.drawn_nozzle(scenario)
+        except Exception:  # noqa: BLE001 - told once; the status then reads it at once and reports it there
+            log.exception("the drawn nozzle could not be read")
+            self._failed = scenario
+
+
+_READER = _DrawnNozzleReader()
+
+
+def nozzle_geometry(mask: np.ndarray, domain: Domain, scenario: scn.Scenario,
+                    wait: bool = True) -> nozzle.DrawnNozzle | None:
     """The drawn nozzle (solver.nozzle) when the sketch has a reservoir, else None. mask and domain are not
-    needed for the drawn figures (the resolved ones are read in station_figures); kept for the runner's call."""
+    needed for the drawn figures (the resolved ones are read in station_figures); kept for the runner's call.
+
+    wait=False (the live status): a big sketch not read yet is read in another thread and None comes back
+    meanwhile if it takes longer than READ_APART_WAIT_S (drawn_nozzle_reading tells); a later status finds it."""
     if not scn.has_reservoir(scenario):
         return None
-    return nozzle.drawn_nozzle(scenario)
+    if wait or nozzle.drawn_nozzle_known(scenario) or _READER.failed(scenario) \
+            or nozzle.drawing_vertices(scenario) <= READ_APART_VERTICES:
+        return nozzle.drawn_nozzle(scenario)
+    _READER.start(scenario, READ_APART_WAIT_S)
+    return nozzle.drawn_nozzle(scenario) if nozzle.drawn_nozzle_known(scenario) else None
+
+
+def drawn_nozzle_reading(scenario: scn.Scenario) -> bool:
+    """Whether the scenario's drawn nozzle is being read apart (its ideal figures follow in a later status)."""
+    return scn.has_reservoir(scenario) and not nozzle.drawn_nozzle_known(scenario) and _READER.busy_with(scenario)
 
 
 def _station_x_m(st: scn.StationModel) -> float:
@@ -93,6 +158,8 @@ def max_mach(sim: Simulation) -> float:
 def warnings(scenario: scn.Scenario, stations: list[dict], floors_since_last: int) -> list[str]:
     """Plain-language cautions about the flow on screen (from the station figures just computed)."""
     out = []
+    if drawn_nozzle_reading(scenario):
+        out.append("the drawn nozzle of this big sketch is being read: its ideal 1D figures follow in a moment")
     if floors_since_last > 0:
         out.append(f"density or pressure floors were applied {floors_since_last} times since the last status: "
                    "near-vacuum somewhere; results there are not physical (try a finer grid or softer conditions)")
@@ -122,7 +189,8 @@ def status_figures(sim: Simulation, scenario: scn.Scenario, noz: nozzle.DrawnNoz
     residual, flow = live_residual(sim, region)
     return {"time_s": sim.time_s, "steps": sim.steps, "max_mach": max_mach(sim), "floors": sim.floors_total,
             "dt_s": sim.dt_s, "cells": sim.cells, "stations": stations, "probes": probe_figures(sim, scenario),
-            "residual": residual, "flow": flow, "warnings": warnings(scenario, stations, floors_since_last)}
+            "residual": residual, "flow": flow, "warnings": warnings(scenario, stations, floors_since_last),
+            "drawn_nozzle_reading": drawn_nozzle_reading(scenario)}
 
 
 def axis_profile(sim: Simulation, scenario: scn.Scenario) -> dict[str, Any]:

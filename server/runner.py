@@ -5,9 +5,10 @@ the GIL), so the event loop stays free to read messages and feed the tabs. Every
 the simulation runs in that same thread: numba's OpenMP layer keeps a thread team per calling thread,
 and teams of several callers spin against each other on a 2-core machine (measured: the solver ran at
 less than half speed when bursts hopped between the default pool's threads). Requests take the same asyncio
-lock, which is fair: a request waits at most one burst. After each burst or request the runner
-publishes a flow snapshot (when tabs are connected, at most ~32 per second) and, a few times per
-second, a status.
+lock, which is fair: a request waits at most one burst. While tabs are connected, the runner takes a flow
+snapshot about 32 times a second inside the bursts (between two steps, on its own schedule) and after each
+request, builds its frames in the solver thread and hands them to the event loop; a few times per second it
+publishes a status.
 """
 from __future__ import annotations
 
@@ -19,7 +20,7 @@ import time
 import weakref
 from typing import Any, Callable
 
-from . import engine, readings
+from . import engine, frame_kernels, readings
 from .history import FlowHistory
 from .hub import Hub
 from .session import Advanced, Session
@@ -45,6 +46,7 @@ class Runner:
         self.status_interval_s = status_interval_s
         self.snapshot_interval_s = snapshot_interval_s
         self.lock = asyncio.Lock()
+        self._loop: asyncio.AbstractEventLoop | None = None  # the event loop, once started
         self._worker = ThreadPoolExecutor(max_workers=1, thread_name_prefix="shockslate-solver")
         self._kick = asyncio.Event()
         self._task: asyncio.Task | None = None
@@ -69,6 +71,10 @@ class Runner:
 
     # ------------------------------------------------------------ life cycle
     def start(self) -> None:
+        self._loop = asyncio.get_running_loop()
+        # the frame kernels load (or compile, once per user) in the solver thread before its first burst or
+        # warm-up, so no first frame waits for them
+        self._worker.submit(frame_kernels.warm)
         self._task = asyncio.create_task(self._run_forever(), name="shockslate-runner")
         self._ticker = asyncio.create_task(self._status_ticker(), name="shockslate-status")
 
@@ -132,7 +138,7 @@ class Runner:
                 continue
             try:
                 async with self.lock:
-                    advanced, snap, status = await self.in_worker(self._burst)
+                    advanced, _, status = await self.in_worker(self._burst)
             except Exception as err:  # a bug, not a divergence: stop the run, keep the server, say so
                 log.exception("the run stopped on an unexpected error")
                 await self._stop_after_failure(err)
@@ -140,8 +146,6 @@ class Runner:
             news = self.take_comparison_news()
             if news is not None:
                 self.hub.broadcast(news)
-            if snap is not None:
-                self.hub.publish_snapshot(snap, live=self.session.running)
             if advanced.divergence is not None:
                 self.hub.broadcast(advanced.divergence.to_message())
             if status is not None:
@@ -159,21 +163,38 @@ class Runner:
         self._status_key = None  # the ticker sends a fresh status now that the run is paused
 
     def _burst(self) -> tuple[Advanced, Any, dict | None]:
-        now = time.monotonic()
-        budget = self.burst_s
-        if self.hub.wants_frames:
-            budget = min(budget, max(self._next_snapshot_t - now, 0.0))
-        advanced = self._advance_sampling(budget)
+        """One burst of about burst_s with the flow's snapshots taken inside it on their own schedule.
+
+        A snapshot falls due every snapshot_interval_s while tabs are connected: the burst stops stepping at the
+        first step boundary after that, makes the snapshot and its frames here (hub.prepare, on the solver's own
+        thread team) and hands them to the event loop without waiting for it. The burst itself keeps its length,
+        so a tab adds no hand-overs between the event loop and this thread (each costs a wake-up of both, which
+        on a busy 2-core machine took longer than the frame itself), and the frames' sending overlaps the steps.
+        """
+        start = time.perf_counter()
+        steps = 0
+        divergence = None
+        while True:
+            left = max(self.burst_s - (time.perf_counter() - start), 0.0)
+            if self.hub.wants_frames:
+                left = min(left, max(self._next_snapshot_t - time.monotonic(), 0.0))
+            piece = self._advance_sampling(left)
+            steps += piece.steps
+            divergence = piece.divergence
+            now = time.monotonic()
+            if self.hub.wants_frames and (now >= self._next_snapshot_t or divergence is not None):
+                snap = self.session.snapshot()
+                self.hub.prepare(snap, comparison=self._comparison_snapshot())
+                self._hand_to_loop(self.hub.publish_snapshot, snap, self.session.running)
+                late = now - self._next_snapshot_t
+                # Keep the schedule (so overruns average out) unless a whole interval behind.
+                self._next_snapshot_t = (self._next_snapshot_t if late < self.snapshot_interval_s else now) \
+                    + self.snapshot_interval_s
+            if divergence is not None or piece.steps == 0 or time.perf_counter() - start >= self.burst_s:
+                break
+        advanced = Advanced(steps, time.perf_counter() - start, divergence)
         self.follow_comparison(advanced.wall_s)
         now = time.monotonic()
-        snap = None
-        if self.hub.wants_frames and (now >= self._next_snapshot_t or advanced.divergence is not None):
-            snap = self.session.snapshot()
-            self.hub.prepare(snap, comparison=self._comparison_snapshot())
-            late = now - self._next_snapshot_t
-            # Keep the schedule (so overruns average out) unless a whole interval behind.
-            self._next_snapshot_t = (self._next_snapshot_t if late < self.snapshot_interval_s else now) \
-                + self.snapshot_interval_s
         status = None
         if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
             scenario = self.session.scenario
@@ -182,7 +203,14 @@ class Runner:
             else:  # nobody to tell: keep only the rates /health reports
                 self._update_rates(now)
                 self._last_status_t = now
-        return advanced, snap, status
+        return advanced, None, status  # the snapshots went to the event loop as they were made
+
+    def _hand_to_loop(self, fn: Callable[..., Any], *args: Any) -> None:
+        """fn(*args) in the event loop, soon; at once when the runner was never started (no loop to hand to)."""
+        if self._loop is None:
+            fn(*args)
+        else:
+            self._loop.call_soon_threadsafe(fn, *args)
 
     def _advance_sampling(self, budget: float) -> Advanced:
         """session.advance(budget); with a wave line set, in pieces of `every_steps` steps, a row after each."""
@@ -263,7 +291,7 @@ class Runner:
     # ------------------------------------------------------------ status
     def _update_rates(self, now: float) -> None:
         """Steps and cell updates per second since the last update (for status and /health)."""
-        s, sim = self.session, self.session.sim
+        s, sim = self.session, self.session.shown_sim  # a coarse grid of settle mode's sequence while it runs
         elapsed = now - self._rate_t
         if elapsed >= 0.2 or not s.running:
             steps = sim.steps - self._rate_steps
@@ -293,13 +321,15 @@ class Runner:
         self._update_rates(now)
         floors = max(sim.floors_total - self._rate_floors, 0)
         self._rate_floors = sim.floors_total
-        nozzle = readings.nozzle_geometry(sim.mask, sim.domain, s.scenario)
+        nozzle = readings.nozzle_geometry(sim.mask, sim.domain, s.scenario, wait=False)  # a big sketch: read apart
         status = {"type": "status", "state": s.state.value, "revision": s.revision,
                   "steps_per_s": self.steps_per_s, "cell_updates_per_s": self.cell_updates_per_s,
                   "nx": sim.domain.nx, "ny": sim.domain.ny, "undo_depth": s.undo_depth, "redo_depth": s.redo_depth}
         status["settle"] = s.settle  # settle mode: the page says the flow shown is no time history
-        status.update(readings.status_figures(sim, s.scenario, nozzle, floors))
-        status.update(engine.engine_status(sim, s.scenario, nozzle))  # engine figures, separation marks
+        status["settle_grid"] = s.settle_grid()  # settle mode's grid sequence: which grid level the picture shows
+        shown = s.shown_sim  # readings, time and steps of the grid the picture shows (settle's coarse grid)
+        status.update(readings.status_figures(shown, s.scenario, nozzle, floors))
+        status.update(engine.engine_status(shown, s.scenario, nozzle))  # engine figures, separation marks
         if self.comparison is not None:  # where the comparison run is (its time, how far behind, any trouble)
             c = self.comparison
             status["comparison"] = {"time_s": c.sim.time_s, "steps": c.sim.steps, "behind_s": c.behind_s,

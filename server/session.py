@@ -24,6 +24,7 @@ from typing import Any, Callable
 
 import numpy as np
 
+from shockslate.solver import nozzle
 from shockslate.solver import scenario as scn
 from shockslate.solver.diagnostics import Station, read_probe, station_profile
 from shockslate.solver.domain import Domain
@@ -32,7 +33,7 @@ from shockslate.solver.kinds import HELD_KINDS, CellKind
 from shockslate.solver.gas import PRESETS, Gas
 from shockslate.solver.geometry import SampledWalls, resample_walls, sample_walls
 from shockslate.solver.shapes import Sketch, shape_from_dict
-from shockslate.solver.settle import LocalStepper
+from shockslate.solver.settle import GridSequence, LocalStepper, interior_end_m
 from shockslate.solver.simulation import Simulation
 from shockslate.solver.validation import Refused
 
@@ -43,6 +44,12 @@ from .errors import RequestError
 UNDO_DEPTH = 200
 #: Added to the name of a scenario that differs from the one loaded (in downloads and exports too).
 EDITED_SUFFIX = " edited"
+#: A running flow whose steps take longer than this (seconds) is not stepped while it is rebuilt on a new grid:
+#: it cannot give the tabs 10 frames per second anyway, the steps made meanwhile are dropped at the swap, and
+#: each one delays the swap (leaving a 2048-cell grid, two of them made the change last 0.8 s)
+HOLD_STEP_S = 0.1
+#: What a held flow's burst waits instead of stepping (seconds): the runner's loop comes back without spinning
+HELD_NAP_S = 0.01
 
 
 class SessionState(str, enum.Enum):
@@ -203,7 +210,9 @@ class Session:
     def __init__(self, scenario: scn.Scenario, on_change: Callable[[scn.Scenario], None] | None = None,
                  state: SessionState = PAUSED):
         self.scenario = scenario
-        self.sim: Simulation = scn.build_simulation(scenario)
+        self._walls: SampledWalls | None = None  # the flow's wall geometry with its samples
+        self._shapes: tuple[list, tuple] = ([], ())  # the shape models of the last sketch built, and its shapes
+        self.sim: Simulation = self._flow_of(scenario)
         self.state = SessionState(state)
         self.revision = 0
         self.flow_version = 0
@@ -213,13 +222,19 @@ class Session:
         self._redo: list[scn.Scenario] = []
         self._on_change = on_change
         self._dicts: list[tuple[scn.Scenario, dict]] = []
-        self._walls: SampledWalls | None = None  # the flow's wall geometry with its samples, once a change made it
-        self._shapes: tuple[list, tuple] = ([], ())  # the shape models of the last sketch built, and its shapes
         self._before_unsaved: tuple | None = None  # what the last unsaved_change replaced, until it is saved
         #: settle mode: every cell takes its own time step (solver/settle.py); the flow on the way to the
         #: steady state is no time history, so the page says so while it is on
         self.settle = False
         self._stepper: LocalStepper | None = None
+        self._step_s = 0.0  # wall time of one step in the last burst (decides whether a rebuild holds the flow)
+        self._held: Rebuild | None = None  # the rebuild the flow is held for, if any
+        #: settle mode's grid sequencing (coarse grids first, then the flow's own grid), begun when settle is
+        #: switched on and with each new flow while it is on; the user's grid and sketch are never changed by it
+        self._sequence: GridSequence | None = None
+        #: its grid levels: 2 (one coarse grid, as `run --until steady --settle`); 1 settles on the flow's grid alone
+        self.settle_levels = 2
+        self._sequence_note = ""
         self._set_origin(scenario)
 
     # ------------------------------------------------------------------ what was loaded, what is edited
@@ -286,15 +301,66 @@ class Session:
         steps again, from the flow as it is)."""
         if not isinstance(on, bool):
             raise RequestError("on", on, "true or false", rule="type")
+        if on and not self.settle:
+            self._sequence = None  # switched on: the next settle step begins the grid sequence
         self.settle = on
 
     def _one_step(self) -> float:
         """One step of the current flow: time-accurate, or a local-time step in settle mode."""
         if not self.settle:
             return self.sim.step()
+        coarse = self._coarse_step()
+        if coarse is not None:
+            return coarse
         if self._stepper is None or self._stepper.sim is not self.sim:  # a new flow since the last step
             self._stepper = LocalStepper(self.sim)
         return self._stepper.step()
+
+    def _coarse_step(self) -> float | None:
+        """One step of settle mode's grid sequence while it is on a coarse grid, else None. The sequence begins
+        with settle and with each new flow; a change of the scenario on a coarse grid begins it again. A coarse
+        grid that cannot be built or diverges ends the sequence: the flow settles on its own grid from its
+        state (untouched by the coarse grids), and settle_grid() says why."""
+        seq = self._sequence
+        if seq is None or seq.fine is not self.sim or (not seq.done and self._sequence_revision != self.revision):
+            scenario = self.scenario
+            seq = self._sequence = GridSequence(
+                lambda nx: scn.build_simulation(scenario, nx), self.sim, levels=self.settle_levels,
+                x_max_m=interior_end_m(scn.station_by_role(scenario, "exit")))
+            self._sequence_revision = self.revision
+            self._sequence_note = ""
+        if seq.done:
+            return None
+        try:
+            return seq.step()
+        except Exception as err:  # noqa: BLE001  (a coarse grid's trouble must not stop the settle)
+            nx = seq.sim.domain.nx
+            seq.abandon()
+            self._sequence_note = (f"the coarse grid of {nx} cells across could not settle "
+                                   f"({getattr(err, 'message', str(err))[:200]}); settling on your grid directly")
+            return None
+
+    @property
+    def shown_sim(self) -> Simulation:
+        """The grid the picture shows: a coarse grid of settle mode's grid sequence while it runs, else the flow's."""
+        seq = self._sequence
+        if self.settle and seq is not None and seq.fine is self.sim and not seq.done:
+            return seq.sim
+        return self.sim
+
+    def settle_grid(self) -> dict | None:
+        """Where settle mode's grid sequence is, for the status: the level (1 = coarsest) of how many, its cells,
+        the flow's own grid beside it; None while settle is off."""
+        if not self.settle:
+            return None
+        seq = self._sequence
+        fine = self.sim.domain
+        if seq is None or seq.fine is not self.sim:  # not begun yet: it begins with the next settle step
+            return {"level": 1, "levels": None, "nx": None, "ny": None, "fine_nx": fine.nx, "fine_ny": fine.ny,
+                    "note": self._sequence_note}
+        shown = self.shown_sim.domain
+        return {"level": seq.level, "levels": seq.levels, "nx": shown.nx, "ny": shown.ny,
+                "fine_nx": fine.nx, "fine_ny": fine.ny, "note": self._sequence_note}
 
     # ------------------------------------------------------------------ stepping
     def step(self, count: int = 1, max_wall_s: float = math.inf) -> Advanced:
@@ -323,6 +389,9 @@ class Session:
         """A burst of steps while running, for about max_wall_s seconds (at least one step)."""
         if self.state is not RUNNING:
             return Advanced(0, 0.0)
+        if self._held is not None:  # being rebuilt on a new grid (plan_rebuild): its steps would be dropped
+            time.sleep(HELD_NAP_S)
+            return Advanced(0, 0.0)
         start = time.perf_counter()
         done = 0
         while done < max_steps:
@@ -336,6 +405,7 @@ class Session:
                 break
         if done:
             self.flow_version += 1
+            self._step_s = (time.perf_counter() - start) / done
         return Advanced(done, time.perf_counter() - start)
 
     def _diverged(self, err: SolverDiverged, done: int, start: float) -> Advanced:
@@ -349,7 +419,7 @@ class Session:
 
     def reset_flow(self) -> None:
         """Back to the scenario's initial state, time zero; the sketch stays."""
-        self.sim = scn.build_simulation(self.scenario)
+        self.sim = self._flow_of(self.scenario)
         self._transition("reset_flow")
         self.flow_version += 1
 
@@ -475,6 +545,7 @@ class Session:
         middle = tuple(m.to_shape() for m in models[p:len(models) - q])
         shapes = old_shapes[:p] + middle + (old_shapes[len(old_shapes) - q:] if q else ())
         self._shapes = (models, shapes)
+        nozzle.remember_shapes(models, shapes)  # the live status's drawn nozzle reads the same shapes
         return Sketch(shapes, scenario.sketch.mirror)
 
     def _walls_for(self, new: scn.Scenario, domain: Domain) -> SampledWalls:
@@ -652,7 +723,16 @@ class Session:
         """Check a new resolution or extent and copy the flow to rebuild on it (quick: call under the lock).
         The heavy part, build_rebuild, reads only the copy, so it can run while the flow steps on."""
         new = self._validated(self._domain_doc(domain_changes), {"domain.": ""})
-        return Rebuild(self.scenario, new, self._sketch_of(new), _detached_copy(self.sim), self.sim)
+        plan = Rebuild(self.scenario, new, self._sketch_of(new), _detached_copy(self.sim), self.sim)
+        if self.running and self._step_s > HOLD_STEP_S:
+            self._held = plan  # until finish_rebuild or release_rebuild
+        return plan
+
+    def release_rebuild(self, plan: "Rebuild") -> None:
+        """Let the flow step again if it was held for this rebuild (one that failed or was given up); safe in
+        any thread and more than once."""
+        if self._held is plan:
+            self._held = None
 
     @staticmethod
     def build_rebuild(plan: "Rebuild") -> None:
@@ -667,6 +747,7 @@ class Session:
     def finish_rebuild(self, plan: "Rebuild") -> None:
         """Make the rebuilt flow current (quick: call under the lock). The flow it carries is the one copied
         by plan_rebuild: the steps made while it was rebuilt are dropped, as if the run had paused."""
+        self.release_rebuild(plan)
         if plan.refusal is not None:
             raise plan.refusal
         if plan.base is not self.scenario or plan.source is not self.sim:
@@ -681,8 +762,11 @@ class Session:
 
     def rebuild(self, plan: "Rebuild") -> None:
         """build_rebuild then finish_rebuild, in the calling thread."""
-        self.build_rebuild(plan)
-        self.finish_rebuild(plan)
+        try:
+            self.build_rebuild(plan)
+            self.finish_rebuild(plan)
+        finally:
+            self.release_rebuild(plan)
 
     def set_edges(self, **changes: str | None) -> None:
         doc = self._doc()
@@ -707,9 +791,17 @@ class Session:
         new = self._validated(doc)
         self._commit(new, self._new_flow)
 
+    def _flow_of(self, scenario: scn.Scenario) -> Simulation:
+        """A new flow of the scenario. Its wall geometry is kept with its samples and its shapes converted now,
+        as part of building the flow, so the first sketch change after a load samples again only where it
+        changes (on a big sketch it sampled and converted everything: most of its 0.8 s)."""
+        walls = self._walls_for(scenario, scn.to_domain(scenario))
+        sim = scn.build_simulation(scenario, geometry=walls.geometry)
+        self._walls = walls
+        return sim
+
     def _new_flow(self, new: scn.Scenario) -> None:
-        self.sim = scn.build_simulation(new)
-        self._walls = None
+        self.sim = self._flow_of(new)
         self._transition("new_flow")
 
     def load(self, scenario: scn.Scenario) -> None:
@@ -843,9 +935,10 @@ class Session:
                            f"There is no station called {station}.", "one_of")
 
     def snapshot(self) -> FlowSnapshot:
-        rho, u, v, p = self.sim.primitive()
-        return FlowSnapshot(self.flow_version, self.sim.time_s, self.sim.steps, rho, u, v, p,
-                            self.sim.mask.copy(), self.sim.setup.gas, self.sim.domain)
+        sim = self.shown_sim  # a coarse grid while settle mode's grid sequence runs
+        rho, u, v, p = sim.primitive()
+        return FlowSnapshot(self.flow_version, sim.time_s, sim.steps, rho, u, v, p,
+                            sim.mask.copy(), sim.setup.gas, sim.domain)
 
 
 def _detached_copy(sim: Simulation) -> Simulation:

@@ -104,8 +104,7 @@ class LocalStepper:
         kernels.copy_state(sim.U, sim.U0)
         floors = 0
         res = sim._held_prim[CellKind.RESERVOIR]
-        if flux == kernels.FLUX_HLLC:
-            kernels.shock_switch(sim.W, sim.kind, sim._hll_x, sim._hll_y, kernels.SHOCK_PRESSURE_RATIO)
+        sim.mark_shocks(lim, flux)
         for a, b in num.tableau.stages:
             sim.stage_fluxes(res, gamma, lim, flux)
             u0 = sim.U0 if a != 0.0 else sim.U
@@ -222,9 +221,12 @@ def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: 
 
 def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
                         cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
-                        max_steps: int = COARSE_MAX_STEPS, stop: Callable[[], bool] = lambda: False):
-    """settle_coarse one step at a time: a generator that yields after every coarse step and returns the list of
-    CoarseLevel (so a caller can interleave it with other work, as the benchmark does)."""
+                        max_steps: int = COARSE_MAX_STEPS, stop: Callable[[], bool] = lambda: False,
+                        pseudo_s: Optional[list] = None):
+    """settle_coarse one step at a time: a generator that yields (after every coarse step) the coarse Simulation
+    it is on, and returns the list of CoarseLevel (so a caller can interleave it with other work, as the
+    benchmark and the live session do). pseudo_s: a one-element list the pseudo-time step of each coarse step is
+    written to."""
     sizes = coarse_nx(fine.domain.nx, levels)[:-1]
     done: list[CoarseLevel] = []
     prev: Optional[Simulation] = None
@@ -232,7 +234,7 @@ def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, le
         sim = build(nx)
         if prev is not None:
             prolong(prev, sim)
-        level = yield from _settle_level(sim, cfl, tolerance, x_max_m, max_steps, stop)
+        level = yield from _settle_level(sim, cfl, tolerance, x_max_m, max_steps, stop, pseudo_s)
         done.append(level)
         prev = sim
     if prev is not None:
@@ -241,7 +243,7 @@ def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, le
 
 
 def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_steps: int,
-                  stop: Callable[[], bool]):
+                  stop: Callable[[], bool], pseudo_s: Optional[list] = None):
     """Settle one coarse level, yielding after every step; returns its CoarseLevel."""
     stepper = LocalStepper(sim, cfl)
     region = RegionResidual(sim, x_max_m)
@@ -252,7 +254,9 @@ def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_st
         if stop():
             reason = "stopped"
             break
-        stepper.step()
+        dt = stepper.step()
+        if pseudo_s is not None:
+            pseudo_s[0] = dt
         fig = region.after_step(stepper.dt)
         if fig < tolerance:
             reason = "settled"
@@ -263,7 +267,7 @@ def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_st
                 reason = "stalled"
                 break
             best_prev, best_now, window_end = best_now, math.inf, sim.time_s + window_s
-        yield
+        yield sim
     return CoarseLevel(sim.domain.nx, sim.steps, region.figure, reason)
 
 
@@ -296,3 +300,62 @@ class SettleCheck:
             self.imbalance = float(np.ptp(flows) / mean) if mean > 0.0 else math.inf
             return self.imbalance <= self.mass_tolerance
         return True
+
+
+class GridSequence:
+    """Grid sequencing a step at a time, for a flow that is stepped live (the page's settle mode).
+
+    The coarse grids `build(nx)` makes (coarse_nx: halvings of the fine grid, coarsest first; by default one,
+    as `shockslate run --until steady --settle` uses) start from the
+    scenario's initial state and settle in turn (settle_coarse_steps); the last hands its flow to `fine`, the
+    user's own grid, which is only changed then. `step()` takes one step of whichever grid is current: a coarse
+    step while levels remain, then nothing (done is True; the caller goes on with a LocalStepper on `fine`).
+    `sim` is the grid the flow is on now, `level` its number (1 = coarsest) of `levels`.
+    """
+
+    def __init__(self, build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+                 cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
+                 max_steps: int = COARSE_MAX_STEPS):
+        self.fine = fine
+        self.sizes = coarse_nx(fine.domain.nx, levels)
+        self.levels = len(self.sizes)
+        self._pseudo = [0.0]
+        self._steps = settle_coarse_steps(build, fine, levels, cfl, tolerance, x_max_m, max_steps,
+                                          pseudo_s=self._pseudo)
+        self.coarse: list[CoarseLevel] = []
+        self._coarse_sim: Optional[Simulation] = None
+        self.done = self.levels == 1
+
+    @property
+    def sim(self) -> Simulation:
+        """The grid the flow is on now (the fine one before the first coarse step and once done)."""
+        return self.fine if self.done or self._coarse_sim is None else self._coarse_sim
+
+    @property
+    def level(self) -> int:
+        """1 for the coarsest grid ... levels for the fine one (1 also before the first step)."""
+        if self.done:
+            return self.levels
+        return 1 if self._coarse_sim is None else self.sizes.index(self._coarse_sim.domain.nx) + 1
+
+    def _advance(self) -> None:
+        try:
+            self._coarse_sim = next(self._steps)
+        except StopIteration as end:
+            self.coarse = list(end.value)
+            self._coarse_sim = None
+            self.done = True
+
+    def abandon(self) -> None:
+        """End the sequence where it is (a coarse grid failed): the fine grid keeps its own flow."""
+        self._steps.close()
+        self._coarse_sim = None
+        self.done = True
+
+    def step(self) -> float:
+        """One coarse step; the pseudo-time step it took (s), or 0.0 once the flow is on the fine grid. The step
+        that settles a level hands its flow to the next grid at once. Raises SolverDiverged like sim.step."""
+        if self.done:
+            return 0.0
+        self._advance()
+        return self._pseudo[0]

@@ -221,3 +221,100 @@ def test_frames_prepared_with_the_snapshot_serve_every_tab_of_that_view():
     assert frames.decode_frame(fa)[0].step == 7
     assert '"type":"overlay"' in overlay
     assert other is None  # not prepared while the flow runs: the next snapshot will carry it
+
+
+def test_frame_kernels_give_the_numpy_forms_values_bit_for_bit():
+    """The point views of server/frame_kernels.py against what they replace on the frame path:
+    solver.fields.derived (NaN on walls). Equality, not a tolerance: a frame
+    must not change with the path that made it. Reference: those NumPy forms (an internal yardstick; the views'
+    formulas themselves are checked against outside sources in tests/test_fields.py)."""
+    from shockslate.solver import scenario as scn
+    from shockslate.solver.fields import derived
+
+    sim = scn.build_simulation(scn.load_builtin(scn.DEFAULT_SCENARIO), nx=64)
+    for _ in range(5):  # a flow with gradients and walls, not the uniform start
+        sim.step()
+    rho, u, v, p = sim.primitive()
+    mask = sim.mask
+    assert (mask == 1).any()  # walls present: their NaN is checked too
+    rng = np.random.default_rng(3)
+    u = u + rng.normal(0.0, 50.0, u.shape)  # speeds of both signs everywhere
+    for view in frames.frame_kernels.POINT_VIEWS:
+        mine = frames.view_field(view, sim.setup.gas, rho, u, v, p, sim.domain.dx_m, mask)
+        ref = derived(view, sim.setup.gas, rho, u, v, p, sim.domain.dx_m, mask)
+        assert np.array_equal(mine, ref, equal_nan=True), view
+    for view in ("vorticity", "schlieren"):  # neighbour views stay with solver.fields
+        mine = frames.view_field(view, sim.setup.gas, rho, u, v, p, sim.domain.dx_m, mask)
+        assert np.array_equal(mine, derived(view, sim.setup.gas, rho, u, v, p, sim.domain.dx_m, mask),
+                              equal_nan=True)
+
+
+def test_frames_are_taken_inside_the_solver_bursts_not_between_them(tmp_path):
+    """A real uvicorn server and a real websocket tab: with bursts of 0.3 s, a tab still gets frames on the
+    snapshot schedule (about 32 a second), made between two steps inside a burst, so a connected tab does not cut
+    the bursts into pieces (each piece a hand-over between the event loop and the solver thread). Counted, not
+    timed: before, every frame ended a burst (at least one burst per frame); now many frames come per burst.
+    Common practice for a frame source beside a compute loop, no single source."""
+    import json as _json
+
+    from test_live_changes import LiveServer, _messages, _replies
+
+    live = LiveServer(tmp_path, nx=128, runner_options={"burst_s": 0.3})
+    try:
+        runner = live.parts.runner
+        bursts = [0]
+        burst = runner._burst
+
+        def counted():
+            bursts[0] += 1
+            return burst()
+
+        runner._burst = counted
+        with live.tab() as tab:
+            tab.send(_json.dumps({"type": "run", "id": "r"}))
+            _messages(tab, lambda got: _replies(got, "r"), "the run to start")
+            _messages(tab, lambda got: sum(isinstance(m, bytes) for m in got) >= 2, "the first frames")
+            before = bursts[0]
+            got = _messages(tab, lambda got: sum(isinstance(m, bytes) for m in got) >= 24, "24 frames")
+            during = bursts[0] - before
+            tab.send(_json.dumps({"type": "pause", "id": "p"}))
+            _messages(tab, lambda got: _replies(got, "p"), "the pause")
+        frames_seen = sum(isinstance(m, bytes) for m in got)
+        assert frames_seen >= 24 and during < frames_seen / 2, (during, frames_seen)
+    finally:
+        live.stop()
+
+
+def test_sonic_line_on_a_rough_field_with_walls_matches_a_square_by_square_count():
+    """Marching squares (Lorensen and Cline 1987; the saddle split by the mean of the corners, common practice):
+    every square with four finite corners and 2 (4) crossed edges gives 1 (2) segments, each end on a crossed
+    edge where the linear interpolation of Mach - 1 is zero. Counted here square by square in plain Python,
+    independent of the vectorised search of frames.sonic_line."""
+    rng = np.random.default_rng(11)
+    mach = 1.0 + rng.normal(0.0, 1.0, (23, 31))
+    mach[rng.random(mach.shape) < 0.1] = np.nan  # wall cells
+    x = np.arange(31) * 0.5
+    y = np.arange(23) * 0.5
+    f = mach - 1.0
+    expected = 0
+    for j in range(22):
+        for i in range(30):
+            corners = [f[j, i], f[j, i + 1], f[j + 1, i + 1], f[j + 1, i]]
+            if not all(math.isfinite(c) for c in corners):
+                continue
+            high = [c > 0 for c in corners]
+            crossed = sum(high[k] != high[(k + 1) % 4] for k in range(4))
+            expected += {0: 0, 2: 1, 4: 2}[crossed]
+    segs = np.array(frames.sonic_line(mach, x, y))
+    assert expected > 50 and len(segs) == expected
+    for px, py in segs.reshape(-1, 2):  # each end lies on a cell-centre line, where f crosses zero
+        on_x = abs(px / 0.5 - round(px / 0.5)) < 1e-6
+        if on_x:  # on a vertical edge x = x_i: interpolate along y
+            i, j = int(round(px / 0.5)), min(int(py / 0.5), 21)
+            t = py / 0.5 - j
+            value = (1 - t) * f[j, i] + t * f[j + 1, i]
+        else:  # on a horizontal edge y = y_j
+            j, i = int(round(py / 0.5)), min(int(px / 0.5), 29)
+            t = px / 0.5 - i
+            value = (1 - t) * f[j, i] + t * f[j, i + 1]
+        assert abs(value) < 1e-5 * (1.0 + float(np.nanmax(np.abs(f))))  # positions are rounded to 1e-7 m

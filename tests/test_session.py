@@ -534,3 +534,106 @@ def test_a_shape_refused_for_itself_is_refused_before_the_flow_is_touched_with_t
     assert bad.value.field == "shape.radius_m"
     session.check_shape(WALL_DISC)  # a fine shape passes, and nothing changed
     assert len(session.scenario.sketch.shapes) == 1 and session.revision == 0
+
+
+def _same_geometry(a, b) -> None:
+    for name in ("mask", "gas", "gas_r", "open_x", "open_x_r", "open_y", "drawn"):
+        np.testing.assert_array_equal(getattr(a, name), getattr(b, name), err_msg=name)
+
+
+def test_a_flow_built_at_load_keeps_its_walls_so_the_first_change_matches_a_whole_sampling(session):
+    # the walls of a new flow are kept with their samples when the flow is built (at start, load, new mode,
+    # reset), so the first change after it samples only where it changes; the result must equal sampling the
+    # whole sketch afresh (exact: the same sampling, cell by cell)
+    from shockslate.solver.geometry import wall_geometry
+
+    def check() -> None:
+        _same_geometry(session.sim.geometry, wall_geometry(scn.to_sketch(session.scenario), session.sim.domain))
+
+    check()
+    session.add_shape(WALL_DISC)
+    check()
+    other = duct_doc()
+    other["sketch"]["shapes"].append({"kind": "rectangle", "corner_a_m": [0.5, 0.0], "corner_b_m": [0.6, 0.03],
+                                      "paints": "wall"})
+    session.load(scn.parse_scenario(other))
+    check()
+    session.add_shape({**WALL_DISC, "centre_m": [0.2, 0.06]})
+    check()
+    session.reset_flow()
+    check()
+    session.remove_shape(0)
+    check()
+    session.set_mirror("axis" if session.scenario.sketch.mirror == "none" else "none")
+    check()
+
+
+def test_a_flow_too_slow_for_ten_frames_a_second_is_held_while_it_is_rebuilt_and_always_let_go(session, monkeypatch):
+    # a running flow whose steps take longer than HOLD_STEP_S is not stepped between plan_rebuild and the swap
+    # (its steps would be dropped there); a fast one steps on; a finished, refused or given-up rebuild lets go
+    from shockslate.server import session as session_module
+
+    session.run()
+    assert session.advance(0.01).steps > 0
+    fast = session.plan_rebuild(nx=48)
+    assert session.advance(0.01).steps > 0  # fast steps: not held
+    session.release_rebuild(fast)
+    monkeypatch.setattr(session_module, "HOLD_STEP_S", 0.0)  # every step counts as slow now
+    plan = session.plan_rebuild(nx=48)
+    steps = session.sim.steps
+    assert session.advance(0.01).steps == 0 and session.sim.steps == steps
+    session.build_rebuild(plan)
+    session.finish_rebuild(plan)
+    assert session.sim.domain.nx == 48 and session.advance(0.01).steps > 0
+    given_up = session.plan_rebuild(nx=64)
+    assert session.advance(0.01).steps == 0
+    session.release_rebuild(given_up)
+    session.release_rebuild(given_up)  # more than once is harmless
+    assert session.advance(0.01).steps > 0
+    stale = session.plan_rebuild(nx=64)
+    session.build_rebuild(stale)
+    session.reset_flow()  # another tab reset the flow meanwhile: the rebuild is refused, the hold let go
+    with pytest.raises(RequestError):
+        session.finish_rebuild(stale)
+    assert session.advance(0.01).steps > 0
+
+
+def test_the_live_drawn_nozzle_after_changes_reads_as_the_same_document_parsed_afresh():
+    # the session hands its converted shapes to the drawn-nozzle reader (solver/nozzle.py keeps them by model);
+    # after changes, the live reading must equal that of the same document parsed from scratch (exact)
+    from shockslate.solver import nozzle
+
+    s = Session(scn.parse_scenario(nozzle_doc()))
+    s.add_shape({"kind": "rectangle", "corner_a_m": [0.09, 0.016], "corner_b_m": [0.1, 0.05], "paints": "wall"})
+    s.add_shape({"kind": "circle", "centre_m": [0.03, 0.045], "radius_m": 0.004, "paints": "wall"})
+    s.remove_shape(len(s.scenario.sketch.shapes) - 1)
+    live = readings.nozzle_geometry(s.sim.mask, s.sim.domain, s.scenario)
+    fresh = nozzle.drawn_nozzle(scn.parse_scenario(scn.scenario_to_dict(s.scenario)))
+    assert live == fresh
+    # the new wall narrows the drawn exit line x = 99 mm to radius 16 mm (exact geometry of the drawing)
+    assert live.exit_area_m2 == pytest.approx(np.pi * 0.016 ** 2, rel=1e-12)
+
+
+def test_the_live_status_reads_a_big_drawn_nozzle_apart_and_finds_the_same_figures(monkeypatch):
+    # wait=False (the runner's status): a sketch over READ_APART_VERTICES is read in a thread of its own; until it
+    # is read the status has no nozzle and says so; then it gives exactly what reading it at once gives
+    import time
+
+    from shockslate.solver import nozzle
+
+    monkeypatch.setattr(readings, "READ_APART_VERTICES", 0)  # every sketch counts as big here
+    monkeypatch.setattr(readings, "READ_APART_WAIT_S", 0.0)
+    s = Session(scn.parse_scenario(nozzle_doc()))
+    s.add_shape({"kind": "circle", "centre_m": [0.03, 0.045], "radius_m": 0.004, "paints": "wall"})
+    first = readings.nozzle_geometry(s.sim.mask, s.sim.domain, s.scenario, wait=False)
+    if first is None:  # not read yet: the status says it is being read (or it has just finished)
+        status = readings.status_figures(s.sim, s.scenario, None, 0)
+        assert status["drawn_nozzle_reading"] == any("being read" in w for w in status["warnings"])
+    deadline = time.monotonic() + 120.0
+    while not nozzle.drawn_nozzle_known(s.scenario):
+        assert time.monotonic() < deadline, "the drawn nozzle was never read"
+        time.sleep(0.01)
+    later = readings.nozzle_geometry(s.sim.mask, s.sim.domain, s.scenario, wait=False)
+    fresh = nozzle.drawn_nozzle(scn.parse_scenario(scn.scenario_to_dict(s.scenario)))
+    assert later == fresh and (first is None or first == fresh)
+    assert readings.status_figures(s.sim, s.scenario, later, 0)["drawn_nozzle_reading"] is False

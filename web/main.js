@@ -457,9 +457,24 @@ function setupTools() {
 
 /** Settle mode (the `settle` status field, set from any tab): the tick and the notice that the flow shown is
  * no time history. */
-function showSettle(on) {
+function showSettle(on, grid) {
   $("#settle-mode").checked = on;
   $("#settle-notice").hidden = !on;
+  $("#settle-grid").textContent = on ? settleGridText(grid) : "";
+}
+
+/** Which grid level of settle mode's grid sequence the picture shows (the status's `settle_grid`). */
+function settleGridText(grid) {
+  if (!grid) return "";
+  const yours = `your grid of ${grid.fine_nx} × ${grid.fine_ny} cells`;
+  const note = grid.note ? ` (${grid.note})` : "";
+  if (grid.levels == null) return `Grid sequencing starts with the next step: coarse grids first, then ${yours}.`;
+  if (grid.levels === 1) return `Grid level 1 of 1: ${yours} (too few cells to start on a coarser one)${note}.`;
+  if (grid.level < grid.levels) {
+    return `Grid level ${grid.level} of ${grid.levels}: a coarse grid of ${grid.nx} × ${grid.ny} cells, ` +
+      `started from the initial state; ${yours} follows once it has settled.`;
+  }
+  return `Grid level ${grid.level} of ${grid.levels}: ${yours}${note}.`;
 }
 
 function toggleRun() {
@@ -732,7 +747,7 @@ function onMessage(msg) {
       if (msg.state !== app.state) showRunState(msg.state);
       app.pace.add(msg, performance.now());
       showClock(msg, tabFps(), app.pace.value());
-      showSettle(Boolean(msg.settle));
+      showSettle(Boolean(msg.settle), msg.settle_grid);
       showStations(msg, app.scenario && app.scenario.mode);
       showProbes(msg);
       app.histories.add(msg);

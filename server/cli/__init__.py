@@ -85,6 +85,9 @@ def warm(args: argparse.Namespace) -> int:
           "(the first time takes one to three minutes; later starts load them in about a second)", flush=True)
     seconds = warm_kernels(lambda done, total, _stage, label: print(
         f"shockslate: compiling the solver kernels, stage {done + 1} of {total}: {label}", flush=True))
+    from shockslate.server import frame_kernels
+
+    frame_kernels.warm()  # the live frames' kernels (server/frame_kernels.py) into the same cache
     print(f"shockslate: kernels ready in {seconds:.1f} s", flush=True)
     return EXIT_OK
 
