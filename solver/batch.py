@@ -65,6 +65,12 @@ ETA_MIN_FRACTION = 0.01
 
 
 def progress_line(pr: Progress) -> str:
+    if pr.status == "steady":  # `--until steady` settled: until_s was only its time limit
+        return (f"steady at t = {pr.sim_time_s * 1e3:.4g} ms (step {pr.steps}, time limit "
+                f"{pr.until_s * 1e3:.4g} ms); figures below are from the settled flow")
+    if pr.status == "unsteady":
+        return (f"not steady by the time limit t = {pr.until_s * 1e3:.4g} ms (step {pr.steps}); figures below are "
+                f"from a flow still changing")
     if pr.status not in ("running", "finished"):
         return (f"stopped at t = {pr.sim_time_s * 1e3:.4g} ms of {pr.until_s * 1e3:.4g} ms (step {pr.steps}, "
                 f"{pr.status}); figures below are from an unfinished run")

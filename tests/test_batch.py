@@ -320,3 +320,14 @@ def test_progress_is_honest_early_on_and_after_a_stop(tmp_path):
     assert last.status == "interrupted" and last.fraction < 1.0
     line = batch.progress_line(last)
     assert line.startswith("stopped at t = ") and "unfinished run" in line and "#" not in line
+
+
+@pytest.mark.parametrize("status, starts, says", [
+    ("steady", "steady at t = 1.5 ms", "from the settled flow"),
+    ("unsteady", "not steady by the time limit t = 3 ms", "from a flow still changing"),
+])
+def test_progress_line_of_a_run_until_steady_says_how_it_ended(status, starts, says):
+    pr = batch.Progress(sim_time_s=1.5e-3 if status == "steady" else 3e-3, until_s=3e-3, steps=120, max_steps=None,
+                        steps_per_s=50.0, eta_s=0.0, fraction=1.0, status=status)
+    line = batch.progress_line(pr)
+    assert line.startswith(starts) and says in line and "unfinished" not in line
