@@ -91,7 +91,7 @@ def nozzle(name: str, description: str, ambient: dict, initial: dict, end_time_s
             {"name": "exit lip", "x_m": r6(x_e + 0.005), "y_m": r6(EXIT_R_M)},
             {"name": "plume axis", "x_m": r6(x_e + 0.04), "y_m": 0.001},
         ],
-        "numerics": {"order": 2, "limiter": "van_leer", "flux": "hllc", "cfl": 0.4, "integrator": "ssp_rk2"},
+        "numerics": {"order": 2, "limiter": "van_leer_shock_minmod", "flux": "hllc", "cfl": 0.4, "integrator": "ssp_rk2"},
         "end_time_s": end_time_s,
     }
 
@@ -140,7 +140,7 @@ def air() -> dict:
 
 
 def numerics(cfl: float = 0.4) -> dict:
-    return {"order": 2, "limiter": "van_leer", "flux": "hllc", "cfl": cfl, "integrator": "ssp_rk2"}
+    return {"order": 2, "limiter": "van_leer_shock_minmod", "flux": "hllc", "cfl": cfl, "integrator": "ssp_rk2"}
 
 
 def shock_tube() -> dict:

@@ -207,12 +207,18 @@ class ProbeModel(_Strict):
     y_m: Metres = Field(title="probe y")
 
 
+#: The defaults of a scenario's numerics are the solver's own (one place: solver/numerics.py).
+_NUMERICS_DEFAULT = Numerics()
+
+
 class NumericsModel(_Strict):
-    order: literal(ORDERS) = Field(2, title="order")  # type: ignore[valid-type]
-    limiter: literal(LIMITERS) = Field("van_leer", title="limiter")  # type: ignore[valid-type]
-    flux: literal(FLUXES) = Field("hllc", title="flux")  # type: ignore[valid-type]
-    cfl: float = Field(0.4, strict=True, allow_inf_nan=False, ge=CFL_MIN, le=CFL_MAX, title="CFL number")
-    integrator: literal(INTEGRATOR_CHOICES) = Field("ssp_rk2", title="time integrator")  # type: ignore[valid-type]
+    order: literal(ORDERS) = Field(_NUMERICS_DEFAULT.order, title="order")  # type: ignore[valid-type]
+    limiter: literal(LIMITERS) = Field(_NUMERICS_DEFAULT.limiter, title="limiter")  # type: ignore[valid-type]
+    flux: literal(FLUXES) = Field(_NUMERICS_DEFAULT.flux, title="flux")  # type: ignore[valid-type]
+    cfl: float = Field(_NUMERICS_DEFAULT.cfl, strict=True, allow_inf_nan=False, ge=CFL_MIN, le=CFL_MAX,
+                       title="CFL number")
+    integrator: literal(INTEGRATOR_CHOICES) = Field(_NUMERICS_DEFAULT.integrator,  # type: ignore[valid-type]
+                                                    title="time integrator")
 
 
 def _inside(dom: DomainModel, x: float, y: float) -> bool:

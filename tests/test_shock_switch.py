@@ -77,11 +77,15 @@ def test_expansions_and_weak_jumps_keep_hllc():
 
 @pytest.mark.parametrize("flux", ["hll", "rusanov"])
 def test_other_fluxes_are_not_switched(flux):
-    sim = Simulation(Setup(Domain(0.0, 1.0, 0.0, 0.5, 20), numerics=Numerics(flux=flux)))
-    x = sim.domain.x_centres_m()[None, :]
-    sim.set_primitive(np.where(x < 0.5, 4.0, 1.0), np.where(x < 0.5, 500.0, 0.0), 0.0, np.where(x < 0.5, 5e5, 1e5))
-    sim.advance(3)
-    assert not sim._hll_x.any() and not sim._hll_y.any()
+    # with the default limiter the shock cells get the minmod mark only; with plain van Leer no mark at all
+    for limiter, marks in (("van_leer_shock_minmod", kernels.MARK_MINMOD), ("van_leer", 0)):
+        sim = Simulation(Setup(Domain(0.0, 1.0, 0.0, 0.5, 20), numerics=Numerics(flux=flux, limiter=limiter)))
+        x = sim.domain.x_centres_m()[None, :]
+        sim.set_primitive(np.where(x < 0.5, 4.0, 1.0), np.where(x < 0.5, 500.0, 0.0), 0.0,
+                          np.where(x < 0.5, 5e5, 1e5))
+        sim.advance(3)
+        assert not (sim._hll_x & kernels.MARK_HLL).any() and not (sim._hll_y & kernels.MARK_HLL).any()
+        assert set(np.unique(sim._hll_x)) | set(np.unique(sim._hll_y)) == {0, marks}
 
 
 def test_bow_shock_on_a_cylinder_at_mach_3_is_steady_near_the_pitot_pressure():
