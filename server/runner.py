@@ -52,6 +52,7 @@ class Runner:
         self._task: asyncio.Task | None = None
         self._ticker: asyncio.Task | None = None
         self._next_snapshot_t = 0.0
+        self._snapshot_version = -1  # flow_version of the newest snapshot published
         self._last_status_t = 0.0
         self._rate_t = time.monotonic()
         self._rate_steps = session.sim.steps
@@ -126,6 +127,7 @@ class Runner:
         snap = None
         if self.hub.wants_frames:
             snap = self.session.snapshot()
+            self._snapshot_version = snap.version
             self.hub.prepare(snap, with_overlays=True, comparison=self._comparison_snapshot())
         return result, snap, (self._status_or_none(time.monotonic()) if fresh_status else None)
 
@@ -182,8 +184,12 @@ class Runner:
             steps += piece.steps
             divergence = piece.divergence
             now = time.monotonic()
-            if self.hub.wants_frames and (now >= self._next_snapshot_t or divergence is not None):
+            # a held flow (rebuilt on a new grid) has no new picture: no snapshot of it (on a 2048-cell grid each
+            # took the solver's thread ~0.1 s from the rebuild); the tabs get held frames meanwhile (hub.py)
+            unchanged = self.session.holding and self.session.flow_version == self._snapshot_version
+            if self.hub.wants_frames and (now >= self._next_snapshot_t or divergence is not None) and not unchanged:
                 snap = self.session.snapshot()
+                self._snapshot_version = snap.version
                 self.hub.prepare(snap, comparison=self._comparison_snapshot())
                 self._hand_to_loop(self.hub.publish_snapshot, snap, self.session.running)
                 late = now - self._next_snapshot_t
