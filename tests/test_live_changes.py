@@ -234,6 +234,7 @@ def test_a_slow_flow_is_held_while_its_new_grid_is_built_and_the_tabs_get_held_f
         sender.send(json.dumps({"type": "set_resolution", "nx": 160, "id": "res"}))
         assert held.entered.wait(WAIT_S)
         _until(lambda: session.holding, "the flow to be held")
+        _messages(other, lambda got: len(_held_frames(got)) >= 2, "held frames")  # a step in progress has ended
         steps = session.sim.steps
         seen = _messages(other, lambda got: len(_held_frames(_after_last_live(got))) >= 4,
                          "held frames while the new grid is built")
