@@ -216,7 +216,8 @@ def test_other_tabs_keep_getting_frames_while_a_new_resolution_is_built(live):
         reply = _replies(_messages(sender, lambda got: _replies(got, "res"), "the acknowledgement"), "res")[0]
         assert reply["type"] == "scenario" and reply["scenario"]["domain"]["nx"] == 160
         assert session.sim.domain.nx == 160 and session.running
-        _messages(other, lambda got: _frames(got) >= 3, "frames of the new grid")
+        _messages(other, lambda got: sum(decode_frame(f)[0].width == 160 for f in _live_frames(got)) >= 3,
+                  "live frames of the new grid, at its width")
 
 
 def test_a_slow_flow_is_held_while_its_new_grid_is_built_and_the_tabs_get_held_frames_of_it(live, monkeypatch):
