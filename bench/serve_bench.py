@@ -13,7 +13,8 @@ noise hits both sides alike:
     and to another tab, a new tab's hello with another tab's frame gaps meanwhile, and (with playwright and
     Chromium) the real page's add_shape to its sketch drawn,
   - the issue's long segment: time to its answer and the server's peak memory growth,
-  - frames per second another tab gets while the resolution changes.
+  - frames per second another tab gets while the resolution changes (held frames, the newest frame again while
+    no new one comes, counted apart), the longest gap between its frames.
 Goals from the issue: 30 frames/s, latency under 150 ms, solver slowdown under 10 %.
 """
 from __future__ import annotations
