@@ -203,8 +203,14 @@ class Runner:
         now = time.monotonic()
         status = None
         if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
-            scenario = self.session.scenario
-            if self.hub.clients or advanced.divergence is not None or scenario.probes or scenario.stations:
+            scenario, s = self.session.scenario, self.session
+            if s.holding and self.last_status is not None and self._status_key == (s.revision, s.flow_version,
+                                                                                   s.state):
+                # held for a rebuild and unchanged: the last status again (reading a 2048-cell grid's status took
+                # 0.25 s of the solver's thread, from the rebuild and from the swap waiting for it)
+                status = self.last_status
+                self._last_status_t = now
+            elif self.hub.clients or advanced.divergence is not None or scenario.probes or scenario.stations:
                 status = self._status_or_none(now)  # with no tab, for the histories a later tab is sent
             else:  # nobody to tell: keep only the rates /health reports
                 self._update_rates(now)
