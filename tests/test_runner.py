@@ -28,7 +28,7 @@ def test_a_held_flow_is_not_read_again_for_its_pictures_or_status(monkeypatch):
     session = Session(scn.parse_scenario(duct_doc()))
     hub = Hub()
     hub.new_client(websocket=None)  # a tab: frames and statuses are wanted
-    runner = Runner(session, hub, status_interval_s=0.0, snapshot_interval_s=0.0)  # both due at every burst
+    runner = Runner(session, hub, status_interval_s=0.0, snapshot_interval_s=0.0, status_share=None)  # due each burst
     session.run()
     snapshots, statuses = Counted(session.snapshot), Counted(runner._status_now)
     monkeypatch.setattr(session, "snapshot", snapshots)
