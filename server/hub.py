@@ -40,7 +40,8 @@ MAX_CLIENTS = 32
 DEFAULT_VIEW = "mach"
 #: While a new grid is built (a resolution or extent change), a tab that got no new frame for this long gets its
 #: newest frame again, marked held: the picture stays live at 20 frames/s, though a big grid's flow may give
-#: fewer (leaving a 2048-cell grid it gave 1-3), is held still, or waits for a step in progress.
+#: fewer (a 2048-cell grid gave 0.7-2.3 frames/s at load average 4-6 on 2 CPUs), is held still, or waits for a step
+#: in progress.
 HELD_FRAME_INTERVAL_S = 1.0 / 20.0
 #: Channel of a held frame (PROTOCOL.md "Binary frames"): the newest frame again, the same instant of the flow.
 HELD = 3
@@ -136,7 +137,6 @@ class Hub:
         self.comparison_version = -1
         #: Grid changes under way (resolution or extent): while any is, tabs get held frames (HELD_FRAME_INTERVAL_S).
         self.rebuilding = 0
-        self.held_frames_sent = 0
 
     # ------------------------------------------------------------ membership
     def new_client(self, websocket: WebSocket) -> Client:
@@ -316,7 +316,6 @@ class Hub:
                         client.last_overlay_t = time.monotonic()
         return wait_s
 
-
     async def _send_held_if_due(self, client: Client) -> float:
         """While a grid change is under way: the tab's newest frame again, marked HELD, when it got none for
         HELD_FRAME_INTERVAL_S (not counted in its frames_per_s: no new picture); the seconds until the next."""
@@ -326,7 +325,6 @@ class Hub:
             return due_in
         if len(client.outbox) < 4:  # a tab behind with its replies needs no repeated picture
             await client.websocket.send_bytes(with_channel(client.last_frame[1], HELD))
-            self.held_frames_sent += 1
         client.last_frame_t = time.monotonic()
         return HELD_FRAME_INTERVAL_S
 

@@ -190,8 +190,8 @@ class Runner:
             steps += piece.steps
             divergence = piece.divergence
             now = time.monotonic()
-            # a held flow (rebuilt on a new grid) has no new picture: no snapshot of it (on a 2048-cell grid each
-            # took the solver's thread ~0.1 s from the rebuild); the tabs get held frames meanwhile (hub.py)
+            # a held flow (rebuilt on a new grid) has no new picture: no snapshot of it (each would repeat the last
+            # one, made on the solver's thread while the rebuild wants the CPU); the tabs get held frames (hub.py)
             unchanged = self.session.holding and self.session.flow_version == self._snapshot_version
             if self.hub.wants_frames and (now >= self._next_snapshot_t or divergence is not None) and not unchanged:
                 snap = self.session.snapshot()
