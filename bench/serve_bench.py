@@ -13,7 +13,8 @@ noise hits both sides alike:
     and to another tab, a new tab's hello with another tab's frame gaps meanwhile, and (with playwright and
     Chromium) the real page's add_shape to its sketch drawn,
   - the issue's long segment: time to its answer and the server's peak memory growth,
-  - frames per second another tab gets while the resolution changes.
+  - frames per second another tab gets while the resolution changes (held frames, the newest frame again while
+    no new one comes, counted apart), the longest gap between its frames.
 Goals from the issue: 30 frames/s, latency under 150 ms, solver slowdown under 10 %.
 """
 from __future__ import annotations
@@ -56,6 +57,9 @@ def add_serve_bench(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--serve-settle-only", action="store_true",
                         help="with --serve: measure only the page's settle mode, time to steady on nozzle_sea_level "
                              "with and without grid sequencing")
+    parser.add_argument("--serve-resolution-only", action="store_true",
+                        help="with --serve: measure only the frames another tab gets while one tab changes the "
+                             "resolution (1024, 512, 2048, 512 cells across), on a fresh server, --serve-rounds times")
     parser.add_argument("--serve-rounds", type=int, default=SLOWDOWN_ROUNDS, metavar="N",
                         help=f"interleaved without/with-client rounds of the slowdown figure (default {SLOWDOWN_ROUNDS})")
     for key in ("handler", "func"):
@@ -81,6 +85,10 @@ def main(args: argparse.Namespace) -> int:
     if getattr(args, "serve_settle_only", False):
         report = live_settle_phase()
         print(json.dumps(report, indent=2) if getattr(args, "json", False) else format_live_settle(report))
+        return 0
+    if getattr(args, "serve_resolution_only", False):
+        report = resolution_only(threads=args.serve_threads, rounds=args.serve_rounds)
+        print(json.dumps(report, indent=2) if getattr(args, "json", False) else format_resolution_only(report))
         return 0
     if getattr(args, "serve_slowdown_only", False):
         report = slowdown_only(phase_s=args.phase_seconds, threads=args.serve_threads, rounds=args.serve_rounds)
@@ -531,9 +539,11 @@ def _recv_until(sock, want, timeout_s: float = 120.0):
                 return data
 
 
-def _note_frames(sock, arrivals: list[float], stop, poll_s: float, statuses: list | None = None) -> None:
+def _note_frames(sock, arrivals: list[float], stop, poll_s: float, statuses: list | None = None,
+                 held: list | None = None) -> None:
     """Note the arrival time of every binary frame on sock until stop is set or the socket closes (a thread);
-    with `statuses`, also each status's (arrival time, revision)."""
+    with `statuses`, also each status's (arrival time, revision); with `held`, also the arrival time of each
+    held frame (channel 3: the newest frame again while a new grid is built), which is in `arrivals` too."""
     while not stop.is_set():
         try:
             msg = sock.recv(timeout=poll_s)
@@ -543,6 +553,8 @@ def _note_frames(sock, arrivals: list[float], stop, poll_s: float, statuses: lis
             return
         if isinstance(msg, bytes):
             arrivals.append(time.monotonic())
+            if held is not None and int.from_bytes(msg[14:16], "little") == 3:
+                held.append(arrivals[-1])
         elif statuses is not None and '"type":"status"' in msg[:40].replace(" ", ""):
             statuses.append((time.monotonic(), json.loads(msg).get("revision")))
 
@@ -778,15 +790,17 @@ def page_sketch_phase(threads: int | None = None, changes: int = 6) -> dict | No
 def resolution_change_phase(url: str, resolutions: tuple[int, ...] = (1024, 512, 2048, 512),
                             before_s: float = 3.0) -> dict:
     """Frames per second one tab receives while another changes the resolution (each change from sending it
-    to its acknowledgement), how long each change took, and the frames per second of the same tab in the
-    `before_s` seconds before it (the grid being left sets that: a step of a big grid takes long)."""
+    to its acknowledgement), how many of them were held frames (the newest frame again, marked so, while no new
+    one came), the longest gap between two frames, how long each change took, and the frames per second of the
+    same tab in the `before_s` seconds before it (the grid being left sets that: a step of a big grid takes long)."""
     import threading
 
     watcher, _ = _connect(url)
     arrivals: list[float] = []
+    held: list[float] = []
     stop = threading.Event()
 
-    thread = threading.Thread(target=_note_frames, args=(watcher, arrivals, stop, 0.5), daemon=True)
+    thread = threading.Thread(target=_note_frames, args=(watcher, arrivals, stop, 0.5, None, held), daemon=True)
     thread.start()
     changer, _ = _connect(url)
     changes = []
@@ -803,7 +817,9 @@ def resolution_change_phase(url: str, resolutions: tuple[int, ...] = (1024, 512,
                     break
             t1 = time.monotonic()
             frames = sum(t0 <= a <= t1 for a in arrivals)
+            during = [t0] + [a for a in arrivals if t0 <= a <= t1] + [t1]
             changes.append({"nx": nx, "seconds": t1 - t0, "frames": frames, "frames_per_s": frames / (t1 - t0),
+                            "held_frames": sum(t0 <= a <= t1 for a in held), "longest_gap_s": _longest_gap(during),
                             "frames_per_s_before": before})
     finally:
         stop.set()
@@ -811,6 +827,35 @@ def resolution_change_phase(url: str, resolutions: tuple[int, ...] = (1024, 512,
         watcher.close()
         thread.join(5)
     return {"changes": changes, "frames_per_s_min": min(c["frames_per_s"] for c in changes), "goal_frames_per_s": 10}
+
+
+def resolution_only(threads: int | None = None, rounds: int = 1, develop_s: float = 3.0) -> dict:
+    """resolution_change_phase on a fresh server of the benchmark scenario, `rounds` times (one server each), with
+    the load average before each round (the machine may be shared)."""
+    out = []
+    for _ in range(rounds):
+        load = os.getloadavg()[0]
+        server = ServerProcess(bench_scenario(), threads)
+        try:
+            server.wait_running()
+            time.sleep(develop_s)
+            out.append({**resolution_change_phase(server.url), "load_average_1min": load})
+        finally:
+            server.stop()
+    return {"rounds": out, "frames_per_s_min": min(r["frames_per_s_min"] for r in out), "goal_frames_per_s": 10,
+            "cpu_count": os.cpu_count()}
+
+
+def format_resolution_only(r: dict) -> str:
+    lines = [f"resolution changes on the serving benchmark's grid (512 wide to 1024, 512, 2048, 512); "
+             f"{r['cpu_count']} CPUs; another tab's frames/s at least {r['frames_per_s_min']:.1f} (goal 10)"]
+    for k, rnd in enumerate(r["rounds"], 1):
+        lines.append(f"  round {k} (load average {rnd['load_average_1min']:.2f} before):")
+        for c in rnd["changes"]:
+            lines.append(f"    to nx {c['nx']:5d}  {c['seconds']:5.2f} s  {c['frames']:4d} frames ({c['held_frames']} held) "
+                         f"{c['frames_per_s']:5.1f}/s, longest gap {c['longest_gap_s']:.2f} s; "
+                         f"{c['frames_per_s_before']:.1f}/s before")
+    return "\n".join(lines)
 
 
 def _peak_rss_bytes(pid: int) -> int:
@@ -999,7 +1044,8 @@ def print_report(r: dict) -> None:
     if rc:
         print(f"  resolution changes      {rc['frames_per_s_min']:6.1f} frames/s at least to another tab (goal 10); "
               + ", ".join(f"to nx {c['nx']} {c['seconds']:.1f} s {c['frames_per_s']:.0f}/s "
-                          f"({c['frames_per_s_before']:.0f}/s before)" for c in rc["changes"]))
+                          f"({c.get('held_frames', 0)} held, longest gap {c.get('longest_gap_s', 0):.2f} s; "
+                          f"{c['frames_per_s_before']:.0f}/s before)" for c in rc["changes"]))
     seg = r.get("long_segment")
     if seg:
         for name in ("issue_segment", "farthest_allowed"):

@@ -228,17 +228,25 @@ class Dispatcher:
     async def _rebuild(self, client: Client, message: Any, **domain_changes: Any) -> None:
         """A new resolution or extent: checked and the flow copied under the lock (quick), the new grid built
         in another thread while the flow steps on and the tabs get frames (unless its steps are too slow to
-        give them: it is held then), then swapped in under the lock and saved like any change."""
-        async with self._changes:
-            plan = await self.runner.call(self.session.plan_rebuild, **domain_changes)
-            try:  # a slow flow is held meanwhile (session.HOLD_STEP_S); it steps again whatever happens here
-                await asyncio.to_thread(self.session.build_rebuild, plan)
-                scenario, document = await self.runner.call(self.session.unsaved_change,
-                                                            self.session.finish_rebuild, plan)
-            finally:
-                self.session.release_rebuild(plan)
-            await self._save_or_roll_back(scenario, document)
-            self._broadcast_scenario(client, message, document)
+        give them: it is held then), then swapped in under the lock and saved like any change.
+
+        From the request's arrival to its acknowledgement the tabs get held frames (hub.hold_frames) whenever
+        no new one comes: while the copy waits for a big grid's step in progress, while that flow is held, and
+        during the swap. The copy is a read (it changes nothing the tabs see), so it publishes no snapshot."""
+        self.hub.hold_frames(True)
+        try:
+            async with self._changes:
+                plan = await self.runner.read(self.session.plan_rebuild, **domain_changes)
+                try:  # a slow flow is held meanwhile (session.HOLD_STEP_S); it steps again whatever happens here
+                    await asyncio.to_thread(self.session.build_rebuild, plan)
+                    scenario, document = await self.runner.call(self.session.unsaved_change,
+                                                                self.session.finish_rebuild, plan)
+                finally:
+                    self.session.release_rebuild(plan)
+                await self._save_or_roll_back(scenario, document)
+                self._broadcast_scenario(client, message, document)
+        finally:
+            self.hub.hold_frames(False)
 
     async def _add_shape(self, client: Client, message: Any) -> None:
         # a shape refused for itself is refused at once, without waiting for the solver or another change

@@ -38,6 +38,13 @@ MAX_QUEUED_BYTES = 16 * 1024 * 1024
 #: Tabs connected at once; one more is told so and closed (each tab costs frames and memory).
 MAX_CLIENTS = 32
 DEFAULT_VIEW = "mach"
+#: While a new grid is built (a resolution or extent change), a tab that got no new frame for this long gets its
+#: newest frame again, marked held: the picture stays live at 20 frames/s, though a big grid's flow may give
+#: fewer (a 2048-cell grid gave 0.7-2.3 frames/s at load average 4-6 on 2 CPUs), is held still, or waits for a step
+#: in progress.
+HELD_FRAME_INTERVAL_S = 1.0 / 20.0
+#: Channel of a held frame (PROTOCOL.md "Binary frames"): the newest frame again, the same instant of the flow.
+HELD = 3
 
 
 @dataclass(frozen=True)
@@ -60,6 +67,9 @@ class Client:
     status: dict | None = None
     wake: asyncio.Event = field(default_factory=asyncio.Event)
     last_frame_key: tuple | None = None
+    #: the newest live frame sent, with its view and monotonic time (what a held frame repeats)
+    last_frame: tuple[ViewChoice, bytes] | None = None
+    last_frame_t: float = 0.0
     frame_tokens: float = FRAME_BURST
     frame_tokens_t: float = 0.0
     last_overlay_key: tuple | None = None
@@ -125,6 +135,8 @@ class Hub:
         #: Frames of the comparison run (channel 2) by view key, made with the main frames, and their version.
         self.comparison_frames: dict[str, bytes] = {}
         self.comparison_version = -1
+        #: Grid changes under way (resolution or extent): while any is, tabs get held frames (HELD_FRAME_INTERVAL_S).
+        self.rebuilding = 0
 
     # ------------------------------------------------------------ membership
     def new_client(self, websocket: WebSocket) -> Client:
@@ -140,6 +152,13 @@ class Hub:
     @property
     def wants_frames(self) -> bool:
         return bool(self.clients)
+
+    def hold_frames(self, on: bool) -> None:
+        """A grid change begins (True) or ends (False): meanwhile every tab keeps getting frames (held ones
+        while no new snapshot comes). Changes may overlap: held frames go until the last one ends."""
+        self.rebuilding = max(self.rebuilding + (1 if on else -1), 0)
+        for client in self.clients.values():
+            client.wake.set()
 
     # ------------------------------------------------------------ publishing
     def send(self, client: Client, message: dict) -> None:
@@ -276,8 +295,13 @@ class Hub:
                     client.frame_tokens -= 1.0
                     await client.websocket.send_bytes(data)
                     client.last_frame_key = key
+                    client.last_frame = (view, data)
+                    client.last_frame_t = time.monotonic()
                     client.frame_times.append(time.monotonic())
                     client.frames_sent += 1
+        if self.rebuilding and client.last_frame is not None and client.last_frame[0] == view:
+            held_wait = await self._send_held_if_due(client)
+            wait_s = held_wait if wait_s is None else min(wait_s, held_wait)
         if view.overlays:
             okey = (snap.version, view.overlays)
             if okey != client.last_overlay_key:
@@ -291,6 +315,18 @@ class Hub:
                         client.last_overlay_key = okey
                         client.last_overlay_t = time.monotonic()
         return wait_s
+
+    async def _send_held_if_due(self, client: Client) -> float:
+        """While a grid change is under way: the tab's newest frame again, marked HELD, when it got none for
+        HELD_FRAME_INTERVAL_S (not counted in its frames_per_s: no new picture); the seconds until the next."""
+        now = time.monotonic()
+        due_in = client.last_frame_t + HELD_FRAME_INTERVAL_S - now
+        if due_in > 0.001:
+            return due_in
+        if len(client.outbox) < 4:  # a tab behind with its replies needs no repeated picture
+            await client.websocket.send_bytes(with_channel(client.last_frame[1], HELD))
+        client.last_frame_t = time.monotonic()
+        return HELD_FRAME_INTERVAL_S
 
 
 def ring_key(view: ViewChoice) -> str:

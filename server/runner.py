@@ -32,6 +32,9 @@ log = logging.getLogger("shockslate.runner")
 
 BURST_S = 0.02
 STATUS_INTERVAL_S = 0.25
+#: At most about this share of a running flow's solver thread goes to statuses: when reading one takes long (0.25-0.3 s
+#: on a 2048 x 1024 grid, measured), they come further apart than STATUS_INTERVAL_S (there: every 1.25-1.5 s).
+STATUS_SHARE = 0.2
 #: Snapshots run on a fixed schedule a little faster than the 30 frames/s a tab may take, so that a
 #: burst overrunning its deadline by part of a step does not lower the rate the tabs see.
 SNAPSHOT_INTERVAL_S = 1.0 / 32.0
@@ -39,11 +42,14 @@ SNAPSHOT_INTERVAL_S = 1.0 / 32.0
 
 class Runner:
     def __init__(self, session: Session, hub: Hub, *, burst_s: float = BURST_S,
-                 status_interval_s: float = STATUS_INTERVAL_S, snapshot_interval_s: float = SNAPSHOT_INTERVAL_S):
+                 status_interval_s: float = STATUS_INTERVAL_S, snapshot_interval_s: float = SNAPSHOT_INTERVAL_S,
+                 status_share: float | None = STATUS_SHARE):
         self.session = session
         self.hub = hub
         self.burst_s = burst_s
         self.status_interval_s = status_interval_s
+        self.status_share = status_share  # None: a status every status_interval_s, whatever it costs
+        self._status_cost_s = 0.0  # wall time of reading the last status
         self.snapshot_interval_s = snapshot_interval_s
         self.lock = asyncio.Lock()
         self._loop: asyncio.AbstractEventLoop | None = None  # the event loop, once started
@@ -52,6 +58,7 @@ class Runner:
         self._task: asyncio.Task | None = None
         self._ticker: asyncio.Task | None = None
         self._next_snapshot_t = 0.0
+        self._snapshot_version = -1  # flow_version of the newest snapshot published
         self._last_status_t = 0.0
         self._rate_t = time.monotonic()
         self._rate_steps = session.sim.steps
@@ -126,6 +133,7 @@ class Runner:
         snap = None
         if self.hub.wants_frames:
             snap = self.session.snapshot()
+            self._snapshot_version = snap.version
             self.hub.prepare(snap, with_overlays=True, comparison=self._comparison_snapshot())
         return result, snap, (self._status_or_none(time.monotonic()) if fresh_status else None)
 
@@ -182,8 +190,12 @@ class Runner:
             steps += piece.steps
             divergence = piece.divergence
             now = time.monotonic()
-            if self.hub.wants_frames and (now >= self._next_snapshot_t or divergence is not None):
+            # a held flow (rebuilt on a new grid) has no new picture: no snapshot of it (each would repeat the last
+            # one, made on the solver's thread while the rebuild wants the CPU); the tabs get held frames (hub.py)
+            unchanged = self.session.holding and self.session.flow_version == self._snapshot_version
+            if self.hub.wants_frames and (now >= self._next_snapshot_t or divergence is not None) and not unchanged:
                 snap = self.session.snapshot()
+                self._snapshot_version = snap.version
                 self.hub.prepare(snap, comparison=self._comparison_snapshot())
                 self._hand_to_loop(self.hub.publish_snapshot, snap, self.session.running)
                 late = now - self._next_snapshot_t
@@ -196,9 +208,18 @@ class Runner:
         self.follow_comparison(advanced.wall_s)
         now = time.monotonic()
         status = None
-        if now - self._last_status_t >= self.status_interval_s or advanced.divergence is not None:
-            scenario = self.session.scenario
-            if self.hub.clients or advanced.divergence is not None or scenario.probes or scenario.stations:
+        interval = self.status_interval_s
+        if self.status_share is not None:
+            interval = max(interval, self._status_cost_s / self.status_share)
+        if now - self._last_status_t >= interval or advanced.divergence is not None:
+            scenario, s = self.session.scenario, self.session
+            if s.holding and self.last_status is not None and self._status_key == (s.revision, s.flow_version,
+                                                                                   s.state):
+                # held for a rebuild and unchanged: the last status again (reading a 2048-cell grid's status took
+                # 0.25 s of the solver's thread, from the rebuild and from the swap waiting for it)
+                status = self.last_status
+                self._last_status_t = now
+            elif self.hub.clients or advanced.divergence is not None or scenario.probes or scenario.stations:
                 status = self._status_or_none(now)  # with no tab, for the histories a later tab is sent
             else:  # nobody to tell: keep only the rates /health reports
                 self._update_rates(now)
@@ -316,6 +337,7 @@ class Runner:
 
     def _status_now(self, now: float) -> dict:
         """The status message (without frames_per_s, which each client's sender adds). Worker thread, locked."""
+        started = time.perf_counter()
         s = self.session
         sim = s.sim
         self._update_rates(now)
@@ -340,4 +362,5 @@ class Runner:
         self._status_key = (s.revision, s.flow_version, s.state)
         self.last_status = status
         self.history.record(status)
+        self._status_cost_s = time.perf_counter() - started
         return status

@@ -728,6 +728,11 @@ class Session:
             self._held = plan  # until finish_rebuild or release_rebuild
         return plan
 
+    @property
+    def holding(self) -> bool:
+        """Whether the flow is held (not stepped) while it is rebuilt on a new grid."""
+        return self._held is not None
+
     def release_rebuild(self, plan: "Rebuild") -> None:
         """Let the flow step again if it was held for this rebuild (one that failed or was given up); safe in
         any thread and more than once."""

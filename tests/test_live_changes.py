@@ -20,7 +20,10 @@ import pytest
 import uvicorn
 from websockets.sync.client import connect
 
+from shockslate.server import session as session_module
 from shockslate.server.app import ServerConfig, create_app
+from shockslate.server.frames import decode_frame
+from shockslate.server.hub import HELD
 from shockslate.solver import scenario as scn
 from scenario_docs import duct_doc
 
@@ -101,6 +104,24 @@ def _messages(sock, until, what: str) -> list:
 
 def _frames(messages) -> int:
     return sum(isinstance(m, bytes) for m in messages)
+
+
+def _channel(frame: bytes) -> int:
+    """The frame's channel (PROTOCOL.md "Binary frames": 0 live, 3 held)."""
+    return int.from_bytes(frame[14:16], "little")
+
+
+def _live_frames(messages) -> list:
+    return [m for m in messages if isinstance(m, bytes) and _channel(m) == 0]
+
+
+def _held_frames(messages) -> list:
+    return [m for m in messages if isinstance(m, bytes) and _channel(m) == HELD]
+
+
+def _after_last_live(messages) -> list:
+    live = [k for k, m in enumerate(messages) if isinstance(m, bytes) and _channel(m) == 0]
+    return messages[live[-1] + 1:] if live else messages
 
 
 def _replies(messages, rid: str) -> list:
@@ -188,11 +209,47 @@ def test_other_tabs_keep_getting_frames_while_a_new_resolution_is_built(live):
         sender.send(json.dumps({"type": "set_resolution", "nx": 160, "id": "res"}))
         assert held.entered.wait(WAIT_S)
         steps = session.sim.steps
-        seen = _messages(other, lambda got: _frames(got) >= 10, "frames while the new grid is built")
-        assert _frames(seen) >= 10 and session.sim.steps > steps
+        seen = _messages(other, lambda got: len(_live_frames(got)) >= 10, "live frames while the new grid is built")
+        assert len(_live_frames(seen)) >= 10 and session.sim.steps > steps
         assert session.sim.domain.nx == 64  # the old grid runs on until the new one is ready
         held.release()
         reply = _replies(_messages(sender, lambda got: _replies(got, "res"), "the acknowledgement"), "res")[0]
         assert reply["type"] == "scenario" and reply["scenario"]["domain"]["nx"] == 160
         assert session.sim.domain.nx == 160 and session.running
-        _messages(other, lambda got: _frames(got) >= 3, "frames of the new grid")
+        _messages(other, lambda got: sum(decode_frame(f)[0].width == 160 for f in _live_frames(got)) >= 3,
+                  "live frames of the new grid, at its width")
+
+
+def test_a_slow_flow_is_held_while_its_new_grid_is_built_and_the_tabs_get_held_frames_of_it(live, monkeypatch):
+    """Leaving a grid whose steps are slow (a 2048-cell one), the flow is held, not stepped, while the new grid is
+    built; the other tab keeps getting frames: its newest frame again, marked held (channel 3), the same instant
+    and pixels each time; then the acknowledgement, and live frames of the new grid at its new size."""
+    monkeypatch.setattr(session_module, "HOLD_STEP_S", 0.0)  # every running flow counts as slow: it is held
+    session = live.parts.session
+    held = Held(session.build_rebuild)
+    session.build_rebuild = held
+    with live.tab() as sender, live.tab() as other:
+        _run(sender, live)
+        before = _messages(other, lambda got: len(_live_frames(got)) >= 2, "live frames of the running flow")
+        assert decode_frame(_live_frames(before)[-1])[0].width == 64  # the default canvas holds the whole grid
+        sender.send(json.dumps({"type": "set_resolution", "nx": 160, "id": "res"}))
+        assert held.entered.wait(WAIT_S)
+        _until(lambda: session.holding, "the flow to be held")
+        _messages(other, lambda got: len(_held_frames(got)) >= 2, "held frames")  # a step in progress has ended
+        steps = session.sim.steps
+        seen = _messages(other, lambda got: len(_held_frames(_after_last_live(got))) >= 4,
+                         "held frames while the new grid is built")
+        assert session.sim.steps == steps and session.sim.domain.nx == 64 and session.holding  # held, not stepped
+        repeats = _held_frames(_after_last_live(seen))  # the flow's last picture (one may be made as it is held)
+        headers = [decode_frame(f)[0] for f in repeats]
+        assert {(h.width, h.step, h.time_s) for h in headers} == {(64, headers[0].step, headers[0].time_s)}
+        assert headers[0].step <= steps
+        assert len({f[48:] for f in repeats}) == 1  # the same pixels: the flow as it stands, not a new picture
+        held.release()
+        reply = _replies(_messages(sender, lambda got: _replies(got, "res"), "the acknowledgement"), "res")[0]
+        assert reply["type"] == "scenario" and reply["scenario"]["domain"]["nx"] == 160
+        assert session.sim.domain.nx == 160 and session.running and not session.holding
+        after = _messages(other, lambda got: sum(decode_frame(f)[0].width == 160 for f in _live_frames(got)) >= 3,
+                          "live frames of the new grid")
+        new_grid = [decode_frame(f)[0] for f in _live_frames(after) if decode_frame(f)[0].width == 160]
+        assert new_grid[-1].step > new_grid[0].step  # the new grid runs

@@ -291,7 +291,7 @@ function onFrame(buffer) {
   if (app.presenter && !app.presenter.takeFrame(f)) return;
   app.frame = f;
   const now = performance.now();
-  app.frameTimes.push(now);
+  if (f.channel !== 3) app.frameTimes.push(now); // a held frame (PROTOCOL.md) is no new picture
   while (app.frameTimes.length && now - app.frameTimes[0] > 2000) app.frameTimes.shift();
   paintFrame();
   updateColourBar();
