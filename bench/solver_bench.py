@@ -107,7 +107,7 @@ def scheme_label() -> str:
 
 def wall_path_face_share(sim) -> float:
     """The fraction of a simulation's x- and y-faces with a wall cell in their stencil (solver/face_paths.py): the
-    general stencil's faces; the x sweep runs the rest on the lean stencil."""
+    faces that need the general stencil; the rest could run a lean one."""
     return sim._face_paths.general_face_share
 
 

@@ -1,5 +1,6 @@
-"""The split face sweeps (solver/face_paths.py) and the kernels changed with them, bit for bit against the kernels
-as they were before the split.
+"""The face kernels as changed for speed (HLLC forming one star state, the edge fills over the border only, the wave
+rate in the last stage only), bit for bit against the kernels as they were before; and solver/face_paths.py's
+runs of faces beside walls.
 
 The reference below is a verbatim copy of the earlier kernels (kernels._slope, _riemann_flux, _reflect, _face,
 x_face_fluxes, y_face_fluxes, fill_open_edges, fill_pressure_edges), compiled serial and uncached: every face
@@ -7,7 +8,7 @@ through the general stencil, both HLLC star states formed, the edge fills visiti
 must give the same numbers exactly (np.array_equal), for every limiter and flux, with both shock-mark bits, on a
 grid with drawn walls (cut cells), held cells (reservoir, ambient and open edges) and shocks. Bit-identity to the
 earlier kernels is the check (common practice for a pure speed change, no outside source needed: the scheme's
-own validation against Toro and others lives in test_kernels*, test_riemann and test_shock_switch).
+own validation against Toro and others lives in test_riemann, test_numerics and test_shock_switch).
 """
 from __future__ import annotations
 
@@ -18,6 +19,7 @@ import pytest
 from numba import njit
 
 from shockslate.solver import cut_cells, face_paths, kernels
+from shockslate.solver.domain import Domain
 from shockslate.solver.kernels import LIM_SHOCK_FACE, MARK_HLL, MARK_MINMOD  # noqa: F401 (read by the reference)
 from shockslate.solver.numerics import (FLUX_HLL, FLUX_HLLC, FLUX_RUSANOV, FLUXES, LIM_FIRST_ORDER, LIM_MC,
                                         LIM_MINMOD, LIM_VAN_LEER, LIM_VAN_LEER_SHOCK_MINMOD, LIMITERS)
@@ -411,8 +413,8 @@ def _reference_fluxes(sim, lim, flux, hll_x, hll_y):
 def _new_fluxes(sim, lim, flux, hll_x, hll_y):
     Fx = np.full_like(sim.Fx, np.nan)
     Gy = np.full_like(sim.Gy, np.nan)
-    face_paths.face_fluxes(sim._face_paths, sim.W, sim._wall_nx, sim._wall_ny, Fx, Gy, sim.setup.gas.gamma, lim,
-                           flux, hll_x, hll_y)
+    kernels.x_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Fx, sim.setup.gas.gamma, lim, flux, hll_x)
+    kernels.y_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Gy, sim.setup.gas.gamma, lim, flux, hll_y)
     return Fx, Gy
 
 
@@ -485,7 +487,7 @@ def _all_fluxes(kernel, *args):
 
 @pytest.mark.parametrize("limiter", ["van_leer", "van_leer_shock_minmod"])
 def test_steps_bit_identical_to_the_reference_sweeps(limiter):
-    # Whole steps (shock marks, reservoir feed, cut cells, update, edge fills) with the split sweeps against the
+    # Whole steps (shock marks, reservoir feed, cut cells, update, edge fills) with the new kernels against the
     # same steps with every face through the reference kernels.
     doc = load_builtin("nozzle_start_up")
     doc = doc.model_copy(update={"numerics": doc.numerics.model_copy(update={"limiter": limiter})})
@@ -523,8 +525,6 @@ def test_the_next_time_step_is_set_by_the_state_after_the_step(nozzle):
 def test_edge_fills_bit_identical(edges):
     # The fills visit only the border cells now; on a random state they write exactly what the whole-array
     # reference writes, for open and ambient edges, inflow, subsonic and supersonic outflow alike.
-    from shockslate.solver.domain import Domain
-
     sim = Simulation(Setup(domain=Domain(0.0, 1.0, 0.0, 0.5, 30), edges=edges))
     rng = np.random.default_rng(3)
     shape = sim.domain.shape
@@ -543,3 +543,18 @@ def test_edge_fills_bit_identical(edges):
     fill_pressure_edges(U_ref, W_ref, sim.kind, amb[0], amb[3], gamma)
     assert np.array_equal(U_new, U_ref) and np.array_equal(W_new, W_ref)
     assert (W_new[:, 5, :2] != -1.0).all() and (W_new[:, 5, -2:] != -1.0).all()  # both side bands were written
+
+
+def test_face_runs_of_a_closed_box():
+    # A box of walls, 12 x 6 cells: the two faces nearest each wall read a ghost wall cell (stencils of four
+    # cells), every other face none; counted by hand.
+    nx, ny = 12, 6
+    sim = Simulation(Setup(domain=Domain(0.0, 1.0, 0.0, 0.5, nx), edges=Edges("wall", "wall", "wall", "wall")))
+    paths = sim._face_paths
+    assert paths.general_x_faces == 4 * ny and paths.general_y_faces == 4 * nx
+    assert paths.faces == ny * (nx + 1) + (ny + 1) * nx
+    row = slice(paths.x_ptr[2], paths.x_ptr[3])  # an x-face row: wall-side, plain, wall-side
+    assert list(zip(paths.x_lo[row], paths.x_hi[row], paths.x_plain[row])) == [(0, 2, 0), (2, nx - 1, 1),
+                                                                                (nx - 1, nx + 1, 0)]
+    assert list(paths.y_plain[paths.y_ptr[0]:paths.y_ptr[1]]) == [0]  # the bottom face row reads the ghost walls
+    assert list(paths.y_plain[paths.y_ptr[3]:paths.y_ptr[4]]) == [1]
