@@ -4,10 +4,11 @@ Settle mode (solver/settle.py) is timed against time-accurate stepping to the sa
 nozzle_sea_level at its own resolution (`settle_speedup`, measure_settle).
 
 Speed is cell updates per second (one full time step of one cell = one update), the median of
-several timed bursts on a developed flow (a blast in a closed box of walls; planar, HLLC,
-MUSCL van Leer, SSP-RK2, CFL 0.4). Beside it, in the same process and run so that ratios are fair on a
-noisy shared machine: the bare kernel (bench/bare_kernel.py, the same scheme with nothing else, timed in
-alternating bursts with the product: `product_over_bare`) and the NumPy baseline (bench/numpy_baseline.py).
+several timed bursts on a developed flow (a blast in a closed box of walls; planar, the solver's default
+numerics of solver/numerics.py: HLLC, MUSCL with the default limiter, SSP-RK2, CFL 0.4; `scheme` names them).
+Beside it, in the same process and run so that ratios are fair on a noisy shared machine: the bare kernel
+(bench/bare_kernel.py, the same scheme with nothing else, timed in alternating bursts with the product:
+`product_over_bare`) and the NumPy baseline (bench/numpy_baseline.py).
 """
 from __future__ import annotations
 
@@ -103,6 +104,21 @@ def build_walled_box(nx: int, ny: int):
                      geo.mask, geo)
     sim.set_primitive(*blast_initial(nx, ny))
     return sim
+
+
+def scheme_label() -> str:
+    """The scheme the benchmark times: the solver's default numerics (solver/numerics.py), whatever they are."""
+    from shockslate.solver.numerics import FLUXES, INTEGRATOR_CHOICES, LIMITERS, Numerics
+
+    n = Numerics()
+    return (f"planar, closed box of walls, {FLUXES[n.flux].label}, MUSCL {LIMITERS[n.limiter].label} "
+            f"(limiter {n.limiter}), {INTEGRATOR_CHOICES[n.integrator].label}, CFL {n.cfl:g}")
+
+
+def wall_path_face_share(sim) -> float:
+    """The fraction of a simulation's x- and y-faces with a wall cell in their stencil (solver/face_paths.py): the
+    faces that need the general stencil; the rest could run a lean one."""
+    return sim._face_paths.general_face_share
 
 
 def measure_walls(nx: int, ny: int, threads: int, repeats: int) -> tuple[float, float]:
@@ -293,11 +309,15 @@ def measure_settle(scenario=SETTLE_SCENARIO, nx: int | None = None, tolerance: f
     }
 
 
-def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None) -> dict:
+def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None, solver_only: bool = False) -> dict:
+    """Every figure; solver_only: the solver speed figures at 512x256 (product, bare, NumPy, with walls, the wall
+    path's face share) and memory, without the other grids, settle mode and the warm start."""
     import numba
 
     all_threads = numba.config.NUMBA_NUM_THREADS
     build_box(64, 32).step()  # compile or load the kernels before timing anything
+    if solver_only:
+        grids = ((512, 256),)
     results = []
     for nx, ny in grids:
         np_rate = measure_numpy(nx, ny, max(1, repeats // 2))
@@ -307,12 +327,14 @@ def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None) -
                             "bare_cell_updates_per_s": bare, "product_over_bare": rate / bare,
                             "numpy_cell_updates_per_s": np_rate, "ratio_to_numpy": rate / np_rate})
     plain, walled = measure_walls(512, 256, all_threads, repeats)
+    shares = {"plain": wall_path_face_share(build_box(512, 256)),
+              "walls": wall_path_face_share(build_walled_box(512, 256))}
     numba.set_num_threads(all_threads)
     array_bytes, rss_bytes = measure_memory(2048, 1024)
     key = next((g for g in results if (g["nx"], g["ny"], g["threads"]) == (512, 256, all_threads)), results[-1])
-    settled = measure_settle(nx=settle_nx)
+    settled = None if solver_only else measure_settle(nx=settle_nx)
     return {
-        "scheme": "planar, closed box of walls, HLLC, MUSCL van Leer, SSP-RK2, CFL 0.4",
+        "scheme": scheme_label(),
         "bare_cell_updates_per_s": key["bare_cell_updates_per_s"],
         "product_over_bare": key["product_over_bare"],
         "headline_grid": f"{key['nx']}x{key['ny']}, {key['threads']} threads",
@@ -322,10 +344,11 @@ def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None) -
         "grids": results,
         "walls": {"grid": f"512x256, {all_threads} threads", "sketch": "rotated square, disc, sloped stroke",
                   "plain_cell_updates_per_s": plain, "walls_cell_updates_per_s": walled,
-                  "walls_over_plain": walled / plain},
-        "settle_speedup": settled["settle_speedup"],
+                  "walls_over_plain": walled / plain, "wall_path_face_share": shares["walls"],
+                  "plain_wall_path_face_share": shares["plain"]},
+        "settle_speedup": None if settled is None else settled["settle_speedup"],
         "settle": settled,
-        "warm_start_s": measure_warm_start(),
+        "warm_start_s": None if solver_only else measure_warm_start(),
         "bytes_per_cell_2048x1024": array_bytes,
         "rss_growth_bytes_per_cell_2048x1024": rss_bytes,
         "goals": GOALS,
@@ -343,8 +366,13 @@ def _print_table(report: dict) -> None:
               f"{g['numpy_cell_updates_per_s'] / 1e6:>8.2f} {g['ratio_to_numpy']:>7.1f}")
     w = report["walls"]
     print(f"drawn walls ({w['sketch']}) at {w['grid']}: {w['walls_cell_updates_per_s'] / 1e6:.1f} against "
-          f"{w['plain_cell_updates_per_s'] / 1e6:.1f} Mcell-updates/s without, ratio {w['walls_over_plain']:.2f}")
+          f"{w['plain_cell_updates_per_s'] / 1e6:.1f} Mcell-updates/s without, ratio {w['walls_over_plain']:.2f}; "
+          f"faces on the wall path: {100 * w['wall_path_face_share']:.1f} % with the walls, "
+          f"{100 * w['plain_wall_path_face_share']:.1f} % without")
     st = report["settle"]
+    if st is None:  # --solver-only
+        print(f"memory at 2048x1024: {report['bytes_per_cell_2048x1024']:.0f} bytes/cell in arrays")
+        return
     print(f"settle mode on {st['scenario']} at {st['nx']}x{st['ny']}: {st['settle_wall_s']:.1f} s to steady against "
           f"{st['time_accurate_wall_s']:.1f} s time-accurate, speedup {st['settle_speedup']:.1f}"
           f"{' (at least: the time-accurate run was stopped unsettled)' if st['capped'] else ''}; mass flow and "
@@ -373,7 +401,7 @@ def main(args: argparse.Namespace) -> int:
         from shockslate.solver.scenario import load_builtin
 
         settle_nx = load_builtin(SETTLE_SCENARIO).domain.nx // 2
-    report = run_benchmark(repeats=args.repeats, grids=grids, settle_nx=settle_nx)
+    report = run_benchmark(repeats=args.repeats, grids=grids, settle_nx=settle_nx, solver_only=args.solver_only)
     if args.json:
         print(json.dumps(report, indent=2))
     else:
@@ -387,6 +415,8 @@ def add_bench_command(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.add_argument("--repeats", type=int, default=5, help="timed bursts per figure (median is reported)")
     p.add_argument("--quick", action="store_true", help="only the two smaller grids (settle mode at half resolution)")
+    p.add_argument("--solver-only", action="store_true",
+                   help="only the solver speed at 512x256 (product, bare kernel, NumPy, with walls) and memory")
     p.add_argument("--settle-only", action="store_true",
                    help=f"only settle mode against time-accurate stepping on {SETTLE_SCENARIO} (settle_speedup)")
     p.set_defaults(handler=main)

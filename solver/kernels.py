@@ -83,29 +83,36 @@ def _riemann_flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, flux):
                 (srp * fl1 - slm * fr1 + sls * (fr0 - fl0)) * inv,
                 (srp * fl2 - slm * fr2 + sls * (rr * vr - rl * vl)) * inv,
                 (srp * fl3 - slm * fr3 + sls * (er - el)) * inv)
-    # HLLC (Toro, Spruce and Speares 1994; Toro 2009, sec. 10.4)
+    # HLLC (Toro, Spruce and Speares 1994; Toro 2009, sec. 10.4). Only the star state on the side of the contact
+    # the face sees is formed (the side's values picked first, without branches): the same operations as forming
+    # both and picking one, at half the cost.
     dl = rl * (sl - ul)
     dr = rr * (sr - ur)
     ss = (pr - pl + ul * dl - ur * dr) / (dl - dr)
-    cl = dl / (sl - ss)
-    cr = dr / (sr - ss)
-    esl = cl * (el / rl + (ss - ul) * (ss + pl / dl))
-    esr = cr * (er / rr + (ss - ur) * (ss + pr / dr))
-    fsl0 = fl0 + sl * (cl - rl)
-    fsl1 = fl1 + sl * (cl * ss - fl0)
-    fsl2 = fl2 + sl * (cl * vl - rl * vl)
-    fsl3 = fl3 + sl * (esl - el)
-    fsr0 = fr0 + sr * (cr - rr)
-    fsr1 = fr1 + sr * (cr * ss - fr0)
-    fsr2 = fr2 + sr * (cr * vr - rr * vr)
-    fsr3 = fr3 + sr * (esr - er)
-    left = sl >= 0.0
     star_left = ss >= 0.0
-    right = sr <= 0.0
-    f0 = fl0 if left else (fsl0 if star_left else (fr0 if right else fsr0))
-    f1 = fl1 if left else (fsl1 if star_left else (fr1 if right else fsr1))
-    f2 = fl2 if left else (fsl2 if star_left else (fr2 if right else fsr2))
-    f3 = fl3 if left else (fsl3 if star_left else (fr3 if right else fsr3))
+    r = rl if star_left else rr
+    u = ul if star_left else ur
+    v = vl if star_left else vr
+    p = pl if star_left else pr
+    e = el if star_left else er
+    s = sl if star_left else sr
+    d = dl if star_left else dr
+    g0 = fl0 if star_left else fr0
+    g1 = fl1 if star_left else fr1
+    g2 = fl2 if star_left else fr2
+    g3 = fl3 if star_left else fr3
+    c = d / (s - ss)
+    es = c * (e / r + (ss - u) * (ss + p / d))
+    fs0 = g0 + s * (c - r)
+    fs1 = g1 + s * (c * ss - g0)
+    fs2 = g2 + s * (c * v - r * v)
+    fs3 = g3 + s * (es - e)
+    left = sl >= 0.0
+    outer_right = sr <= 0.0 and not star_left
+    f0 = fl0 if left else (fr0 if outer_right else fs0)
+    f1 = fl1 if left else (fr1 if outer_right else fs1)
+    f2 = fl2 if left else (fr2 if outer_right else fs2)
+    f3 = fl3 if left else (fr3 if outer_right else fs3)
     return f0, f1, f2, f3
 
 
@@ -374,12 +381,9 @@ def shock_switch(W, kind, hll_x, hll_y, ratio, marks=MARK_HLL):
 
 
 @njit(**_INLINE)
-def floored_primitive(n0, n1, n2, n3, gamma, rho_floor, p_floor):
-    """A new conserved state with density and pressure floored, its velocity and pressure, its wave
-    speed |u| + |v| + 2a (for the time step) and the number of floors applied (0 to 2).
-
-    One definition for the full cells (update_stage) and the cut cells (cut_cells.update_cut_cells).
-    """
+def floored_state(n0, n1, n2, n3, gamma, rho_floor, p_floor):
+    """A new conserved state with density and pressure floored, its velocity and pressure and the number of
+    floors applied (0 to 2)."""
     gm1 = gamma - 1.0
     floors = 0
     if n0 < rho_floor:
@@ -395,13 +399,28 @@ def floored_primitive(n0, n1, n2, n3, gamma, rho_floor, p_floor):
         p = p_floor
         n3 = p / gm1 + kin
         floors += 1
-    speed = abs(vx) + abs(vy) + 2.0 * math.sqrt(gamma * p / n0)
-    return n0, n1, n2, n3, vx, vy, p, speed, floors
+    return n0, n1, n2, n3, vx, vy, p, floors
+
+
+@njit(**_INLINE)
+def wave_speed(rho, vx, vy, p, gamma):
+    """|u| + |v| + 2a, the wave speed the time step is set by."""
+    return abs(vx) + abs(vy) + 2.0 * math.sqrt(gamma * p / rho)
+
+
+@njit(**_INLINE)
+def floored_primitive(n0, n1, n2, n3, gamma, rho_floor, p_floor):
+    """floored_state and the state's wave_speed (for the time step).
+
+    One definition for the full cells (update_stage) and the cut cells (cut_cells.update_cut_cells).
+    """
+    n0, n1, n2, n3, vx, vy, p, floors = floored_state(n0, n1, n2, n3, gamma, rho_floor, p_floor)
+    return n0, n1, n2, n3, vx, vy, p, wave_speed(n0, vx, vy, p, gamma), floors
 
 
 @njit(**_PARALLEL)
 def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus, source,
-                 gamma, rho_floor, p_floor, row_rate, row_floors, row_bad):
+                 gamma, rho_floor, p_floor, row_rate, row_floors, row_bad, want_rate=True):
     """One SSP stage on full fluid cells: U <- a*U0 + b*(U + dt*L(U)); refresh W.
 
     Cells flagged in `cut` (walls cross them, or they are merged with such a cell) are left to
@@ -411,7 +430,8 @@ def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus,
     pressure in the y-momentum equation: 1, 1, 0 in planar mode; r_face / r_cell and 1 / r_cell
     in axisymmetric mode (per-radian volumes). Also returns, per row, the largest
     (|u| + |v| + 2a) / dx for the next time step, the number of floored cells and of cells
-    holding a non-finite value.
+    holding a non-finite value. Only the last stage's wave rate sets the next time step: the others pass
+    want_rate=False, skip the square root and leave row_rate at 0.
     """
     ny = Fx.shape[1]
     nx = Gy.shape[2]
@@ -468,7 +488,7 @@ def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus,
                 u2[ii] = n2
                 u3[ii] = n3
                 continue
-            n0, n1, n2, n3, vx, vy, p, speed, fl = floored_primitive(n0, n1, n2, n3, gamma, rho_floor, p_floor)
+            n0, n1, n2, n3, vx, vy, p, fl = floored_state(n0, n1, n2, n3, gamma, rho_floor, p_floor)
             floors += fl
             u0[ii] = n0
             u1[ii] = n1
@@ -478,10 +498,19 @@ def update_stage(U, U0, W, Fx, Gy, kind, cut, a, b, dt, inv_dx, w_plus, w_minus,
             w1[ii] = vx
             w2[ii] = vy
             w3[ii] = p
-            rate = max(rate, speed * inv_dx)
+            if want_rate:
+                rate = max(rate, wave_speed(n0, vx, vy, p, gamma) * inv_dx)
         row_rate[j] = rate
         row_floors[j] = floors
         row_bad[j] = bad
+
+
+@njit(**_INLINE)
+def _border_cell(n, jj, nxp, nyp):
+    """Column of the n-th border cell of padded row jj: every column in the ghost rows, the two ghost columns
+    a side elsewhere (the edge fills visit only these, not the whole array)."""
+    edge_row = jj < 2 or jj >= nyp - 2
+    return n if (edge_row or n < 2) else nxp - 4 + n
 
 
 @njit(**_SERIAL)
@@ -490,9 +519,8 @@ def fill_open_edges(U, W, kind):
     nyp = kind.shape[0]
     nxp = kind.shape[1]
     for jj in range(nyp):
-        for ii in range(nxp):
-            if 2 <= jj < nyp - 2 and 2 <= ii < nxp - 2:
-                continue
+        for n in range(nxp if (jj < 2 or jj >= nyp - 2) else 4):
+            ii = _border_cell(n, jj, nxp, nyp)
             if kind[jj, ii] != OPEN:
                 continue
             sj = min(max(jj, 2), nyp - 3)
@@ -523,9 +551,8 @@ def fill_pressure_edges(U, W, kind, rho_amb, p_amb, gamma):
     gm1 = gamma - 1.0
     a0sq = gamma * p_amb / rho_amb
     for jj in range(nyp):
-        for ii in range(nxp):
-            if 2 <= jj < nyp - 2 and 2 <= ii < nxp - 2:
-                continue
+        for n in range(nxp if (jj < 2 or jj >= nyp - 2) else 4):
+            ii = _border_cell(n, jj, nxp, nyp)
             if kind[jj, ii] != AMBIENT:
                 continue
             sj = min(max(jj, 2), nyp - 3)

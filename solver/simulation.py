@@ -11,7 +11,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import cut_cells, kernels
+from . import cut_cells, face_paths, kernels
 from .conditions import Conditions, held_table
 from .domain import Domain
 from .errors import SolverDiverged
@@ -188,6 +188,7 @@ class Simulation:
         touches[1:, :] |= fluid[:-1, :]
         self._feed_j, self._feed_i = (a.astype(np.int64) for a in np.nonzero(res & touches))
         self._wall_nx, self._wall_ny = wall_normals(k, GHOST)
+        self._face_paths = face_paths.build(self._wall_nx, self._wall_ny)  # the faces beside walls (a figure)
         self.geometry = staircase_geometry(mask) if geometry is None else geometry
         if self.geometry.open_x.shape != (mask.shape[0], mask.shape[1] + 1):
             raise ValueError(f"geometry of shape {self.geometry.mask.shape} does not match the domain's {mask.shape}")
@@ -527,13 +528,15 @@ class Simulation:
         res = self._held_prim[CellKind.RESERVOIR]
         self.mark_shocks(lim, flux)
         relax = self.feed_relax(dt, len(num.tableau.stages))
-        for a, b in num.tableau.stages:
+        last = len(num.tableau.stages) - 1
+        for k, (a, b) in enumerate(num.tableau.stages):
             self.stage_fluxes(res, gamma, lim, flux, relax)
             # a stage without U0 (a = 0) reads U in its place: the same memory, so no extra traffic
             u0 = self.U0 if a != 0.0 else self.U
             kernels.update_stage(self.U, u0, self.W, self.Fx, self.Gy, self.kind, self._cut, a, b, dt, inv_dx,
                                  self._w_plus, self._w_minus, self._source, gamma,
-                                 self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad)
+                                 self._rho_floor, self._p_floor, self._row_rate, self._row_floors, self._row_bad,
+                                 k == last)
             self.update_cut_cells(u0, a, b, dt, inv_dx, gamma)
             self._fill_edges()
             floors += int(self._row_floors.sum()) + int(self._cut_out[1])
