@@ -4,8 +4,9 @@ Settle mode (solver/settle.py) is timed against time-accurate stepping to the sa
 nozzle_sea_level at its own resolution (`settle_speedup`, measure_settle).
 
 Speed is cell updates per second (one full time step of one cell = one update), the median of
-several timed bursts on a developed flow (a blast in a closed box of walls; planar, the solver's default
-numerics of solver/numerics.py: HLLC, MUSCL with the default limiter, SSP-RK2, CFL 0.4; `scheme` names them).
+several timed bursts on a developed flow (a blast in a closed box of walls; planar, HLLC, MUSCL with van Leer's
+limiter, SSP-RK2, CFL 0.4: bench_numerics, the scheme of the bare kernel; `scheme` names it. The product's default
+limiter adds minmod at shocks, which costs nothing where no cell is marked).
 Beside it, in the same process and run so that ratios are fair on a noisy shared machine: the bare kernel
 (bench/bare_kernel.py, the same scheme with nothing else, timed in alternating bursts with the product:
 `product_over_bare`) and the NumPy baseline (bench/numpy_baseline.py).
@@ -107,10 +108,10 @@ def build_walled_box(nx: int, ny: int):
 
 
 def scheme_label() -> str:
-    """The scheme the benchmark times: the solver's default numerics (solver/numerics.py), whatever they are."""
-    from shockslate.solver.numerics import FLUXES, INTEGRATOR_CHOICES, LIMITERS, Numerics
+    """The scheme the benchmark times (bench_numerics), named from the solver's own tables."""
+    from shockslate.solver.numerics import FLUXES, INTEGRATOR_CHOICES, LIMITERS
 
-    n = Numerics()
+    n = bench_numerics()
     return (f"planar, closed box of walls, {FLUXES[n.flux].label}, MUSCL {LIMITERS[n.limiter].label} "
             f"(limiter {n.limiter}), {INTEGRATOR_CHOICES[n.integrator].label}, CFL {n.cfl:g}")
 
