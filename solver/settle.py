@@ -77,6 +77,17 @@ class LocalStepper:
         #: the residual figure's rate sum of the last step: sum over gas cells of |d rho| / dt (kg/m^3/s)
         self.rate_sum = math.nan
 
+    def _feed_dt_s(self) -> float:
+        """The step of the gas beside the reservoir's feed: the largest local step of the feed cells' gas
+        neighbours. The feed relaxes over that step as in a time-accurate step (Simulation.feed_relax), so the
+        chamber's sound leaves through the feed here too instead of ringing between it and the throat."""
+        j, i = self.sim._feed_j, self.sim._feed_i
+        if j.size == 0:
+            return 0.0
+        ny, nx = self.dt.shape
+        return float(max(self.dt[np.clip(j + dj, 0, ny - 1), np.clip(i + di, 0, nx - 1)].max()
+                         for dj, di in ((1, 0), (-1, 0), (0, 1), (0, -1))))
+
     @property
     def cfl(self) -> float:
         return settle_cfl(self.sim.setup.numerics.cfl) if self._cfl is None else self._cfl
@@ -105,8 +116,9 @@ class LocalStepper:
         floors = 0
         res = sim._held_prim[CellKind.RESERVOIR]
         sim.mark_shocks(lim, flux)
+        relax = sim.feed_relax(self._feed_dt_s(), len(num.tableau.stages))
         for a, b in num.tableau.stages:
-            sim.stage_fluxes(res, gamma, lim, flux)
+            sim.stage_fluxes(res, gamma, lim, flux, relax)
             u0 = sim.U0 if a != 0.0 else sim.U
             settle_kernels.update_stage_local(sim.U, u0, sim.W, sim.Fx, sim.Gy, sim.kind, sim._cut, a, b, self.dt,
                                               inv_dx, sim._w_plus, sim._w_minus, sim._source, gamma,
