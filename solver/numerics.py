@@ -20,7 +20,7 @@ ORDERS: dict[int, Choice] = table(Choice(1, "1 (piecewise constant)"), Choice(2,
 LIMITERS: dict[str, Choice] = table(Choice("minmod", "minmod", LIM_MINMOD),
                                     Choice("van_leer", "van Leer", LIM_VAN_LEER),
                                     Choice("mc", "MC", LIM_MC),
-                                    Choice("van_leer_shock_minmod", "van Leer, minmod at shocks",
+                                    Choice("van_leer_shock_minmod", "van Leer, minmod at standing shocks",
                                            LIM_VAN_LEER_SHOCK_MINMOD))
 #: Approximate Riemann solvers (numerical fluxes) by scenario name.
 FLUXES: dict[str, Choice] = table(Choice("hllc", "HLLC", FLUX_HLLC),
@@ -61,9 +61,10 @@ class Numerics:
 
     order: 1 (piecewise constant) or 2 (MUSCL reconstruction of primitive variables).
     limiter: slope limiter for order 2 (minmod, van_leer, mc, van_leer_shock_minmod). The default is van Leer with
-        minmod for pressure and normal velocity on the faces of shock-marked cells: with HLLC's switch to HLL
-        there it keeps a bow shock and its stagnation pressure still (tests/test_blunt_bodies.py), where plain
-        van Leer's slopes make the stagnation pressure ring by about 0.7 %.
+        minmod for pressure and normal velocity on the faces of cells in slow (standing) shocks: with HLLC's
+        switch to HLL there it keeps a bow shock and its stagnation pressure still (tests/test_blunt_bodies.py),
+        where plain van Leer's slopes make the stagnation pressure ring by about 0.7 %. Shocks that run through
+        the grid keep van Leer.
     flux: numerical flux (hllc, hll, rusanov).
     cfl: Courant number used to pick the time step every step.
     integrator: ssp_rk2 or ssp_rk3.

@@ -496,11 +496,13 @@ class Simulation:
 
     def mark_shocks(self, lim: int, flux: int) -> None:
         """The shock marks (kernels.shock_switch), once a step: a shock moves less than a cell, the marks reach two
-        beyond it. HLLC takes HLL across strong shocks; the limiter van_leer_shock_minmod takes minmod in them."""
+        beyond it. HLLC takes HLL across strong shocks; the limiter van_leer_shock_minmod takes minmod in slow
+        (standing) ones."""
         marks = ((kernels.MARK_HLL if flux == kernels.FLUX_HLLC else 0)
                  | (kernels.MARK_MINMOD if lim == kernels.LIM_VAN_LEER_SHOCK_MINMOD else 0))
         if marks:
-            kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO, marks)
+            kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO, marks,
+                                 self.setup.gas.gamma)
 
     def update_cut_cells(self, u0: np.ndarray, a: float, b: float, dt: float, inv_dx: float, gamma: float) -> None:
         """One stage's update of the cut cells (merged groups) with time step dt."""
