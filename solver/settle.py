@@ -32,6 +32,11 @@ from .simulation import GHOST, Simulation, _bilinear
 
 #: Coarse grids of grid sequencing: at most this many halvings of the resolution ...
 MAX_LEVELS = 3
+#: Grid levels of `shockslate run --until steady --settle` and the benchmark: three (two coarse grids) where the
+#: grid allows. On nozzle_sea_level at 320 cells across (NUMBA_NUM_THREADS=1, /tmp script over settle_coarse and
+#: LocalStepper to SettleCheck): two levels took 796 steps at 160 and 1097 at 320; three took 369 at 80, 414 at 160
+#: and 520 at 320, about half the work in fine-step equivalents.
+DEFAULT_LEVELS = 3
 #: ... and never fewer cells across x than this on the coarsest one.
 MIN_COARSE_NX = 40
 #: A coarse level hands over once its residual figure is below this (fraction of the mass changing per
@@ -129,9 +134,11 @@ class LocalStepper:
             floors += int(sim._row_floors.sum()) + int(sim._cut_out[1])
         change, rate_sum, _ = settle_kernels.density_rates(sim.U, sim.U0, sim.kind, self.dt, 0, sim.domain.nx)
         self.rate_sum = rate_sum
-        positive = self.dt[self.dt > 0.0]
-        dt_min = float(positive.min()) if positive.size else 0.0
-        pseudo = change / rate_sum if rate_sum > 0.0 and change > 0.0 else dt_min
+        if rate_sum > 0.0 and change > 0.0:
+            pseudo = change / rate_sum
+        else:  # nothing changed: the smallest step (a boolean pick over the grid, so only here)
+            positive = self.dt[self.dt > 0.0]
+            pseudo = float(positive.min()) if positive.size else 0.0
         sim.finish_step(pseudo, floors)
         return pseudo
 
@@ -233,7 +240,7 @@ def interior_end_m(exit_station: Optional[Station]) -> float:
     return max(exit_station.start_m[0], exit_station.end_m[0])
 
 
-def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: int = DEFAULT_LEVELS,
                   cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
                   max_steps: int = COARSE_MAX_STEPS, stop: Callable[[], bool] = lambda: False) -> list[CoarseLevel]:
     """Grid sequencing before the fine grid: settle on the coarser grids `build(nx)` makes, coarsest first,
@@ -247,7 +254,7 @@ def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: 
             return end.value
 
 
-def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, levels: int = DEFAULT_LEVELS,
                         cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
                         max_steps: int = COARSE_MAX_STEPS, stop: Callable[[], bool] = lambda: False,
                         pseudo_s: Optional[list] = None):
@@ -333,15 +340,15 @@ class SettleCheck:
 class GridSequence:
     """Grid sequencing a step at a time, for a flow that is stepped live (the page's settle mode).
 
-    The coarse grids `build(nx)` makes (coarse_nx: halvings of the fine grid, coarsest first; by default one,
-    as `shockslate run --until steady --settle` uses) start from the
+    The coarse grids `build(nx)` makes (coarse_nx: halvings of the fine grid, coarsest first; by default
+    DEFAULT_LEVELS, as `shockslate run --until steady --settle` uses) start from the
     scenario's initial state and settle in turn (settle_coarse_steps); the last hands its flow to `fine`, the
     user's own grid, which is only changed then. `step()` takes one step of whichever grid is current: a coarse
     step while levels remain, then nothing (done is True; the caller goes on with a LocalStepper on `fine`).
     `sim` is the grid the flow is on now, `level` its number (1 = coarsest) of `levels`.
     """
 
-    def __init__(self, build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+    def __init__(self, build: Callable[[int], Simulation], fine: Simulation, levels: int = DEFAULT_LEVELS,
                  cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
                  max_steps: int = COARSE_MAX_STEPS):
         self.fine = fine
