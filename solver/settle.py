@@ -7,8 +7,10 @@ Two published convergence accelerators of time-marching solvers:
   the update is conservative, so where the flow is steady (every cell's flux balance zero) it is the same
   steady state as time-accurate stepping reaches; the states on the way there are no time history.
 * Grid sequencing (e.g. Blazek, Computational Fluid Dynamics: Principles and Applications, ch. 9): settle
-  first on a grid twice as coarse (a quarter of the cells, steps twice as long), carry the flow over to
-  the fine grid by interpolation and settle there from it.
+  first on grids four and two times as coarse (DEFAULT_LEVELS; a sixteenth and a quarter of the cells, steps
+  four and two times as long), carry the flow over to the next grid by interpolation and settle there from
+  it. The hand-over also sets the new grid's reservoir feed to the flow beside it (settle_feed): a feed left
+  at rest beside a flowing chamber was the largest transient on the fine grid.
 
 `LocalStepper.step` takes one step and keeps `sim.time_s` as a pseudo time: it advances by the step
 that, applied to every cell, would have made the same total density change (a residual-weighted mean of

@@ -110,12 +110,13 @@ def nozzle_doc(nx: int = 96) -> dict:
 
 
 def settle_to_steady(doc: dict, settled: bool, tolerance: float = 1.0e-3, x_max_m: float = math.inf,
-                     max_steps: int = 60_000):
+                     max_steps: int = 60_000, levels: int = 2):
     """Run a scenario to the criterion settle.SettleCheck, by settle mode or by time-accurate steps."""
     s = parse_scenario(doc)
     sim = build_simulation(s)
     if settled:
-        settle.settle_coarse(lambda n: build_simulation(s, n), sim, levels=2, x_max_m=x_max_m)
+        done = settle.settle_coarse(lambda n: build_simulation(s, n), sim, levels=levels, x_max_m=x_max_m)
+        assert [lv.nx for lv in done] == settle.coarse_nx(sim.domain.nx, levels)[:-1]
     stepper = settle.LocalStepper(sim) if settled else None
     check = settle.SettleCheck(sim, to_stations(s), x_max_m=x_max_m, tolerance=tolerance)
     for _ in range(max_steps):
@@ -143,6 +144,17 @@ def test_settled_duct_is_the_time_accurate_steady_state(duct_runs):
         assert b.mass_flow_kg_s == pytest.approx(a.mass_flow_kg_s, rel=0.005)
         assert b.thrust_n == pytest.approx(a.thrust_n, rel=0.005)
     assert settled.domain.nx == accurate.domain.nx  # the end state is on the scenario's own grid
+
+
+def test_three_grid_levels_end_at_the_time_accurate_steady_state():
+    # the default of run --until steady --settle and the benchmark: coarse grids of 40 and 80 before 160 [B]
+    assert settle.DEFAULT_LEVELS == 3 and settle.coarse_nx(160, settle.DEFAULT_LEVELS) == [40, 80, 160]
+    _, _, acc = settle_to_steady(duct_doc(160), settled=False)
+    _, sim, sett = settle_to_steady(duct_doc(160), settled=True, levels=settle.DEFAULT_LEVELS)
+    for a, b in zip(acc, sett):  # [J]: the same steady state; the issue's 0.5 %
+        assert b.mass_flow_kg_s == pytest.approx(a.mass_flow_kg_s, rel=0.005)
+        assert b.thrust_n == pytest.approx(a.thrust_n, rel=0.005)
+    assert sim.domain.nx == 160 and sim.floors_total == 0
 
 
 def test_settled_duct_follows_the_area_mach_relation(duct_runs):
