@@ -80,7 +80,10 @@ class LocalStepper:
             raise ValueError(f"cfl = {cfl!r} is outside the allowed range 0 to {CFL_MAX:g} for settle mode")
         self._cfl = None if cfl is None else float(cfl)
         self.dt = np.zeros(sim.kind.shape)
+        self._rate = np.zeros(sim.kind.shape)  # scratch of local_time_steps
         self._cut_of: object = None
+        self._feed_of: object = None
+        self._feed_shape: tuple = ()
         #: the residual figure's rate sum of the last step: sum over gas cells of |d rho| / dt (kg/m^3/s)
         self.rate_sum = math.nan
 
@@ -91,9 +94,12 @@ class LocalStepper:
         j, i = self.sim._feed_j, self.sim._feed_i
         if j.size == 0:
             return 0.0
-        ny, nx = self.dt.shape
-        return float(max(self.dt[np.clip(j + dj, 0, ny - 1), np.clip(i + di, 0, nx - 1)].max()
-                         for dj, di in ((1, 0), (-1, 0), (0, 1), (0, -1))))
+        if self._feed_of is not j or self._feed_shape != self.dt.shape:  # flat indices of the neighbours, once
+            ny, nx = self._feed_shape = self.dt.shape
+            self._feed_of = j
+            self._feed_beside = np.concatenate([np.clip(j + dj, 0, ny - 1) * nx + np.clip(i + di, 0, nx - 1)
+                                                for dj, di in ((1, 0), (-1, 0), (0, 1), (0, -1))])
+        return float(self.dt.ravel()[self._feed_beside].max())
 
     @property
     def cfl(self) -> float:
@@ -108,11 +114,13 @@ class LocalStepper:
         inv_dx = 1.0 / sim.domain.dx_m
         if self.dt.shape != sim.kind.shape:  # the resolution changed
             self.dt = np.zeros(sim.kind.shape)
+        if self._rate.shape != sim.kind.shape:
+            self._rate = np.zeros(sim.kind.shape)
         if self._cut_of is not sim._cut_cells:  # the sketch changed
             self._cut_of = sim._cut_cells
             self._cut_j = sim._cut_cells.j + GHOST
             self._cut_i = sim._cut_cells.i + GHOST
-        settle_kernels.local_time_steps(sim.W, sim.kind, self.cfl, inv_dx, gamma, self.dt)
+        settle_kernels.local_time_steps(sim.W, sim.kind, self.cfl, inv_dx, gamma, self.dt, self._rate)
         dt_cut = 0.0
         if self._cut_j.size:
             h = self.dt[self._cut_j, self._cut_i]
