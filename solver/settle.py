@@ -21,9 +21,11 @@ is a hold over a transit of pseudo time.
 from __future__ import annotations
 
 import math
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Callable, Optional, Sequence
 
+import numba
 import numpy as np
 
 from . import kernels, settle_kernels
@@ -47,6 +49,11 @@ COARSE_TOLERANCE = 1.0e-2
 #: ... or once it has stopped falling: the smallest figure over the last STALL_TRANSITS transit times (of pseudo
 #: time) is no smaller than STALL_GAIN times that of the window before (common practice, no source).
 STALL_TRANSITS, STALL_GAIN = 1.0, 0.9
+#: Coarse grids of fewer cells than this step on one kernel thread: a step there is a few dozen microseconds of
+#: work a kernel, so the second thread gains little and, on a shared machine, every parallel region waits for a
+#: descheduled thread (nozzle_sea_level's 80 and 160 grids, two threads, load average 3: 783 coarse steps 3.1 s,
+#: one thread: see the commit; common practice, no source for the figure).
+SERIAL_CELLS = 10_000
 #: A coarse level takes at most this many steps.
 COARSE_MAX_STEPS = 20_000
 #: Settle mode steps at this multiple of the scenario's Courant number (at most numerics.CFL_MAX): time accuracy
@@ -287,6 +294,21 @@ def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, le
     return done
 
 
+@contextmanager
+def _threads_for(sim: Simulation):
+    """One kernel thread for a grid of fewer than SERIAL_CELLS cells (the caller's count back afterwards, so
+    whatever runs between two coarse steps keeps its own)."""
+    if sim.cells >= SERIAL_CELLS:
+        yield
+        return
+    before = numba.get_num_threads()
+    numba.set_num_threads(1)
+    try:
+        yield
+    finally:
+        numba.set_num_threads(before)
+
+
 def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_steps: int,
                   stop: Callable[[], bool], pseudo_s: Optional[list] = None):
     """Settle one coarse level, yielding after every step; returns its CoarseLevel."""
@@ -299,10 +321,11 @@ def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_st
         if stop():
             reason = "stopped"
             break
-        dt = stepper.step()
+        with _threads_for(sim):
+            dt = stepper.step()
+            fig = region.after_step(stepper.dt)
         if pseudo_s is not None:
             pseudo_s[0] = dt
-        fig = region.after_step(stepper.dt)
         if fig < tolerance:
             reason = "settled"
             break

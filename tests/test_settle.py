@@ -268,6 +268,32 @@ def test_hand_over_sets_the_feed_to_the_flow_beside_it():
     assert t_total == pytest.approx(T0, rel=1e-9)
 
 
+def test_coarse_grids_step_on_one_thread_and_give_the_count_back(monkeypatch):
+    # small grids step on one kernel thread (settle.SERIAL_CELLS; common practice, no source), and the caller's
+    # thread count is back between coarse steps, for whatever it runs in between
+    if numba.config.NUMBA_NUM_THREADS < 2:
+        pytest.skip("needs two kernel threads")
+    s = parse_scenario(duct_doc())
+    fine = build_simulation(s)
+    seen = []
+    real = settle.LocalStepper.step
+
+    def spy(self):
+        seen.append(numba.get_num_threads())
+        return real(self)
+
+    monkeypatch.setattr(settle.LocalStepper, "step", spy)
+    numba.set_num_threads(2)
+    try:
+        steps = settle.settle_coarse_steps(lambda n: build_simulation(s, n), fine, levels=2)
+        for _ in range(5):
+            next(steps)
+            assert numba.get_num_threads() == 2
+        assert seen == [1] * 5 and build_simulation(s, 40).cells < settle.SERIAL_CELLS
+    finally:
+        numba.set_num_threads(1)
+
+
 def test_coarse_levels_and_bad_input():
     assert settle.coarse_nx(320, 2) == [160, 320]
     assert settle.coarse_nx(320, 3) == [80, 160, 320]
