@@ -41,8 +41,10 @@ SETTLE_SCENARIO = "nozzle_sea_level"
 SETTLE_TOLERANCE = 1.0e-2
 SETTLE_MASS_TOLERANCE = 0.005
 #: The time-accurate run stops at this multiple of the settle run's wall time if it has not settled by then:
-#: the speedup is then at least the cap (reported as capped), and the benchmark ends in bounded time.
-SETTLE_CAP = 8.0
+#: the speedup is then at least the cap (reported as capped), and the benchmark ends in bounded time. Well above
+#: the measured speedup (8.0 capped, 2026-12-03), so that the time-accurate run reaches its own steady state and the
+#: station figures compare two steady states.
+SETTLE_CAP = 20.0
 
 
 def _baseline_module():
@@ -220,7 +222,8 @@ def _settle_run(s, nx, x_max: float, check):
     from shockslate.solver.scenario import build_simulation
 
     fast = build_simulation(s, nx)
-    levels = yield from settle.settle_coarse_steps(lambda n: build_simulation(s, n), fast, x_max_m=x_max)
+    levels = yield from settle.settle_coarse_steps(lambda n: build_simulation(s, n), fast, settle.DEFAULT_LEVELS,
+                                                   x_max_m=x_max)
     stepper, chk = settle.LocalStepper(fast), check(fast)
     while True:
         stepper.step()

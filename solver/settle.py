@@ -7,8 +7,10 @@ Two published convergence accelerators of time-marching solvers:
   the update is conservative, so where the flow is steady (every cell's flux balance zero) it is the same
   steady state as time-accurate stepping reaches; the states on the way there are no time history.
 * Grid sequencing (e.g. Blazek, Computational Fluid Dynamics: Principles and Applications, ch. 9): settle
-  first on a grid twice as coarse (a quarter of the cells, steps twice as long), carry the flow over to
-  the fine grid by interpolation and settle there from it.
+  first on grids four and two times as coarse (DEFAULT_LEVELS; a sixteenth and a quarter of the cells, steps
+  four and two times as long), carry the flow over to the next grid by interpolation and settle there from
+  it. The hand-over also sets the new grid's reservoir feed to the flow beside it (settle_feed): a feed left
+  at rest beside a flowing chamber was the largest transient on the fine grid.
 
 `LocalStepper.step` takes one step and keeps `sim.time_s` as a pseudo time: it advances by the step
 that, applied to every cell, would have made the same total density change (a residual-weighted mean of
@@ -19,9 +21,11 @@ is a hold over a transit of pseudo time.
 from __future__ import annotations
 
 import math
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Callable, Optional, Sequence
 
+import numba
 import numpy as np
 
 from . import kernels, settle_kernels
@@ -32,6 +36,11 @@ from .simulation import GHOST, Simulation, _bilinear
 
 #: Coarse grids of grid sequencing: at most this many halvings of the resolution ...
 MAX_LEVELS = 3
+#: Grid levels of `shockslate run --until steady --settle` and the benchmark: three (two coarse grids) where the
+#: grid allows. On nozzle_sea_level at 320 cells across (NUMBA_NUM_THREADS=1, /tmp script over settle_coarse and
+#: LocalStepper to SettleCheck): two levels took 796 steps at 160 and 1097 at 320; three took 369 at 80, 414 at 160
+#: and 520 at 320, about half the work in fine-step equivalents.
+DEFAULT_LEVELS = 3
 #: ... and never fewer cells across x than this on the coarsest one.
 MIN_COARSE_NX = 40
 #: A coarse level hands over once its residual figure is below this (fraction of the mass changing per
@@ -40,6 +49,11 @@ COARSE_TOLERANCE = 1.0e-2
 #: ... or once it has stopped falling: the smallest figure over the last STALL_TRANSITS transit times (of pseudo
 #: time) is no smaller than STALL_GAIN times that of the window before (common practice, no source).
 STALL_TRANSITS, STALL_GAIN = 1.0, 0.9
+#: Coarse grids of fewer cells than this step on one kernel thread: a step there is a few dozen microseconds of
+#: work a kernel, so the second thread gains little and, on a shared machine, every parallel region waits for a
+#: descheduled thread (nozzle_sea_level's 80 and 160 grids, two threads, load average 3: 783 coarse steps 3.1 s,
+#: one thread: see the commit; common practice, no source for the figure).
+SERIAL_CELLS = 10_000
 #: A coarse level takes at most this many steps.
 COARSE_MAX_STEPS = 20_000
 #: Settle mode steps at this multiple of the scenario's Courant number (at most numerics.CFL_MAX): time accuracy
@@ -73,7 +87,10 @@ class LocalStepper:
             raise ValueError(f"cfl = {cfl!r} is outside the allowed range 0 to {CFL_MAX:g} for settle mode")
         self._cfl = None if cfl is None else float(cfl)
         self.dt = np.zeros(sim.kind.shape)
+        self._rate = np.zeros(sim.kind.shape)  # scratch of local_time_steps
         self._cut_of: object = None
+        self._feed_of: object = None
+        self._feed_shape: tuple = ()
         #: the residual figure's rate sum of the last step: sum over gas cells of |d rho| / dt (kg/m^3/s)
         self.rate_sum = math.nan
 
@@ -84,9 +101,12 @@ class LocalStepper:
         j, i = self.sim._feed_j, self.sim._feed_i
         if j.size == 0:
             return 0.0
-        ny, nx = self.dt.shape
-        return float(max(self.dt[np.clip(j + dj, 0, ny - 1), np.clip(i + di, 0, nx - 1)].max()
-                         for dj, di in ((1, 0), (-1, 0), (0, 1), (0, -1))))
+        if self._feed_of is not j or self._feed_shape != self.dt.shape:  # flat indices of the neighbours, once
+            ny, nx = self._feed_shape = self.dt.shape
+            self._feed_of = j
+            self._feed_beside = np.concatenate([np.clip(j + dj, 0, ny - 1) * nx + np.clip(i + di, 0, nx - 1)
+                                                for dj, di in ((1, 0), (-1, 0), (0, 1), (0, -1))])
+        return float(self.dt.ravel()[self._feed_beside].max())
 
     @property
     def cfl(self) -> float:
@@ -101,11 +121,13 @@ class LocalStepper:
         inv_dx = 1.0 / sim.domain.dx_m
         if self.dt.shape != sim.kind.shape:  # the resolution changed
             self.dt = np.zeros(sim.kind.shape)
+        if self._rate.shape != sim.kind.shape:
+            self._rate = np.zeros(sim.kind.shape)
         if self._cut_of is not sim._cut_cells:  # the sketch changed
             self._cut_of = sim._cut_cells
             self._cut_j = sim._cut_cells.j + GHOST
             self._cut_i = sim._cut_cells.i + GHOST
-        settle_kernels.local_time_steps(sim.W, sim.kind, self.cfl, inv_dx, gamma, self.dt)
+        settle_kernels.local_time_steps(sim.W, sim.kind, self.cfl, inv_dx, gamma, self.dt, self._rate)
         dt_cut = 0.0
         if self._cut_j.size:
             h = self.dt[self._cut_j, self._cut_i]
@@ -129,9 +151,11 @@ class LocalStepper:
             floors += int(sim._row_floors.sum()) + int(sim._cut_out[1])
         change, rate_sum, _ = settle_kernels.density_rates(sim.U, sim.U0, sim.kind, self.dt, 0, sim.domain.nx)
         self.rate_sum = rate_sum
-        positive = self.dt[self.dt > 0.0]
-        dt_min = float(positive.min()) if positive.size else 0.0
-        pseudo = change / rate_sum if rate_sum > 0.0 and change > 0.0 else dt_min
+        if rate_sum > 0.0 and change > 0.0:
+            pseudo = change / rate_sum
+        else:  # nothing changed: the smallest step (a boolean pick over the grid, so only here)
+            positive = self.dt[self.dt > 0.0]
+            pseudo = float(positive.min()) if positive.size else 0.0
         sim.finish_step(pseudo, floors)
         return pseudo
 
@@ -197,6 +221,22 @@ def prolong(coarse: Simulation, fine: Simulation) -> None:
     fluid = fine.mask == CellKind.FLUID
     ok = fluid & np.all([np.isfinite(q) for q in new], axis=0) & (new[0] > 0.0) & (new[3] > 0.0)
     fine.set_primitive(*(np.where(ok, q, m) for q, m in zip(new, mine)))
+    settle_feed(fine)
+
+
+def settle_feed(sim: Simulation) -> None:
+    """Move the reservoir's feed cells all the way to the stagnation state expanded to the velocity of the gas
+    beside them (kernels.feed_reservoir_edge with relax 1), as they stand once the flow is steady.
+
+    A freshly built grid holds its feed at rest; beside a flow carried over from a coarser grid such a feed
+    passes gas through an unsteady expansion that loses total pressure, and its relaxation takes a few hundred
+    local steps, in which the chamber pressure fell by 4 % and the throat mass flow by 10 % on nozzle_sea_level
+    (measured): the largest transient of the hand-over."""
+    if sim._feed_j.size == 0:
+        return
+    res = sim._held_prim[CellKind.RESERVOIR]
+    kernels.feed_reservoir_edge(sim.U, sim.W, sim.kind, sim._feed_j, sim._feed_i, res[0], res[3],
+                                sim.setup.gas.gamma, 1.0)
 
 
 @dataclass
@@ -217,7 +257,7 @@ def interior_end_m(exit_station: Optional[Station]) -> float:
     return max(exit_station.start_m[0], exit_station.end_m[0])
 
 
-def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: int = DEFAULT_LEVELS,
                   cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
                   max_steps: int = COARSE_MAX_STEPS, stop: Callable[[], bool] = lambda: False) -> list[CoarseLevel]:
     """Grid sequencing before the fine grid: settle on the coarser grids `build(nx)` makes, coarsest first,
@@ -231,7 +271,7 @@ def settle_coarse(build: Callable[[int], Simulation], fine: Simulation, levels: 
             return end.value
 
 
-def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, levels: int = DEFAULT_LEVELS,
                         cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
                         max_steps: int = COARSE_MAX_STEPS, stop: Callable[[], bool] = lambda: False,
                         pseudo_s: Optional[list] = None):
@@ -254,6 +294,21 @@ def settle_coarse_steps(build: Callable[[int], Simulation], fine: Simulation, le
     return done
 
 
+@contextmanager
+def _threads_for(sim: Simulation):
+    """One kernel thread for a grid of fewer than SERIAL_CELLS cells (the caller's count back afterwards, so
+    whatever runs between two coarse steps keeps its own)."""
+    if sim.cells >= SERIAL_CELLS:
+        yield
+        return
+    before = numba.get_num_threads()
+    numba.set_num_threads(1)
+    try:
+        yield
+    finally:
+        numba.set_num_threads(before)
+
+
 def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_steps: int,
                   stop: Callable[[], bool], pseudo_s: Optional[list] = None):
     """Settle one coarse level, yielding after every step; returns its CoarseLevel."""
@@ -266,10 +321,11 @@ def _settle_level(sim: Simulation, cfl, tolerance: float, x_max_m: float, max_st
         if stop():
             reason = "stopped"
             break
-        dt = stepper.step()
+        with _threads_for(sim):
+            dt = stepper.step()
+            fig = region.after_step(stepper.dt)
         if pseudo_s is not None:
             pseudo_s[0] = dt
-        fig = region.after_step(stepper.dt)
         if fig < tolerance:
             reason = "settled"
             break
@@ -317,15 +373,15 @@ class SettleCheck:
 class GridSequence:
     """Grid sequencing a step at a time, for a flow that is stepped live (the page's settle mode).
 
-    The coarse grids `build(nx)` makes (coarse_nx: halvings of the fine grid, coarsest first; by default one,
-    as `shockslate run --until steady --settle` uses) start from the
+    The coarse grids `build(nx)` makes (coarse_nx: halvings of the fine grid, coarsest first; by default
+    DEFAULT_LEVELS, as `shockslate run --until steady --settle` uses) start from the
     scenario's initial state and settle in turn (settle_coarse_steps); the last hands its flow to `fine`, the
     user's own grid, which is only changed then. `step()` takes one step of whichever grid is current: a coarse
     step while levels remain, then nothing (done is True; the caller goes on with a LocalStepper on `fine`).
     `sim` is the grid the flow is on now, `level` its number (1 = coarsest) of `levels`.
     """
 
-    def __init__(self, build: Callable[[int], Simulation], fine: Simulation, levels: int = 2,
+    def __init__(self, build: Callable[[int], Simulation], fine: Simulation, levels: int = DEFAULT_LEVELS,
                  cfl: Optional[float] = None, tolerance: float = COARSE_TOLERANCE, x_max_m: float = math.inf,
                  max_steps: int = COARSE_MAX_STEPS):
         self.fine = fine

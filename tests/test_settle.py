@@ -110,12 +110,13 @@ def nozzle_doc(nx: int = 96) -> dict:
 
 
 def settle_to_steady(doc: dict, settled: bool, tolerance: float = 1.0e-3, x_max_m: float = math.inf,
-                     max_steps: int = 60_000):
+                     max_steps: int = 60_000, levels: int = 2):
     """Run a scenario to the criterion settle.SettleCheck, by settle mode or by time-accurate steps."""
     s = parse_scenario(doc)
     sim = build_simulation(s)
     if settled:
-        settle.settle_coarse(lambda n: build_simulation(s, n), sim, levels=2, x_max_m=x_max_m)
+        done = settle.settle_coarse(lambda n: build_simulation(s, n), sim, levels=levels, x_max_m=x_max_m)
+        assert [lv.nx for lv in done] == settle.coarse_nx(sim.domain.nx, levels)[:-1]
     stepper = settle.LocalStepper(sim) if settled else None
     check = settle.SettleCheck(sim, to_stations(s), x_max_m=x_max_m, tolerance=tolerance)
     for _ in range(max_steps):
@@ -143,6 +144,17 @@ def test_settled_duct_is_the_time_accurate_steady_state(duct_runs):
         assert b.mass_flow_kg_s == pytest.approx(a.mass_flow_kg_s, rel=0.005)
         assert b.thrust_n == pytest.approx(a.thrust_n, rel=0.005)
     assert settled.domain.nx == accurate.domain.nx  # the end state is on the scenario's own grid
+
+
+def test_three_grid_levels_end_at_the_time_accurate_steady_state():
+    # the default of run --until steady --settle and the benchmark: coarse grids of 40 and 80 before 160 [B]
+    assert settle.DEFAULT_LEVELS == 3 and settle.coarse_nx(160, settle.DEFAULT_LEVELS) == [40, 80, 160]
+    _, _, acc = settle_to_steady(duct_doc(160), settled=False)
+    _, sim, sett = settle_to_steady(duct_doc(160), settled=True, levels=settle.DEFAULT_LEVELS)
+    for a, b in zip(acc, sett):  # [J]: the same steady state; the issue's 0.5 %
+        assert b.mass_flow_kg_s == pytest.approx(a.mass_flow_kg_s, rel=0.005)
+        assert b.thrust_n == pytest.approx(a.thrust_n, rel=0.005)
+    assert sim.domain.nx == 160 and sim.floors_total == 0
 
 
 def test_settled_duct_follows_the_area_mach_relation(duct_runs):
@@ -226,6 +238,60 @@ def test_settle_steps_relax_the_reservoir_feed_over_the_chambers_local_step(monk
     stages = len(sim.setup.numerics.tableau.stages)
     assert seen == [pytest.approx(sim.feed_relax(beside, stages), rel=1e-12)] * stages
     assert 0.0 < seen[0] < 0.5  # a fraction of the way, not the held state at once
+
+
+def test_hand_over_sets_the_feed_to_the_flow_beside_it():
+    # A fresh fine grid holds its feed at rest; after the hand-over the feed cells carry the reservoir's stagnation
+    # state expanded to the velocity of the gas beside them, as in the steady state (on nozzle_sea_level the feed
+    # at rest cost about 2300 of 3379 fine-grid settle steps: the chamber lost 4 % pressure while it relaxed).
+    s = parse_scenario(duct_doc())
+    coarse = build_simulation(s, 40)
+    stepper = settle.LocalStepper(coarse)
+    for _ in range(300):
+        stepper.step()
+    fine = build_simulation(s)
+    settle.prolong(coarse, fine)
+    j, i = fine._feed_j, fine._feed_i
+    rho, u, v, p = (fine.W[c][j, i] for c in range(4))
+    beside = []
+    for n in range(j.size):
+        near = [(j[n] + dj, i[n] + di) for dj, di in ((1, 0), (-1, 0), (0, 1), (0, -1))
+                if fine.kind[j[n] + dj, i[n] + di] == 0]
+        beside.append(np.mean([fine.W[1][q] for q in near]))
+    assert np.all(np.array(beside) > 10.0)  # the gas beside the feed moves ...
+    assert u == pytest.approx(np.array(beside), rel=1e-12)  # ... and so does the feed, at its speed
+    gamma = 1.4
+    mach_sq = (u * u + v * v) / (gamma * p / rho)
+    # [N]: isentropic total pressure and total temperature of the feed are the reservoir's
+    assert p * (1.0 + 0.5 * (gamma - 1.0) * mach_sq) ** (gamma / (gamma - 1.0)) == pytest.approx(P0, rel=1e-9)
+    t_total = p / (rho * AIR.r_j_kg_k) * (1.0 + 0.5 * (gamma - 1.0) * mach_sq)
+    assert t_total == pytest.approx(T0, rel=1e-9)
+
+
+def test_coarse_grids_step_on_one_thread_and_give_the_count_back(monkeypatch):
+    # small grids step on one kernel thread (settle.SERIAL_CELLS; common practice, no source), and the caller's
+    # thread count is back between coarse steps, for whatever it runs in between
+    if numba.config.NUMBA_NUM_THREADS < 2:
+        pytest.skip("needs two kernel threads")
+    s = parse_scenario(duct_doc())
+    fine = build_simulation(s)
+    seen = []
+    real = settle.LocalStepper.step
+
+    def spy(self):
+        seen.append(numba.get_num_threads())
+        return real(self)
+
+    monkeypatch.setattr(settle.LocalStepper, "step", spy)
+    numba.set_num_threads(2)
+    try:
+        steps = settle.settle_coarse_steps(lambda n: build_simulation(s, n), fine, levels=2)
+        for _ in range(5):
+            next(steps)
+            assert numba.get_num_threads() == 2
+        assert seen == [1] * 5 and build_simulation(s, 40).cells < settle.SERIAL_CELLS
+    finally:
+        numba.set_num_threads(1)
 
 
 def test_coarse_levels_and_bad_input():
