@@ -311,7 +311,7 @@ def _live_settle_run(session, check):
 
 def live_settle_phase(scenario: str = "nozzle_sea_level") -> dict:
     """Wall time to steady of the page's settle mode (server.session.Session, the code the runner steps) on the
-    scenario at its own resolution, with grid sequencing (settle_levels 2, what the page does) and without
+    scenario at its own resolution, with grid sequencing (settle.DEFAULT_LEVELS, what the page does) and without
     (settle_levels 1), one run each in alternating bursts of SETTLE_BURST_S in this process, so the load of a
     shared machine hits both alike. Steady: the criterion of `shockslate bench`'s settle_speedup
     (solver_bench.SETTLE_TOLERANCE inside the nozzle for 50 steps, station mass flows within

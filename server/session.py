@@ -33,7 +33,7 @@ from shockslate.solver.kinds import HELD_KINDS, CellKind
 from shockslate.solver.gas import PRESETS, Gas
 from shockslate.solver.geometry import SampledWalls, resample_walls, sample_walls
 from shockslate.solver.shapes import Sketch, shape_from_dict
-from shockslate.solver.settle import GridSequence, LocalStepper, interior_end_m
+from shockslate.solver.settle import DEFAULT_LEVELS, GridSequence, LocalStepper, interior_end_m
 from shockslate.solver.simulation import Simulation
 from shockslate.solver.validation import Refused
 
@@ -232,8 +232,8 @@ class Session:
         #: settle mode's grid sequencing (coarse grids first, then the flow's own grid), begun when settle is
         #: switched on and with each new flow while it is on; the user's grid and sketch are never changed by it
         self._sequence: GridSequence | None = None
-        #: its grid levels: 2 (one coarse grid, as `run --until steady --settle`); 1 settles on the flow's grid alone
-        self.settle_levels = 2
+        #: its grid levels: settle.DEFAULT_LEVELS (as `run --until steady --settle`); 1 settles on the flow's grid alone
+        self.settle_levels = DEFAULT_LEVELS
         self._sequence_note = ""
         self._set_origin(scenario)
 

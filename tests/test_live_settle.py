@@ -170,7 +170,9 @@ def test_page_names_the_grid_level_and_keeps_the_end_state_notice(page):
     text = page.locator("#settle-notice").inner_text()
     assert "end state" in text and "not the true time history" in text and "pseudo time" in text  # kept
     assert f"your grid of {nx} × " in text
-    page.wait_for_function("/Grid level 2 of 2: your grid/.test(document.querySelector('#settle-grid').textContent)",
+    levels = len(settle.coarse_nx(nx, settle.DEFAULT_LEVELS))  # 3 at the built-in's 320 cells: 80, 160, 320
+    page.wait_for_function(f"/Grid level {levels} of {levels}: your grid/"
+                           ".test(document.querySelector('#settle-grid').textContent)",
                            timeout=120_000)  # then the user's own grid, named as such
     assert page.evaluate("window.shockslate.scenario.domain.nx") == nx  # the resolution stays the user's
     page.evaluate("window.shockslate.send('pause')")
