@@ -434,8 +434,11 @@ def _y_face_fluxes_any(W, wall_nx, wall_ny, Gy, gamma, limiter, flux, hll_y):
 
 
 @njit(**_PARALLEL)
-def _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, all_hll, hll_x):
-    """_x_face_fluxes_any for the van Leer limiters with HLLC (all_hll False) or HLL (True), branch-free."""
+def _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, all_hll, hll_x, mid_plain):
+    """_x_face_fluxes_any for the van Leer limiters with HLLC (all_hll False) or HLL (True), branch-free. A row
+    whose faces 2 .. nx - 2 have no wall cell in their stencils (mid_plain, face_paths; a closed box's side walls
+    touch only the two faces at each end) runs all its faces without the wall normals, then the two at each end
+    again with them (a loop that starts anywhere but 0 did not vectorise: face_paths)."""
     ny = Fx.shape[1]
     nfaces = Fx.shape[2]
     for j in prange(ny):
@@ -451,7 +454,27 @@ def _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, all_hll, hll_x):
         f1 = Fx[1, j]
         f2 = Fx[2, j]
         f3 = Fx[3, j]
-        for f in range(nfaces):
+        if mid_plain[j]:
+            for f in range(nfaces):
+                a = f
+                b = f + 1
+                c = f + 2
+                d = f + 3
+                mk = sw[b] | sw[c]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, m1, m2, m3 = _face_van_leer(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
+                                                v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
+                                                0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, gamma, shock_face, hll)
+                f0[f] = m0
+                f1[f] = m1
+                f2[f] = m2
+                f3[f] = m3
+            ends = (0, 1, nfaces - 2, nfaces - 1)
+        else:
+            ends = (0, 1, 2, 3)
+        for n in range(4 if mid_plain[j] else nfaces):
+            f = ends[n] if mid_plain[j] else n
             a = f
             b = f + 1
             c = f + 2
@@ -541,17 +564,20 @@ def uses_van_leer_sweeps(limiter: int, flux: int) -> bool:
     return limiter in (LIM_VAN_LEER, LIM_VAN_LEER_SHOCK_MINMOD) and flux in (FLUX_HLLC, FLUX_HLL)
 
 
-def x_face_fluxes(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x):
+def x_face_fluxes(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x, paths=None):
     """Fluxes through every x-face of the interior rows.
 
     hll_x (padded, uint8) marks cells whose x-faces take the HLL flux instead of `flux` (bit MARK_HLL) or the
     minmod limiter instead of `limiter` (bit MARK_MINMOD; see `shock_switch`); a face switches when either cell
     beside it is marked. The van Leer limiters with HLLC or HLL run a kernel with the limiter fixed (the per-face
-    choices by selection, so its loop vectorises); every other pair runs the general kernel.
+    choices by selection, so its loop vectorises), which runs rows far from walls (paths, face_paths.build of these
+    wall normals; built here when not given) without reading the wall normals; every other pair runs the general
+    kernel.
     The same numbers either way (tests/test_face_paths.py).
     """
     if uses_van_leer_sweeps(limiter, flux):
-        _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, flux == FLUX_HLL, hll_x)
+        fp = face_paths.build(wall_nx, wall_ny) if paths is None else paths
+        _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, flux == FLUX_HLL, hll_x, fp.x_rows_mid_plain)
     else:
         _x_face_fluxes_any(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x)
 

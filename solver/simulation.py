@@ -476,7 +476,8 @@ class Simulation:
         feed_relax: the fraction of the way the reservoir's feed cells move to their held state this stage."""
         kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma,
                                     feed_relax)
-        kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
+        kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x,
+                              self._face_paths)
         kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y,
                               self._face_paths)
         cut_cells.reconstruct(self._cut_cells, self.W, self.kind, self.Fx, self.Gy, self._hll_x, self._hll_y, gamma,

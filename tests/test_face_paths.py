@@ -413,7 +413,8 @@ def _reference_fluxes(sim, lim, flux, hll_x, hll_y):
 def _new_fluxes(sim, lim, flux, hll_x, hll_y):
     Fx = np.full_like(sim.Fx, np.nan)
     Gy = np.full_like(sim.Gy, np.nan)
-    kernels.x_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Fx, sim.setup.gas.gamma, lim, flux, hll_x)
+    kernels.x_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Fx, sim.setup.gas.gamma, lim, flux, hll_x,
+                          sim._face_paths)
     kernels.y_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Gy, sim.setup.gas.gamma, lim, flux, hll_y,
                           sim._face_paths)
     return Fx, Gy
@@ -423,6 +424,7 @@ def test_the_nozzle_holds_every_kind_of_face(nozzle):
     # The comparisons below mean something only if the grid has both paths, cut cells, held cells and shocks.
     paths = nozzle._face_paths
     assert paths.y_rows_plain.any() and not paths.y_rows_plain.all()
+    assert paths.x_rows_mid_plain.any() and not paths.x_rows_mid_plain.all()
     assert paths.x_plain.any() and not paths.x_plain.all()
     assert paths.y_plain.any() and not paths.y_plain.all()
     assert 0.0 < paths.general_face_share < 0.5
@@ -562,3 +564,4 @@ def test_face_runs_of_a_closed_box():
     assert list(paths.y_plain[paths.y_ptr[3]:paths.y_ptr[4]]) == [1]
     # face rows 0, 1 and ny - 1, ny read a ghost row of walls; the y sweep skips the wall normals on the others
     assert list(paths.y_rows_plain) == [0, 0] + [1] * (ny - 3) + [0, 0]
+    assert list(paths.x_rows_mid_plain) == [1] * ny  # the side walls touch only faces 0, 1 and nx - 1, nx
