@@ -470,26 +470,39 @@ def _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, all_hll, hll_x, mid_
                 f1[f] = m1
                 f2[f] = m2
                 f3[f] = m3
-            ends = (0, 1, nfaces - 2, nfaces - 1)
-        else:
-            ends = (0, 1, 2, 3)
-        for n in range(4 if mid_plain[j] else nfaces):
-            f = ends[n] if mid_plain[j] else n
-            a = f
-            b = f + 1
-            c = f + 2
-            d = f + 3
-            mk = sw[b] | sw[c]
-            shock_face = (mk & MARK_MINMOD) != 0
-            hll = all_hll or (mk & MARK_HLL) != 0
-            m0, m1, m2, m3 = _face_van_leer(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
-                                            v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
-                                            mx[a], my[a], mx[b], my[b], mx[c], my[c],
-                                            mx[d], my[d], gamma, shock_face, hll)
-            f0[f] = m0
-            f1[f] = m1
-            f2[f] = m2
-            f3[f] = m3
+            for f in (0, 1, nfaces - 2, nfaces - 1):
+                a = f
+                b = f + 1
+                c = f + 2
+                d = f + 3
+                mk = sw[b] | sw[c]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, m1, m2, m3 = _face_van_leer(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
+                                                v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
+                                                mx[a], my[a], mx[b], my[b], mx[c], my[c],
+                                                mx[d], my[d], gamma, shock_face, hll)
+                f0[f] = m0
+                f1[f] = m1
+                f2[f] = m2
+                f3[f] = m3
+        else:  # every face through the general stencil, in one loop from face 0 (so that it vectorises)
+            for f in range(nfaces):
+                a = f
+                b = f + 1
+                c = f + 2
+                d = f + 3
+                mk = sw[b] | sw[c]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, m1, m2, m3 = _face_van_leer(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
+                                                v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
+                                                mx[a], my[a], mx[b], my[b], mx[c], my[c],
+                                                mx[d], my[d], gamma, shock_face, hll)
+                f0[f] = m0
+                f1[f] = m1
+                f2[f] = m2
+                f3[f] = m3
 
 
 @njit(**_PARALLEL)
