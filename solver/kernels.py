@@ -19,6 +19,8 @@ import math
 import numpy as np
 from numba import njit, prange
 
+from . import face_paths
+
 FLUID = 0
 WALL = 1
 RESERVOIR = 2
@@ -124,16 +126,10 @@ def _reflect(n, t, mn, mt):
 
 
 @njit(**_INLINE)
-def _face(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
-          mna, mta, mnb, mtb, mnc, mtc, mnd, mtd, gamma, limiter, flux):
-    """Flux through the face between cells b and c of the stencil a | b || c | d.
-
-    n is the velocity normal to the face, t the tangential one; (mn, mt) is the unit normal of a
-    wall cell in the same frame and (0, 0) for any other cell. A wall cell stands for the mirror image of the gas beside it,
-    reflected about the wall's own orientation (so a staircase of cells behaves like the inclined
-    wall it approximates). Where the wall normal is the face normal, the face carries pressure
-    only, and mass and energy are conserved to round-off.
-    """
+def _mirrored_stencils(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
+                       mna, mta, mnb, mtb, mnc, mtc, mnd, mtd):
+    """The stencils of cells b and c with their wall neighbours replaced by the mirror image of b / c (see _face):
+    a, c seen from b, then b, d seen from c, each as (rho, n, t, p)."""
     wa = mna * mna + mta * mta > 0.5
     wb = mnb * mnb + mtb * mtb > 0.5
     wc = mnc * mnc + mtc * mtc > 0.5
@@ -160,21 +156,15 @@ def _face(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
     nd_c = rnd if wd else nd
     td_c = rtd if wd else td
     pd_c = pc if wd else pd
+    return (ra_b, na_b, ta_b, pa_b, rc_b, nc_b, tc_b, pc_b, rb_c, nb_c, tb_c, pb_c, rd_c, nd_c, td_c, pd_c)
 
-    # a face in a shock (LIM_SHOCK_FACE) limits pressure and normal velocity by minmod, density and the tangential
-    # velocity (what contacts and shear layers carry) by van Leer
-    shock_face = limiter == LIM_SHOCK_FACE
-    lim_rt = LIM_VAN_LEER if shock_face else limiter
-    lim_np = LIM_MINMOD if shock_face else limiter
-    rl = rb + 0.5 * _slope(rb - ra_b, rc_b - rb, lim_rt)
-    nl = nb + 0.5 * _slope(nb - na_b, nc_b - nb, lim_np)
-    tl = tb + 0.5 * _slope(tb - ta_b, tc_b - tb, lim_rt)
-    pl = pb + 0.5 * _slope(pb - pa_b, pc_b - pb, lim_np)
-    rr = rc - 0.5 * _slope(rc - rb_c, rd_c - rc, lim_rt)
-    nr = nc - 0.5 * _slope(nc - nb_c, nd_c - nc, lim_np)
-    tr = tc - 0.5 * _slope(tc - tb_c, td_c - tc, lim_rt)
-    pr = pc - 0.5 * _slope(pc - pb_c, pd_c - pc, lim_np)
 
+@njit(**_INLINE)
+def _face_states(rl, nl, tl, pl, rr, nr, tr, pr, rb, nb, tb, pb, rc, nc, tc, pc, mnb, mtb, mnc, mtc):
+    """The two states the Riemann problem of a face sees, from its reconstructed ones: first order where
+    reconstruction left a non-positive density or pressure, the mirror image of the other side where a wall is."""
+    wb = mnb * mnb + mtb * mtb > 0.5
+    wc = mnc * mnc + mtc * mtc > 0.5
     # positivity: fall back to first order at this face
     bad = (rl <= 0.0) or (pl <= 0.0) or (rr <= 0.0) or (pr <= 0.0)
     rl = rb if bad else rl
@@ -197,8 +187,14 @@ def _face(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
     nr2 = mnr if wc else nr
     tr2 = mtr if wc else tr
     pr2 = pl if wc else pr
+    return rl2, nl2, tl2, pl2, rr2, nr2, tr2, pr2
 
-    f0, f1, f2, f3 = _riemann_flux(rl2, nl2, tl2, pl2, rr2, nr2, tr2, pr2, gamma, flux)
+
+@njit(**_INLINE)
+def _wall_face_flux(f0, f1, f2, f3, mnb, mtb, mnc, mtc):
+    """A face with a wall on both sides carries nothing, one whose wall normal is the face normal pressure only."""
+    wb = mnb * mnb + mtb * mtb > 0.5
+    wc = mnc * mnc + mtc * mtc > 0.5
     aligned = (wb and abs(mnb) == 1.0) or (wc and abs(mnc) == 1.0)
     both = wb and wc
     f0 = 0.0 if (aligned or both) else f0
@@ -208,9 +204,143 @@ def _face(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
     return f0, f1, f2, f3
 
 
+@njit(**_INLINE)
+def _face(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
+          mna, mta, mnb, mtb, mnc, mtc, mnd, mtd, gamma, limiter, flux):
+    """Flux through the face between cells b and c of the stencil a | b || c | d.
+
+    n is the velocity normal to the face, t the tangential one; (mn, mt) is the unit normal of a
+    wall cell in the same frame and (0, 0) for any other cell. A wall cell stands for the mirror image of the gas beside it,
+    reflected about the wall's own orientation (so a staircase of cells behaves like the inclined
+    wall it approximates). Where the wall normal is the face normal, the face carries pressure
+    only, and mass and energy are conserved to round-off.
+    """
+    (ra_b, na_b, ta_b, pa_b, rc_b, nc_b, tc_b, pc_b,
+     rb_c, nb_c, tb_c, pb_c, rd_c, nd_c, td_c, pd_c) = _mirrored_stencils(
+        ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd, mna, mta, mnb, mtb, mnc, mtc, mnd, mtd)
+
+    # a face in a shock (LIM_SHOCK_FACE) limits pressure and normal velocity by minmod, density and the tangential
+    # velocity (what contacts and shear layers carry) by van Leer
+    shock_face = limiter == LIM_SHOCK_FACE
+    lim_rt = LIM_VAN_LEER if shock_face else limiter
+    lim_np = LIM_MINMOD if shock_face else limiter
+    rl = rb + 0.5 * _slope(rb - ra_b, rc_b - rb, lim_rt)
+    nl = nb + 0.5 * _slope(nb - na_b, nc_b - nb, lim_np)
+    tl = tb + 0.5 * _slope(tb - ta_b, tc_b - tb, lim_rt)
+    pl = pb + 0.5 * _slope(pb - pa_b, pc_b - pb, lim_np)
+    rr = rc - 0.5 * _slope(rc - rb_c, rd_c - rc, lim_rt)
+    nr = nc - 0.5 * _slope(nc - nb_c, nd_c - nc, lim_np)
+    tr = tc - 0.5 * _slope(tc - tb_c, td_c - tc, lim_rt)
+    pr = pc - 0.5 * _slope(pc - pb_c, pd_c - pc, lim_np)
+
+    rl2, nl2, tl2, pl2, rr2, nr2, tr2, pr2 = _face_states(rl, nl, tl, pl, rr, nr, tr, pr, rb, nb, tb, pb,
+                                                          rc, nc, tc, pc, mnb, mtb, mnc, mtc)
+    f0, f1, f2, f3 = _riemann_flux(rl2, nl2, tl2, pl2, rr2, nr2, tr2, pr2, gamma, flux)
+    return _wall_face_flux(f0, f1, f2, f3, mnb, mtb, mnc, mtc)
+
+
+@njit(**_INLINE)
+def _van_leer(dl, dr):
+    """_slope's van Leer arm, for the kernels with the limiter fixed."""
+    prod = dl * dr
+    return 2.0 * prod / (dl + dr) if prod > 0.0 else 0.0
+
+
+@njit(**_INLINE)
+def _minmod(dl, dr):
+    """_slope's minmod arm, for the kernels with the limiter fixed."""
+    prod = dl * dr
+    return (dl if abs(dl) < abs(dr) else dr) if prod > 0.0 else 0.0
+
+
+@njit(**_INLINE)
+def _hllc_or_hll(rl, ul, vl, pl, rr, ur, vr, pr, gamma, hll):
+    """_riemann_flux's HLLC or (hll True) HLL flux, both formed and one picked without a branch (the same
+    operations as _riemann_flux, so the same numbers), so that a face loop choosing per face still vectorises."""
+    gm1 = gamma - 1.0
+    al = math.sqrt(gamma * pl / rl)
+    ar = math.sqrt(gamma * pr / rr)
+    el = pl / gm1 + 0.5 * rl * (ul * ul + vl * vl)
+    er = pr / gm1 + 0.5 * rr * (ur * ur + vr * vr)
+    fl0 = rl * ul
+    fl1 = fl0 * ul + pl
+    fl2 = fl0 * vl
+    fl3 = ul * (el + pl)
+    fr0 = rr * ur
+    fr1 = fr0 * ur + pr
+    fr2 = fr0 * vr
+    fr3 = ur * (er + pr)
+    sl = min(ul - al, ur - ar)
+    sr = max(ul + al, ur + ar)
+    # HLL
+    slm = min(sl, 0.0)
+    srp = max(sr, 0.0)
+    inv = 1.0 / (srp - slm)
+    sls = slm * srp
+    h0 = (srp * fl0 - slm * fr0 + sls * (rr - rl)) * inv
+    h1 = (srp * fl1 - slm * fr1 + sls * (fr0 - fl0)) * inv
+    h2 = (srp * fl2 - slm * fr2 + sls * (rr * vr - rl * vl)) * inv
+    h3 = (srp * fl3 - slm * fr3 + sls * (er - el)) * inv
+    # HLLC
+    dl = rl * (sl - ul)
+    dr = rr * (sr - ur)
+    ss = (pr - pl + ul * dl - ur * dr) / (dl - dr)
+    star_left = ss >= 0.0
+    r = rl if star_left else rr
+    u = ul if star_left else ur
+    v = vl if star_left else vr
+    p = pl if star_left else pr
+    e = el if star_left else er
+    s = sl if star_left else sr
+    d = dl if star_left else dr
+    g0 = fl0 if star_left else fr0
+    g1 = fl1 if star_left else fr1
+    g2 = fl2 if star_left else fr2
+    g3 = fl3 if star_left else fr3
+    c = d / (s - ss)
+    es = c * (e / r + (ss - u) * (ss + p / d))
+    fs0 = g0 + s * (c - r)
+    fs1 = g1 + s * (c * ss - g0)
+    fs2 = g2 + s * (c * v - r * v)
+    fs3 = g3 + s * (es - e)
+    left = sl >= 0.0
+    outer_right = sr <= 0.0 and not star_left
+    f0 = fl0 if left else (fr0 if outer_right else fs0)
+    f1 = fl1 if left else (fr1 if outer_right else fs1)
+    f2 = fl2 if left else (fr2 if outer_right else fs2)
+    f3 = fl3 if left else (fr3 if outer_right else fs3)
+    return (h0 if hll else f0, h1 if hll else f1, h2 if hll else f2, h3 if hll else f3)
+
+
+@njit(**_INLINE)
+def _face_van_leer(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd,
+                   mna, mta, mnb, mtb, mnc, mtc, mnd, mtd, gamma, shock_face, hll):
+    """_face for the van Leer limiters (van_leer, van_leer_shock_minmod) and HLLC / HLL: the same numbers, with
+    the per-face choices (minmod for n and p on a shock face, HLL) made by selection, not by branches."""
+    (ra_b, na_b, ta_b, pa_b, rc_b, nc_b, tc_b, pc_b,
+     rb_c, nb_c, tb_c, pb_c, rd_c, nd_c, td_c, pd_c) = _mirrored_stencils(
+        ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, pd, mna, mta, mnb, mtb, mnc, mtc, mnd, mtd)
+    rl = rb + 0.5 * _van_leer(rb - ra_b, rc_b - rb)
+    tl = tb + 0.5 * _van_leer(tb - ta_b, tc_b - tb)
+    rr = rc - 0.5 * _van_leer(rc - rb_c, rd_c - rc)
+    tr = tc - 0.5 * _van_leer(tc - tb_c, td_c - tc)
+    dnl, dnr = nb - na_b, nc_b - nb
+    dpl, dpr = pb - pa_b, pc_b - pb
+    nl = nb + 0.5 * (_minmod(dnl, dnr) if shock_face else _van_leer(dnl, dnr))
+    pl = pb + 0.5 * (_minmod(dpl, dpr) if shock_face else _van_leer(dpl, dpr))
+    dnl, dnr = nc - nb_c, nd_c - nc
+    dpl, dpr = pc - pb_c, pd_c - pc
+    nr = nc - 0.5 * (_minmod(dnl, dnr) if shock_face else _van_leer(dnl, dnr))
+    pr = pc - 0.5 * (_minmod(dpl, dpr) if shock_face else _van_leer(dpl, dpr))
+    rl2, nl2, tl2, pl2, rr2, nr2, tr2, pr2 = _face_states(rl, nl, tl, pl, rr, nr, tr, pr, rb, nb, tb, pb,
+                                                          rc, nc, tc, pc, mnb, mtb, mnc, mtc)
+    f0, f1, f2, f3 = _hllc_or_hll(rl2, nl2, tl2, pl2, rr2, nr2, tr2, pr2, gamma, hll)
+    return _wall_face_flux(f0, f1, f2, f3, mnb, mtb, mnc, mtc)
+
+
 @njit(**_PARALLEL)
-def x_face_fluxes(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x):
-    """Fluxes through every x-face of the interior rows.
+def _x_face_fluxes_any(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x):
+    """Fluxes through every x-face of the interior rows, for any limiter and flux (x_face_fluxes).
 
     hll_x (padded, uint8) marks cells whose x-faces take the HLL flux instead of `flux` (bit MARK_HLL) or the
     minmod limiter instead of `limiter` (bit MARK_MINMOD; see `shock_switch`); a face switches when either cell
@@ -250,8 +380,8 @@ def x_face_fluxes(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x):
 
 
 @njit(**_PARALLEL)
-def y_face_fluxes(W, wall_nx, wall_ny, Gy, gamma, limiter, flux, hll_y):
-    """Fluxes through every y-face of the interior columns; the inner loop stays along x.
+def _y_face_fluxes_any(W, wall_nx, wall_ny, Gy, gamma, limiter, flux, hll_y):
+    """Fluxes through every y-face of the interior columns, any limiter and flux; the inner loop stays along x.
 
     hll_y (padded, uint8) marks cells whose y-faces take the HLL flux or minmod (see `shock_switch`).
     """
@@ -301,6 +431,179 @@ def y_face_fluxes(W, wall_nx, wall_ny, Gy, gamma, limiter, flux, hll_y):
             g1[i] = mt
             g2[i] = mn
             g3[i] = m3
+
+
+@njit(**_PARALLEL)
+def _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, all_hll, hll_x, mid_plain):
+    """_x_face_fluxes_any for the van Leer limiters with HLLC (all_hll False) or HLL (True), branch-free. A row
+    whose faces 2 .. nx - 2 have no wall cell in their stencils (mid_plain, face_paths; a closed box's side walls
+    touch only the two faces at each end) runs all its faces without the wall normals, then the two at each end
+    again with them (a loop that starts anywhere but 0 did not vectorise: face_paths)."""
+    ny = Fx.shape[1]
+    nfaces = Fx.shape[2]
+    for j in prange(ny):
+        jj = j + 2
+        r = W[0, jj]
+        u = W[1, jj]
+        v = W[2, jj]
+        p = W[3, jj]
+        mx = wall_nx[jj]
+        my = wall_ny[jj]
+        sw = hll_x[jj]
+        f0 = Fx[0, j]
+        f1 = Fx[1, j]
+        f2 = Fx[2, j]
+        f3 = Fx[3, j]
+        if mid_plain[j]:
+            for f in range(nfaces):
+                a = f
+                b = f + 1
+                c = f + 2
+                d = f + 3
+                mk = sw[b] | sw[c]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, m1, m2, m3 = _face_van_leer(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
+                                                v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
+                                                0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, gamma, shock_face, hll)
+                f0[f] = m0
+                f1[f] = m1
+                f2[f] = m2
+                f3[f] = m3
+            for f in (0, 1, nfaces - 2, nfaces - 1):
+                a = f
+                b = f + 1
+                c = f + 2
+                d = f + 3
+                mk = sw[b] | sw[c]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, m1, m2, m3 = _face_van_leer(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
+                                                v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
+                                                mx[a], my[a], mx[b], my[b], mx[c], my[c],
+                                                mx[d], my[d], gamma, shock_face, hll)
+                f0[f] = m0
+                f1[f] = m1
+                f2[f] = m2
+                f3[f] = m3
+        else:  # every face through the general stencil, in one loop from face 0 (so that it vectorises)
+            for f in range(nfaces):
+                a = f
+                b = f + 1
+                c = f + 2
+                d = f + 3
+                mk = sw[b] | sw[c]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, m1, m2, m3 = _face_van_leer(r[a], r[b], r[c], r[d], u[a], u[b], u[c], u[d],
+                                                v[a], v[b], v[c], v[d], p[a], p[b], p[c], p[d],
+                                                mx[a], my[a], mx[b], my[b], mx[c], my[c],
+                                                mx[d], my[d], gamma, shock_face, hll)
+                f0[f] = m0
+                f1[f] = m1
+                f2[f] = m2
+                f3[f] = m3
+
+
+@njit(**_PARALLEL)
+def _y_face_fluxes_van_leer(W, wall_nx, wall_ny, Gy, gamma, all_hll, hll_y, row_plain):
+    """_y_face_fluxes_any for the van Leer limiters with HLLC or HLL, branch-free; a face row with no wall cell in
+    any face's stencil (row_plain, face_paths) skips the wall normals (eight rows of them)."""
+    nfaces = Gy.shape[1]
+    nx = Gy.shape[2]
+    for f in prange(nfaces):
+        ra = W[0, f]
+        rb = W[0, f + 1]
+        rc = W[0, f + 2]
+        rd = W[0, f + 3]
+        ua = W[1, f]
+        ub = W[1, f + 1]
+        uc = W[1, f + 2]
+        ud = W[1, f + 3]
+        va = W[2, f]
+        vb = W[2, f + 1]
+        vc = W[2, f + 2]
+        vd = W[2, f + 3]
+        pa = W[3, f]
+        pb = W[3, f + 1]
+        pc = W[3, f + 2]
+        pd = W[3, f + 3]
+        xa = wall_nx[f]
+        xb = wall_nx[f + 1]
+        xc = wall_nx[f + 2]
+        xd = wall_nx[f + 3]
+        ya = wall_ny[f]
+        yb = wall_ny[f + 1]
+        yc = wall_ny[f + 2]
+        yd = wall_ny[f + 3]
+        sb = hll_y[f + 1]
+        sc = hll_y[f + 2]
+        g0 = Gy[0, f]
+        g1 = Gy[1, f]
+        g2 = Gy[2, f]
+        g3 = Gy[3, f]
+        if row_plain[f]:
+            for i in range(nx):
+                ii = i + 2
+                mk = sb[ii] | sc[ii]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, mn, mt, m3 = _face_van_leer(ra[ii], rb[ii], rc[ii], rd[ii], va[ii], vb[ii], vc[ii], vd[ii],
+                                                ua[ii], ub[ii], uc[ii], ud[ii], pa[ii], pb[ii], pc[ii], pd[ii],
+                                                0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, gamma, shock_face, hll)
+                g0[i] = m0
+                g1[i] = mt
+                g2[i] = mn
+                g3[i] = m3
+        else:
+            for i in range(nx):
+                ii = i + 2
+                mk = sb[ii] | sc[ii]
+                shock_face = (mk & MARK_MINMOD) != 0
+                hll = all_hll or (mk & MARK_HLL) != 0
+                m0, mn, mt, m3 = _face_van_leer(ra[ii], rb[ii], rc[ii], rd[ii], va[ii], vb[ii], vc[ii], vd[ii],
+                                                ua[ii], ub[ii], uc[ii], ud[ii], pa[ii], pb[ii], pc[ii], pd[ii],
+                                                ya[ii], xa[ii], yb[ii], xb[ii],
+                                                yc[ii], xc[ii], yd[ii], xd[ii], gamma, shock_face, hll)
+                g0[i] = m0
+                g1[i] = mt
+                g2[i] = mn
+                g3[i] = m3
+
+
+def uses_van_leer_sweeps(limiter: int, flux: int) -> bool:
+    """True when the face sweeps take the kernels with the van Leer limiter fixed (_x/_y_face_fluxes_van_leer):
+    limiter van_leer or van_leer_shock_minmod with HLLC or HLL, the default and the benchmark's scheme."""
+    return limiter in (LIM_VAN_LEER, LIM_VAN_LEER_SHOCK_MINMOD) and flux in (FLUX_HLLC, FLUX_HLL)
+
+
+def x_face_fluxes(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x, paths=None):
+    """Fluxes through every x-face of the interior rows.
+
+    hll_x (padded, uint8) marks cells whose x-faces take the HLL flux instead of `flux` (bit MARK_HLL) or the
+    minmod limiter instead of `limiter` (bit MARK_MINMOD; see `shock_switch`); a face switches when either cell
+    beside it is marked. The van Leer limiters with HLLC or HLL run a kernel with the limiter fixed (the per-face
+    choices by selection, so its loop vectorises), which runs rows far from walls (paths, face_paths.build of these
+    wall normals; built here when not given) without reading the wall normals; every other pair runs the general
+    kernel.
+    The same numbers either way (tests/test_face_paths.py).
+    """
+    if uses_van_leer_sweeps(limiter, flux):
+        fp = face_paths.build(wall_nx, wall_ny) if paths is None else paths
+        _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, flux == FLUX_HLL, hll_x, fp.x_rows_mid_plain)
+    else:
+        _x_face_fluxes_any(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x)
+
+
+def y_face_fluxes(W, wall_nx, wall_ny, Gy, gamma, limiter, flux, hll_y, paths=None):
+    """Fluxes through every y-face of the interior columns (hll_y as hll_x in x_face_fluxes); kernels chosen as
+    there. The van Leer kernel takes the face rows with no wall near them (paths, face_paths.build of these wall
+    normals; built here when not given) without reading the wall normals."""
+    if uses_van_leer_sweeps(limiter, flux):
+        fp = face_paths.build(wall_nx, wall_ny) if paths is None else paths
+        _y_face_fluxes_van_leer(W, wall_nx, wall_ny, Gy, gamma, flux == FLUX_HLL, hll_y, fp.y_rows_plain)
+    else:
+        _y_face_fluxes_any(W, wall_nx, wall_ny, Gy, gamma, limiter, flux, hll_y)
 
 
 #: A stencil of five cells whose largest pressure is more than this times its smallest, and

@@ -188,7 +188,7 @@ class Simulation:
         touches[1:, :] |= fluid[:-1, :]
         self._feed_j, self._feed_i = (a.astype(np.int64) for a in np.nonzero(res & touches))
         self._wall_nx, self._wall_ny = wall_normals(k, GHOST)
-        self._face_paths = face_paths.build(self._wall_nx, self._wall_ny)  # the faces beside walls (a figure)
+        self._face_paths = face_paths.build(self._wall_nx, self._wall_ny)  # the face sweeps' runs beside walls
         self.geometry = staircase_geometry(mask) if geometry is None else geometry
         if self.geometry.open_x.shape != (mask.shape[0], mask.shape[1] + 1):
             raise ValueError(f"geometry of shape {self.geometry.mask.shape} does not match the domain's {mask.shape}")
@@ -476,8 +476,10 @@ class Simulation:
         feed_relax: the fraction of the way the reservoir's feed cells move to their held state this stage."""
         kernels.feed_reservoir_edge(self.U, self.W, self.kind, self._feed_j, self._feed_i, res[0], res[3], gamma,
                                     feed_relax)
-        kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x)
-        kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y)
+        kernels.x_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Fx, gamma, lim, flux, self._hll_x,
+                              self._face_paths)
+        kernels.y_face_fluxes(self.W, self._wall_nx, self._wall_ny, self.Gy, gamma, lim, flux, self._hll_y,
+                              self._face_paths)
         cut_cells.reconstruct(self._cut_cells, self.W, self.kind, self.Fx, self.Gy, self._hll_x, self._hll_y, gamma,
                               lim, flux)
 

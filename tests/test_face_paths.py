@@ -1,6 +1,7 @@
 """The face kernels as changed for speed (HLLC forming one star state, the edge fills over the border only, the wave
-rate in the last stage only), bit for bit against the kernels as they were before; and solver/face_paths.py's
-runs of faces beside walls.
+rate in the last stage only, the van Leer limiters with HLLC or HLL in sweeps of their own that choose per face by
+selection and skip the wall normals on face rows far from walls), bit for bit against the kernels as they were
+before; and solver/face_paths.py's runs of faces beside walls.
 
 The reference below is a verbatim copy of the earlier kernels (kernels._slope, _riemann_flux, _reflect, _face,
 x_face_fluxes, y_face_fluxes, fill_open_edges, fill_pressure_edges), compiled serial and uncached: every face
@@ -386,7 +387,6 @@ def fill_pressure_edges(U, W, kind, rho_amb, p_amb, gamma):
             U[3, jj, ii] = pb / gm1 + 0.5 * rb * (ub * ub + vb * vb)
 
 
-
 # ---------------------------------------------------------------------------------------------- the checks
 PAIRS = [(lim.kernel_id, fx.kernel_id) for lim in LIMITERS.values() for fx in FLUXES.values()]
 PAIRS += [(LIM_FIRST_ORDER, fx.kernel_id) for fx in FLUXES.values()]
@@ -413,14 +413,18 @@ def _reference_fluxes(sim, lim, flux, hll_x, hll_y):
 def _new_fluxes(sim, lim, flux, hll_x, hll_y):
     Fx = np.full_like(sim.Fx, np.nan)
     Gy = np.full_like(sim.Gy, np.nan)
-    kernels.x_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Fx, sim.setup.gas.gamma, lim, flux, hll_x)
-    kernels.y_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Gy, sim.setup.gas.gamma, lim, flux, hll_y)
+    kernels.x_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Fx, sim.setup.gas.gamma, lim, flux, hll_x,
+                          sim._face_paths)
+    kernels.y_face_fluxes(sim.W, sim._wall_nx, sim._wall_ny, Gy, sim.setup.gas.gamma, lim, flux, hll_y,
+                          sim._face_paths)
     return Fx, Gy
 
 
 def test_the_nozzle_holds_every_kind_of_face(nozzle):
     # The comparisons below mean something only if the grid has both paths, cut cells, held cells and shocks.
     paths = nozzle._face_paths
+    assert paths.y_rows_plain.any() and not paths.y_rows_plain.all()
+    assert paths.x_rows_mid_plain.any() and not paths.x_rows_mid_plain.all()
     assert paths.x_plain.any() and not paths.x_plain.all()
     assert paths.y_plain.any() and not paths.y_plain.all()
     assert 0.0 < paths.general_face_share < 0.5
@@ -558,3 +562,6 @@ def test_face_runs_of_a_closed_box():
                                                                                 (nx - 1, nx + 1, 0)]
     assert list(paths.y_plain[paths.y_ptr[0]:paths.y_ptr[1]]) == [0]  # the bottom face row reads the ghost walls
     assert list(paths.y_plain[paths.y_ptr[3]:paths.y_ptr[4]]) == [1]
+    # face rows 0, 1 and ny - 1, ny read a ghost row of walls; the y sweep skips the wall normals on the others
+    assert list(paths.y_rows_plain) == [0, 0] + [1] * (ny - 3) + [0, 0]
+    assert list(paths.x_rows_mid_plain) == [1] * ny  # the side walls touch only faces 0, 1 and nx - 1, nx
