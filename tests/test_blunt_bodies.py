@@ -206,20 +206,7 @@ def test_cylinder_at_40_cells_per_radius_is_steady_at_the_pitot_pressure():
 def _contact_widths(name: str, limiter: str, n: int) -> tuple[int, float]:
     """A shock-tube problem [T] on an n x 4 strip: (cells between 10 and 90 % of the density jump at the contact,
     the jump over the steepest one-cell step there)."""
-    left, right, x0, t_end = {
-        "sod": ((1.0, 0.0, 1.0), (0.125, 0.0, 0.1), 0.5, 0.2),  # [T] Test 1
-        "toro3": ((1.0, 0.0, 1000.0), (1.0, 0.0, 0.01), 0.5, 0.012),  # [T] Test 3
-        "toro5": ((5.99924, 19.5975, 460.894), (5.99242, -6.19633, 46.0950), 0.4, 0.035),  # [T] Test 5
-    }[name]
-    dom = Domain(0.0, 1.0, 0.0, 4.0 / n, n)
-    sim = Simulation(Setup(domain=dom, gas=Gas(1.4, 28.965), edges=Edges("open", "open", "wall", "wall"),
-                           numerics=Numerics(limiter=limiter)), None)
-    x = dom.x_centres_m()
-    lft = np.broadcast_to(x < x0, (4, n))
-    rho0, u0, p0 = (np.where(lft, a, b) for a, b in zip(left, right))
-    sim.set_primitive(rho0, u0, 0.0, p0)
-    sim.run_until(t_end)
-    rho = sim.primitive()[0][2]
+    (left, right, x0, t_end), x, rho = _shock_tube(name, limiter, n)
     star, waves = star_state(left, right, 1.4), wave_speeds(left, right, 1.4)
     x_contact = x0 + waves.contact * t_end
     # a window around the contact reaching halfway to the nearer wave beside it
@@ -246,9 +233,11 @@ def test_contacts_stay_as_sharp_as_with_van_leer(name):
         assert width < width_mm and cells <= cells_mm, (n, width, width_mm)
 
 
-def _tube_l1(name: str, limiter: str, n: int) -> float:
-    """The L1 density error against [T]'s exact solution of a shock tube of tests/test_simulation.py, n cells."""
-    left, right, x0, t_end = next(c[1:] for c in RIEMANN_CASES if c[0] == name)
+def _shock_tube(name: str, limiter: str, n: int) -> tuple[tuple, np.ndarray, np.ndarray]:
+    """A shock-tube problem of tests/test_simulation.py ([T] sec. 4.3.3) run on an n x 4 strip to its output time:
+    (its left state, right state, diaphragm and time; the cell centres; the density along the strip)."""
+    case = next(c[1:] for c in RIEMANN_CASES if c[0] == name)
+    left, right, x0, t_end = case
     dom = Domain(0.0, 1.0, 0.0, 4.0 / n, n)
     sim = Simulation(Setup(domain=dom, gas=Gas(1.4, 28.965), edges=Edges("open", "open", "wall", "wall"),
                            numerics=Numerics(limiter=limiter)), None)
@@ -257,7 +246,13 @@ def _tube_l1(name: str, limiter: str, n: int) -> float:
     rho0, u0, p0 = (np.where(lft, a, b) for a, b in zip(left, right))
     sim.set_primitive(rho0, u0, 0.0, p0)
     sim.run_until(t_end)
-    return float(np.sum(np.abs(sim.primitive()[0][2] - exact_solution(left, right, 1.4, x, x0, t_end)[0])) / n)
+    return case, x, sim.primitive()[0][2]
+
+
+def _tube_l1(name: str, limiter: str, n: int) -> float:
+    """The L1 density error against [T]'s exact solution of a shock tube, n cells."""
+    (left, right, x0, t_end), x, rho = _shock_tube(name, limiter, n)
+    return float(np.sum(np.abs(rho - exact_solution(left, right, 1.4, x, x0, t_end)[0])) / n)
 
 
 #: How much larger the shock-tube L1 error of the default limiter may be than van Leer's: measured (module
