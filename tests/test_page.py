@@ -178,9 +178,13 @@ def load_through_upload(page, doc: dict, tmp_path: Path) -> None:
 
 
 def pause(page) -> None:
-    # an explicit intent: a toggle read against a state that is changing could run instead of pause
+    # an explicit intent: a toggle read against a state that is changing could run instead of pause. The status
+    # waited for is one of the sketch the page has now: right after a load, the last status can still be the
+    # previous flow's (paused, with its steps), and a Step counted from those steps would wait for ever (a
+    # fresh-clone run timed out so in tests/test_page_engineer.py)
     page.evaluate("window.shockslate.send('pause')")
-    page.wait_for_function("window.shockslate.status && window.shockslate.status.state !== 'running'", timeout=WAIT_MS)
+    page.wait_for_function("window.shockslate.status && window.shockslate.status.state !== 'running' && "
+                           "window.shockslate.status.revision === window.shockslate.revision", timeout=WAIT_MS)
 
 
 def steps_now(page) -> int:
