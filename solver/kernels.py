@@ -338,6 +338,17 @@ def _face_van_leer(ra, rb, rc, rd, na, nb, nc, nd, ta, tb, tc, td, pa, pb, pc, p
     return _wall_face_flux(f0, f1, f2, f3, mnb, mtb, mnc, mtc)
 
 
+@njit(**_INLINE)
+def _y_stencil_rows(W, wall_nx, wall_ny, f):
+    """Row views of the four cell rows in the stencils of y-face row f (density, u, v, p, then the wall normals'
+    x and y components, each for rows f .. f + 3), taken before the face loop so that it vectorises
+    (module docstring)."""
+    return (W[0, f], W[0, f + 1], W[0, f + 2], W[0, f + 3], W[1, f], W[1, f + 1], W[1, f + 2], W[1, f + 3],
+            W[2, f], W[2, f + 1], W[2, f + 2], W[2, f + 3], W[3, f], W[3, f + 1], W[3, f + 2], W[3, f + 3],
+            wall_nx[f], wall_nx[f + 1], wall_nx[f + 2], wall_nx[f + 3],
+            wall_ny[f], wall_ny[f + 1], wall_ny[f + 2], wall_ny[f + 3])
+
+
 @njit(**_PARALLEL)
 def _x_face_fluxes_any(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x):
     """Fluxes through every x-face of the interior rows, for any limiter and flux (x_face_fluxes).
@@ -350,17 +361,9 @@ def _x_face_fluxes_any(W, wall_nx, wall_ny, Fx, gamma, limiter, flux, hll_x):
     nfaces = Fx.shape[2]
     for j in prange(ny):
         jj = j + 2
-        r = W[0, jj]
-        u = W[1, jj]
-        v = W[2, jj]
-        p = W[3, jj]
-        mx = wall_nx[jj]
-        my = wall_ny[jj]
-        sw = hll_x[jj]
-        f0 = Fx[0, j]
-        f1 = Fx[1, j]
-        f2 = Fx[2, j]
-        f3 = Fx[3, j]
+        r, u, v, p = W[0, jj], W[1, jj], W[2, jj], W[3, jj]
+        mx, my, sw = wall_nx[jj], wall_ny[jj], hll_x[jj]
+        f0, f1, f2, f3 = Fx[0, j], Fx[1, j], Fx[2, j], Fx[3, j]
         for f in range(nfaces):
             a = f
             b = f + 1
@@ -388,36 +391,11 @@ def _y_face_fluxes_any(W, wall_nx, wall_ny, Gy, gamma, limiter, flux, hll_y):
     nfaces = Gy.shape[1]
     nx = Gy.shape[2]
     for f in prange(nfaces):
-        ra = W[0, f]
-        rb = W[0, f + 1]
-        rc = W[0, f + 2]
-        rd = W[0, f + 3]
-        ua = W[1, f]
-        ub = W[1, f + 1]
-        uc = W[1, f + 2]
-        ud = W[1, f + 3]
-        va = W[2, f]
-        vb = W[2, f + 1]
-        vc = W[2, f + 2]
-        vd = W[2, f + 3]
-        pa = W[3, f]
-        pb = W[3, f + 1]
-        pc = W[3, f + 2]
-        pd = W[3, f + 3]
-        xa = wall_nx[f]
-        xb = wall_nx[f + 1]
-        xc = wall_nx[f + 2]
-        xd = wall_nx[f + 3]
-        ya = wall_ny[f]
-        yb = wall_ny[f + 1]
-        yc = wall_ny[f + 2]
-        yd = wall_ny[f + 3]
+        (ra, rb, rc, rd, ua, ub, uc, ud, va, vb, vc, vd, pa, pb, pc, pd,
+         xa, xb, xc, xd, ya, yb, yc, yd) = _y_stencil_rows(W, wall_nx, wall_ny, f)
         sb = hll_y[f + 1]
         sc = hll_y[f + 2]
-        g0 = Gy[0, f]
-        g1 = Gy[1, f]
-        g2 = Gy[2, f]
-        g3 = Gy[3, f]
+        g0, g1, g2, g3 = Gy[0, f], Gy[1, f], Gy[2, f], Gy[3, f]
         for i in range(nx):
             ii = i + 2
             mk = sb[ii] | sc[ii]
@@ -443,17 +421,9 @@ def _x_face_fluxes_van_leer(W, wall_nx, wall_ny, Fx, gamma, all_hll, hll_x, mid_
     nfaces = Fx.shape[2]
     for j in prange(ny):
         jj = j + 2
-        r = W[0, jj]
-        u = W[1, jj]
-        v = W[2, jj]
-        p = W[3, jj]
-        mx = wall_nx[jj]
-        my = wall_ny[jj]
-        sw = hll_x[jj]
-        f0 = Fx[0, j]
-        f1 = Fx[1, j]
-        f2 = Fx[2, j]
-        f3 = Fx[3, j]
+        r, u, v, p = W[0, jj], W[1, jj], W[2, jj], W[3, jj]
+        mx, my, sw = wall_nx[jj], wall_ny[jj], hll_x[jj]
+        f0, f1, f2, f3 = Fx[0, j], Fx[1, j], Fx[2, j], Fx[3, j]
         if mid_plain[j]:
             for f in range(nfaces):
                 a = f
@@ -512,36 +482,11 @@ def _y_face_fluxes_van_leer(W, wall_nx, wall_ny, Gy, gamma, all_hll, hll_y, row_
     nfaces = Gy.shape[1]
     nx = Gy.shape[2]
     for f in prange(nfaces):
-        ra = W[0, f]
-        rb = W[0, f + 1]
-        rc = W[0, f + 2]
-        rd = W[0, f + 3]
-        ua = W[1, f]
-        ub = W[1, f + 1]
-        uc = W[1, f + 2]
-        ud = W[1, f + 3]
-        va = W[2, f]
-        vb = W[2, f + 1]
-        vc = W[2, f + 2]
-        vd = W[2, f + 3]
-        pa = W[3, f]
-        pb = W[3, f + 1]
-        pc = W[3, f + 2]
-        pd = W[3, f + 3]
-        xa = wall_nx[f]
-        xb = wall_nx[f + 1]
-        xc = wall_nx[f + 2]
-        xd = wall_nx[f + 3]
-        ya = wall_ny[f]
-        yb = wall_ny[f + 1]
-        yc = wall_ny[f + 2]
-        yd = wall_ny[f + 3]
+        (ra, rb, rc, rd, ua, ub, uc, ud, va, vb, vc, vd, pa, pb, pc, pd,
+         xa, xb, xc, xd, ya, yb, yc, yd) = _y_stencil_rows(W, wall_nx, wall_ny, f)
         sb = hll_y[f + 1]
         sc = hll_y[f + 2]
-        g0 = Gy[0, f]
-        g1 = Gy[1, f]
-        g2 = Gy[2, f]
-        g3 = Gy[3, f]
+        g0, g1, g2, g3 = Gy[0, f], Gy[1, f], Gy[2, f], Gy[3, f]
         if row_plain[f]:
             for i in range(nx):
                 ii = i + 2
