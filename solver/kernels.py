@@ -52,8 +52,9 @@ def _slope(dl, dr, limiter):
 
 
 @njit(**_INLINE)
-def _riemann_flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, flux):
-    """Numerical flux normal to a face; u is the normal and v the tangential velocity."""
+def _side_fluxes(rl, ul, vl, pl, rr, ur, vr, pr, gamma):
+    """The sound speeds, total energies and physical fluxes of the two sides of a face:
+    (al, ar, el, er, fl0, fl1, fl2, fl3, fr0, fr1, fr2, fr3)."""
     gm1 = gamma - 1.0
     al = math.sqrt(gamma * pl / rl)
     ar = math.sqrt(gamma * pr / rr)
@@ -67,27 +68,28 @@ def _riemann_flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, flux):
     fr1 = fr0 * ur + pr
     fr2 = fr0 * vr
     fr3 = ur * (er + pr)
-    if flux == FLUX_RUSANOV:
-        s = max(abs(ul) + al, abs(ur) + ar)
-        return (0.5 * (fl0 + fr0) - 0.5 * s * (rr - rl),
-                0.5 * (fl1 + fr1) - 0.5 * s * (fr0 - fl0),
-                0.5 * (fl2 + fr2) - 0.5 * s * (rr * vr - rl * vl),
-                0.5 * (fl3 + fr3) - 0.5 * s * (er - el))
-    # Davis wave-speed estimates (Toro 2009, sec. 10.5.1)
-    sl = min(ul - al, ur - ar)
-    sr = max(ul + al, ur + ar)
-    if flux == FLUX_HLL:
-        slm = min(sl, 0.0)
-        srp = max(sr, 0.0)
-        inv = 1.0 / (srp - slm)
-        sls = slm * srp
-        return ((srp * fl0 - slm * fr0 + sls * (rr - rl)) * inv,
-                (srp * fl1 - slm * fr1 + sls * (fr0 - fl0)) * inv,
-                (srp * fl2 - slm * fr2 + sls * (rr * vr - rl * vl)) * inv,
-                (srp * fl3 - slm * fr3 + sls * (er - el)) * inv)
-    # HLLC (Toro, Spruce and Speares 1994; Toro 2009, sec. 10.4). Only the star state on the side of the contact
-    # the face sees is formed (the side's values picked first, without branches): the same operations as forming
-    # both and picking one, at half the cost.
+    return al, ar, el, er, fl0, fl1, fl2, fl3, fr0, fr1, fr2, fr3
+
+
+@njit(**_INLINE)
+def _hll(rl, vl, el, fl0, fl1, fl2, fl3, rr, vr, er, fr0, fr1, fr2, fr3, sl, sr):
+    """The HLL flux (Harten, Lax and van Leer 1983; Toro 2009, sec. 10.3) from the sides' states and fluxes
+    and the wave speeds sl, sr."""
+    slm = min(sl, 0.0)
+    srp = max(sr, 0.0)
+    inv = 1.0 / (srp - slm)
+    sls = slm * srp
+    return ((srp * fl0 - slm * fr0 + sls * (rr - rl)) * inv,
+            (srp * fl1 - slm * fr1 + sls * (fr0 - fl0)) * inv,
+            (srp * fl2 - slm * fr2 + sls * (rr * vr - rl * vl)) * inv,
+            (srp * fl3 - slm * fr3 + sls * (er - el)) * inv)
+
+
+@njit(**_INLINE)
+def _hllc(rl, ul, vl, pl, el, fl0, fl1, fl2, fl3, rr, ur, vr, pr, er, fr0, fr1, fr2, fr3, sl, sr):
+    """The HLLC flux (Toro, Spruce and Speares 1994; Toro 2009, sec. 10.4). Only the star state on the side of
+    the contact the face sees is formed (the side's values picked first, without branches): the same operations
+    as forming both and picking one, at half the cost."""
     dl = rl * (sl - ul)
     dr = rr * (sr - ur)
     ss = (pr - pl + ul * dl - ur * dr) / (dl - dr)
@@ -116,6 +118,24 @@ def _riemann_flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, flux):
     f2 = fl2 if left else (fr2 if outer_right else fs2)
     f3 = fl3 if left else (fr3 if outer_right else fs3)
     return f0, f1, f2, f3
+
+
+@njit(**_INLINE)
+def _riemann_flux(rl, ul, vl, pl, rr, ur, vr, pr, gamma, flux):
+    """Numerical flux normal to a face; u is the normal and v the tangential velocity."""
+    al, ar, el, er, fl0, fl1, fl2, fl3, fr0, fr1, fr2, fr3 = _side_fluxes(rl, ul, vl, pl, rr, ur, vr, pr, gamma)
+    if flux == FLUX_RUSANOV:
+        s = max(abs(ul) + al, abs(ur) + ar)
+        return (0.5 * (fl0 + fr0) - 0.5 * s * (rr - rl),
+                0.5 * (fl1 + fr1) - 0.5 * s * (fr0 - fl0),
+                0.5 * (fl2 + fr2) - 0.5 * s * (rr * vr - rl * vl),
+                0.5 * (fl3 + fr3) - 0.5 * s * (er - el))
+    # Davis wave-speed estimates (Toro 2009, sec. 10.5.1)
+    sl = min(ul - al, ur - ar)
+    sr = max(ul + al, ur + ar)
+    if flux == FLUX_HLL:
+        return _hll(rl, vl, el, fl0, fl1, fl2, fl3, rr, vr, er, fr0, fr1, fr2, fr3, sl, sr)
+    return _hllc(rl, ul, vl, pl, el, fl0, fl1, fl2, fl3, rr, ur, vr, pr, er, fr0, fr1, fr2, fr3, sl, sr)
 
 
 @njit(**_SERIAL)
@@ -257,58 +277,11 @@ def _minmod(dl, dr):
 def _hllc_or_hll(rl, ul, vl, pl, rr, ur, vr, pr, gamma, hll):
     """_riemann_flux's HLLC or (hll True) HLL flux, both formed and one picked without a branch (the same
     operations as _riemann_flux, so the same numbers), so that a face loop choosing per face still vectorises."""
-    gm1 = gamma - 1.0
-    al = math.sqrt(gamma * pl / rl)
-    ar = math.sqrt(gamma * pr / rr)
-    el = pl / gm1 + 0.5 * rl * (ul * ul + vl * vl)
-    er = pr / gm1 + 0.5 * rr * (ur * ur + vr * vr)
-    fl0 = rl * ul
-    fl1 = fl0 * ul + pl
-    fl2 = fl0 * vl
-    fl3 = ul * (el + pl)
-    fr0 = rr * ur
-    fr1 = fr0 * ur + pr
-    fr2 = fr0 * vr
-    fr3 = ur * (er + pr)
+    al, ar, el, er, fl0, fl1, fl2, fl3, fr0, fr1, fr2, fr3 = _side_fluxes(rl, ul, vl, pl, rr, ur, vr, pr, gamma)
     sl = min(ul - al, ur - ar)
     sr = max(ul + al, ur + ar)
-    # HLL
-    slm = min(sl, 0.0)
-    srp = max(sr, 0.0)
-    inv = 1.0 / (srp - slm)
-    sls = slm * srp
-    h0 = (srp * fl0 - slm * fr0 + sls * (rr - rl)) * inv
-    h1 = (srp * fl1 - slm * fr1 + sls * (fr0 - fl0)) * inv
-    h2 = (srp * fl2 - slm * fr2 + sls * (rr * vr - rl * vl)) * inv
-    h3 = (srp * fl3 - slm * fr3 + sls * (er - el)) * inv
-    # HLLC
-    dl = rl * (sl - ul)
-    dr = rr * (sr - ur)
-    ss = (pr - pl + ul * dl - ur * dr) / (dl - dr)
-    star_left = ss >= 0.0
-    r = rl if star_left else rr
-    u = ul if star_left else ur
-    v = vl if star_left else vr
-    p = pl if star_left else pr
-    e = el if star_left else er
-    s = sl if star_left else sr
-    d = dl if star_left else dr
-    g0 = fl0 if star_left else fr0
-    g1 = fl1 if star_left else fr1
-    g2 = fl2 if star_left else fr2
-    g3 = fl3 if star_left else fr3
-    c = d / (s - ss)
-    es = c * (e / r + (ss - u) * (ss + p / d))
-    fs0 = g0 + s * (c - r)
-    fs1 = g1 + s * (c * ss - g0)
-    fs2 = g2 + s * (c * v - r * v)
-    fs3 = g3 + s * (es - e)
-    left = sl >= 0.0
-    outer_right = sr <= 0.0 and not star_left
-    f0 = fl0 if left else (fr0 if outer_right else fs0)
-    f1 = fl1 if left else (fr1 if outer_right else fs1)
-    f2 = fl2 if left else (fr2 if outer_right else fs2)
-    f3 = fl3 if left else (fr3 if outer_right else fs3)
+    h0, h1, h2, h3 = _hll(rl, vl, el, fl0, fl1, fl2, fl3, rr, vr, er, fr0, fr1, fr2, fr3, sl, sr)
+    f0, f1, f2, f3 = _hllc(rl, ul, vl, pl, el, fl0, fl1, fl2, fl3, rr, ur, vr, pr, er, fr0, fr1, fr2, fr3, sl, sr)
     return (h0 if hll else f0, h1 if hll else f1, h2 if hll else f2, h3 if hll else f3)
 
 
