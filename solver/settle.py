@@ -134,10 +134,10 @@ class LocalStepper:
             h = h[h > 0.0]
             dt_cut = float(h.min()) if h.size else 0.0
             self.dt[self._cut_j, self._cut_i] = dt_cut
+        sim.mark_shocks(lim, flux)
         kernels.copy_state(sim.U, sim.U0)
         floors = 0
         res = sim._held_prim[CellKind.RESERVOIR]
-        sim.mark_shocks(lim, flux)
         relax = sim.feed_relax(self._feed_dt_s(), len(num.tableau.stages))
         for a, b in num.tableau.stages:
             sim.stage_fluxes(res, gamma, lim, flux, relax)

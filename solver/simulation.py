@@ -497,14 +497,17 @@ class Simulation:
         return math.sqrt(self.setup.gas.gamma * p0 / rho0)
 
     def mark_shocks(self, lim: int, flux: int) -> None:
-        """The shock marks (kernels.shock_switch), once a step: a shock moves less than a cell, the marks reach two
-        beyond it. HLLC takes HLL across strong shocks; the limiter van_leer_shock_minmod takes minmod in slow
-        (standing) ones."""
+        """The shock marks (kernels.shock_switch), once a step and before U0 takes the new step's start: a shock
+        moves less than a cell, the marks reach two beyond it. HLLC takes HLL across strong shocks; the limiter
+        van_leer_shock_minmod takes minmod in slow (standing) ones, told by how far the density moved since the
+        previous step's start (U0), when the state came from that step and not from a change."""
         marks = ((kernels.MARK_HLL if flux == kernels.FLUX_HLLC else 0)
                  | (kernels.MARK_MINMOD if lim == kernels.LIM_VAN_LEER_SHOCK_MINMOD else 0))
         if marks:
+            dt = self.last_dt_s
+            dx_over_dt = self.domain.dx_m / dt if self.fluxes_current and dt > 0.0 else 0.0
             kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO, marks,
-                                 self.setup.gas.gamma)
+                                 self.setup.gas.gamma, self.U0[0], dx_over_dt, kernels.SLOW_SHOCK_FRACTION)
 
     def update_cut_cells(self, u0: np.ndarray, a: float, b: float, dt: float, inv_dx: float, gamma: float) -> None:
         """One stage's update of the cut cells (merged groups) with time step dt."""
@@ -527,10 +530,10 @@ class Simulation:
         gamma = self.setup.gas.gamma
         lim, flux = num.limiter_id, num.flux_id
         inv_dx = 1.0 / self.domain.dx_m
+        self.mark_shocks(lim, flux)
         kernels.copy_state(self.U, self.U0)
         floors = 0
         res = self._held_prim[CellKind.RESERVOIR]
-        self.mark_shocks(lim, flux)
         relax = self.feed_relax(dt, len(num.tableau.stages))
         last = len(num.tableau.stages) - 1
         for k, (a, b) in enumerate(num.tableau.stages):

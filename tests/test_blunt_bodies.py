@@ -43,6 +43,26 @@ reusing the setups below, largest gas pressure over the pitot value [N] every ha
     times; cut-cell sphere at 40 0.9857 (was 0.9870); the drawn sphere at 80 from its start 0.9937 to 0.9949;
     the cylinder from its start 0.9971 to 0.9990. A fraction of 0.05 or 0.02 left the staircase sphere ringing
     (0.977 to 0.986), and minmod only on the faces along a shock (as the HLL marks) 0.981 to 0.988.
+  - Toro 5 still read +9.6 / +10.6 / +12.1 % and a contact 2.4 % wider: its left shock creeps at 0.061 of the
+    sound speed behind it. The speed along the axis from the steady mass balance holds the gas sliding along an
+    oblique shock, and cut below 0.1 it took the marks off the bow shock's flanks (above). So the two are now
+    apart (kernels._slow_along): the steady balance along the axis under 0.1 (SLOW_SHOCK_SLIDE) says the shock
+    lies nearly across the axis, and the density change of its five cells since the previous step says how fast
+    it moves, under 0.04 (SLOW_SHOCK_FRACTION), with the changes' absolute sum under 0.08 (SLOW_SHOCK_CHURN) so
+    that the waves of a shock-tube start (a shock and a contact in one stencil, changes of either sign) do not
+    read as one slow front. Measured (/tmp scripts reusing this module's setups):
+    - the six shock tubes at 200 and 400 cells: L1 error and contact widths exactly van Leer's (Toro 5 5.761
+      and 6.758, Sod 4.688 and 5.642, Toro 3 5.817 and 6.834), so the bounds below are now 0.5 %;
+    - staircase sphere at 40 cells per radius 0.9906, 0.9908, 0.9904, 0.9904 (as before); cut-cell sphere
+      0.9848, 0.9856, 0.9857, 0.9857; cylinder from its start 0.9990, 0.9972, 0.9975, 0.9971, 0.9977, 0.9982;
+      the cylinder of tests/test_shock_switch.py 0.9919 to 0.9923 from 6 to 8 flow times;
+    - tried and not kept: the steady balance along the shock's normal instead of the axis marked the whole bow
+      shock and left the cylinder of tests/test_shock_switch.py ringing (0.987 to 1.011); over seven cells
+      instead of five the sphere read van Leer's 0.9835 (the balance there holds the gas turning sideways behind
+      the shock, which the measured change does not); the measured motion without the slide test let the
+      cut-cell sphere started from a uniform stream (a near vacuum behind it in the first steps) diverge at step
+      82 at some fractions (0.04 of 0.02 to 0.15), while with it every fraction ran; the absolute sum alone under
+      0.04 left the cylinder from its start at 1.005 to 0.9967.
 """
 from __future__ import annotations
 
@@ -226,9 +246,9 @@ def test_contacts_stay_as_sharp_as_with_van_leer(name):
         cells_vl, width_vl = _contact_widths(name, "van_leer", n)
         cells, width = _contact_widths(name, LIMITER, n)
         cells_mm, width_mm = _contact_widths(name, "minmod", n)
-        # measured (module docstring): the same cells between 10 and 90 % as van Leer in every case, the steepest
-        # step within +3 % of van Leer's width (Toro 5 at 200 cells: 5.90 against 5.76), always sharper than minmod
-        assert width < 1.03 * width_vl, (n, width, width_vl)
+        # measured (module docstring): the same cells between 10 and 90 % and the same steepest-step width as van
+        # Leer in every case (Toro 5 at 200 cells was 5.90 against 5.76 before the motion was measured)
+        assert width < 1.005 * width_vl, (n, width, width_vl)
         assert cells <= cells_vl, (n, cells, cells_vl)
         assert width < width_mm and cells <= cells_mm, (n, width, width_mm)
 
@@ -256,9 +276,9 @@ def _tube_l1(name: str, limiter: str, n: int) -> float:
 
 
 #: How much larger the shock-tube L1 error of the default limiter may be than van Leer's: measured (module
-#: docstring) +1.2 % at most where every shock runs, +10.6 % at 200 cells for Toro 5's creeping shock [AR]; the
-#: limiter with minmod on every shock was +7.3 % (Sod) and +18.9 % (Toro 5) and fails these bounds.
-L1_OVER_VAN_LEER = {"sod": 0.02, "toro1": 0.02, "toro2": 0.02, "toro3": 0.02, "toro4": 0.02, "toro5": 0.13}
+#: docstring) 0.0 % in all six; the limiter with minmod on every shock was +7.3 % (Sod) and +18.9 % (Toro 5), and
+#: with the slow test from the steady balance alone +1.2 % (Sod) and +10.6 % (Toro 5): both fail these bounds.
+L1_OVER_VAN_LEER = {"sod": 0.005, "toro1": 0.005, "toro2": 0.005, "toro3": 0.005, "toro4": 0.005, "toro5": 0.005}
 
 
 @pytest.mark.parametrize("name", sorted(L1_OVER_VAN_LEER))
