@@ -68,8 +68,31 @@ def contour_squares(f):
     return jj[:n], ii[:n]
 
 
+@njit(**_SERIAL)
+def quantise_levels(pixels, lo, scale, top, wall, out):
+    """Levels of frames.quantise in one pass into the uint8 `out`: (value - lo) * scale + 0.5 in float32, as
+    NumPy's in-place float32 steps do, clamped to 0..top and truncated; NaN becomes `wall`. lo and scale are
+    float32. The NumPy form made a float32 copy and five more passes over it, 30 times a second."""
+    ny, nx = out.shape
+    half = np.float32(0.5)
+    zero = np.float32(0.0)
+    ftop = np.float32(top)
+    for j in range(ny):
+        for i in range(nx):
+            x = (np.float32(pixels[j, i]) - lo) * scale + half
+            if x != x:
+                out[j, i] = wall
+            elif x <= zero:
+                out[j, i] = 0
+            elif x >= ftop:
+                out[j, i] = top
+            else:
+                out[j, i] = np.uint8(x)
+
+
 def warm() -> None:
     """Compile (or load from the kernel cache) every kernel here on a tiny array."""
     q = np.ones((2, 2))
     point_view(3, q, q, q, q, np.zeros((2, 2), np.uint8), 1, 1.4, 287.0, np.empty((2, 2)))
     contour_squares(q)
+    quantise_levels(q, np.float32(0.0), np.float32(1.0), 254, 255, np.empty((2, 2), np.uint8))

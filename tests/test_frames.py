@@ -55,6 +55,20 @@ def test_levels_map_range_linearly_clamp_and_mark_walls():
     assert levels.tolist() == [[0, 127, 254, 0, 254, 255]]  # 5 -> 127 (254 / 2, rounded half up)
 
 
+def test_compiled_levels_equal_the_numpy_steps_level_for_level():
+    # frame_kernels.quantise_levels against the float32 NumPy steps it replaced (frames.quantise_numpy), on
+    # random values around and beyond the range, exact half levels, NaN and infinities, a reversed view (the
+    # full-size frame's rows top first) and float32 overflow
+    rng = np.random.default_rng(3)
+    values = rng.normal(0.5, 0.8, (97, 301))
+    values[::7, ::5] = np.nan
+    values[3, :6] = [np.inf, -np.inf, 1e300, -1e300, 0.0, 1.0]
+    values[4, :254] = (np.arange(254) + 0.5) / 254.0  # exactly on the half levels
+    for lo, hi in ((0.0, 1.0), (-0.3, 2.7), (0.2, 0.2000001), (-1e5, 3e4)):
+        for pixels in (values, values[::-1], values[::-1, ::2]):
+            assert np.array_equal(frames.quantise(pixels, lo, hi), frames.quantise_numpy(pixels, lo, hi)), (lo, hi)
+
+
 def test_auto_and_fixed_colour_range():
     field = np.array([[1.0, np.nan], [3.0, 2.0]])
     assert frames.colour_range(field, None) == (1.0, 3.0)
