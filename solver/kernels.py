@@ -582,9 +582,57 @@ def _slow_along(rho, rho_prev, u, v, p, kind, j0, i0, dj, di, gamma, dx_over_dt,
     return abs(change) * dx_over_dt < slow * jump and churn * dx_over_dt < SLOW_SHOCK_CHURN * jump
 
 
+@njit(**_INLINE)
+def _shocks_at(p, u, v, kind, jj, ii, ratio):
+    """(a shock along x, a shock along y) at gas cell (jj, ii): a five-cell pressure jump above `ratio` with the
+    gas compressed along it, only gas cells counting in a stencil."""
+    pc = p[jj, ii]
+    lo = pc
+    hi = pc
+    for di in range(-2, 3):
+        q = p[jj, ii + di] if kind[jj, ii + di] == FLUID else pc
+        lo = min(lo, q)
+        hi = max(hi, q)
+    ul = u[jj, ii - 2] if kind[jj, ii - 2] == FLUID else u[jj, ii]
+    uh = u[jj, ii + 2] if kind[jj, ii + 2] == FLUID else u[jj, ii]
+    shock_x = hi > ratio * lo and uh < ul
+    lo = pc
+    hi = pc
+    for dj in range(-2, 3):
+        q = p[jj + dj, ii] if kind[jj + dj, ii] == FLUID else pc
+        lo = min(lo, q)
+        hi = max(hi, q)
+    vl = v[jj - 2, ii] if kind[jj - 2, ii] == FLUID else v[jj, ii]
+    vh = v[jj + 2, ii] if kind[jj + 2, ii] == FLUID else v[jj, ii]
+    return shock_x, hi > ratio * lo and vh < vl
+
+
+@njit(**_INLINE)
+def _mark_cell(hx, hy, ii, shock_x, shock_y, hll, mm, rho, prev, u, v, p, kind, jj, gamma, scale, slow):
+    """Cell ii's marks in its rows of hll_x and hll_y from the shocks found along x and y."""
+    m = 0
+    if mm != 0 and (
+            (shock_x and _slow_along(rho, prev, u, v, p, kind, jj, ii, 0, 1, gamma, scale, slow))
+            or (shock_y and _slow_along(rho, prev, u, v, p, kind, jj, ii, 1, 0, gamma, scale, slow))):
+        m = mm
+    hy[ii] = (hll if shock_x else 0) | m
+    hx[ii] = (hll if shock_y else 0) | m
+
+
+def switch_rows_plain(kind: np.ndarray) -> np.ndarray:
+    """One byte a padded row for shock_switch: 1 where the row and the two on each side hold gas from the third
+    column to the third last, so that the stencils of its cells 4 .. nxp - 5 hold gas only."""
+    nyp = kind.shape[0]
+    gas = (kind[:, 2:-2] == FLUID).all(axis=1)
+    out = np.zeros(nyp, np.uint8)
+    for jj in range(2, nyp - 2):
+        out[jj] = gas[jj - 2:jj + 3].all()
+    return out
+
+
 @njit(**_PARALLEL)
 def shock_switch(W, kind, hll_x, hll_y, ratio, marks=MARK_HLL, gamma=1.4, rho_prev=None, dx_over_dt=0.0,
-                 slow=SLOW_SHOCK_FRACTION):
+                 slow=SLOW_SHOCK_FRACTION, rows_plain=None):
     """Mark where HLLC gives way to HLL: the faces transverse to a strong shock.
 
     HLLC resolves contacts and shear exactly, which leaves no dissipation along a shock front
@@ -605,6 +653,9 @@ def shock_switch(W, kind, hll_x, hll_y, ratio, marks=MARK_HLL, gamma=1.4, rho_pr
     moving shocks, Arora and Roe 1997). Shocks that run through the grid keep van Leer,
     which captures them sharper (the shock-tube problems), and so do density and tangential velocity and every
     face away from shocks, so contacts stay sharp.
+
+    rows_plain (switch_rows_plain of the kinds, one byte a padded row), when given, lets the rows whose stencils
+    hold gas only take the cells from the fourth to the fourth last without reading a kind.
     """
     hll = marks & MARK_HLL
     mm = marks & MARK_MINMOD
@@ -620,6 +671,10 @@ def shock_switch(W, kind, hll_x, hll_y, ratio, marks=MARK_HLL, gamma=1.4, rho_pr
     p = W[3]
     u = W[1]
     v = W[2]
+    if rows_plain is None:
+        plain_rows = np.zeros(nyp, np.uint8)
+    else:
+        plain_rows = rows_plain
     for jj in prange(nyp):
         hx = hll_x[jj]
         hy = hll_y[jj]
@@ -628,40 +683,27 @@ def shock_switch(W, kind, hll_x, hll_y, ratio, marks=MARK_HLL, gamma=1.4, rho_pr
             hy[ii] = 0
         if jj < 2 or jj >= nyp - 2:
             continue
+        # cells [a, b) of a plain row need no kind; the rest (all of the row when it is not plain) do
+        a, b = (4, nxp - 4) if plain_rows[jj] != 0 else (nxp - 2, nxp - 2)
         k = kind[jj]
-        pr = p[jj]
-        ur = u[jj]
-        for ii in range(2, nxp - 2):
-            if k[ii] != FLUID:
-                continue
-            pc = pr[ii]
-            # along x
-            lo = pc
-            hi = pc
-            for di in range(-2, 3):
-                q = pr[ii + di] if k[ii + di] == FLUID else pc
-                lo = min(lo, q)
-                hi = max(hi, q)
-            ul = ur[ii - 2] if k[ii - 2] == FLUID else ur[ii]
-            uh = ur[ii + 2] if k[ii + 2] == FLUID else ur[ii]
-            shock_x = hi > ratio * lo and uh < ul
-            # along y
-            lo = pc
-            hi = pc
-            for dj in range(-2, 3):
-                q = p[jj + dj, ii] if kind[jj + dj, ii] == FLUID else pc
-                lo = min(lo, q)
-                hi = max(hi, q)
-            vl = v[jj - 2, ii] if kind[jj - 2, ii] == FLUID else v[jj, ii]
-            vh = v[jj + 2, ii] if kind[jj + 2, ii] == FLUID else v[jj, ii]
-            shock_y = hi > ratio * lo and vh < vl
-            m = 0
-            if mm != 0 and (
-                    (shock_x and _slow_along(rho, prev, u, v, p, kind, jj, ii, 0, 1, gamma, scale, slow))
-                    or (shock_y and _slow_along(rho, prev, u, v, p, kind, jj, ii, 1, 0, gamma, scale, slow))):
-                m = mm
-            hy[ii] = (hll if shock_x else 0) | m
-            hx[ii] = (hll if shock_y else 0) | m
+        for ii in range(2, a):
+            if k[ii] == FLUID:
+                sx, sy = _shocks_at(p, u, v, kind, jj, ii, ratio)
+                _mark_cell(hx, hy, ii, sx, sy, hll, mm, rho, prev, u, v, p, kind, jj, gamma, scale, slow)
+        pm2, pm1, pr, pp1, pp2 = p[jj - 2], p[jj - 1], p[jj], p[jj + 1], p[jj + 2]
+        ur, vm2, vp2 = u[jj], v[jj - 2], v[jj + 2]
+        for ii in range(a, b):
+            lo = min(min(pr[ii - 2], pr[ii - 1]), min(min(pr[ii], pr[ii + 1]), pr[ii + 2]))
+            hi = max(max(pr[ii - 2], pr[ii - 1]), max(max(pr[ii], pr[ii + 1]), pr[ii + 2]))
+            sx = hi > ratio * lo and ur[ii + 2] < ur[ii - 2]
+            lo = min(min(pm2[ii], pm1[ii]), min(min(pr[ii], pp1[ii]), pp2[ii]))
+            hi = max(max(pm2[ii], pm1[ii]), max(max(pr[ii], pp1[ii]), pp2[ii]))
+            sy = hi > ratio * lo and vp2[ii] < vm2[ii]
+            _mark_cell(hx, hy, ii, sx, sy, hll, mm, rho, prev, u, v, p, kind, jj, gamma, scale, slow)
+        for ii in range(b, nxp - 2):
+            if k[ii] == FLUID:
+                sx, sy = _shocks_at(p, u, v, kind, jj, ii, ratio)
+                _mark_cell(hx, hy, ii, sx, sy, hll, mm, rho, prev, u, v, p, kind, jj, gamma, scale, slow)
 
 
 @njit(**_INLINE)

@@ -189,6 +189,7 @@ class Simulation:
         self._feed_j, self._feed_i = (a.astype(np.int64) for a in np.nonzero(res & touches))
         self._wall_nx, self._wall_ny = wall_normals(k, GHOST)
         self._face_paths = face_paths.build(self._wall_nx, self._wall_ny)  # the face sweeps' runs beside walls
+        self._switch_rows_plain = kernels.switch_rows_plain(k)  # the shock switch's rows of gas only
         self.geometry = staircase_geometry(mask) if geometry is None else geometry
         if self.geometry.open_x.shape != (mask.shape[0], mask.shape[1] + 1):
             raise ValueError(f"geometry of shape {self.geometry.mask.shape} does not match the domain's {mask.shape}")
@@ -507,7 +508,8 @@ class Simulation:
             dt = self.last_dt_s
             dx_over_dt = self.domain.dx_m / dt if self.fluxes_current and dt > 0.0 else 0.0
             kernels.shock_switch(self.W, self.kind, self._hll_x, self._hll_y, kernels.SHOCK_PRESSURE_RATIO, marks,
-                                 self.setup.gas.gamma, self.U0[0], dx_over_dt, kernels.SLOW_SHOCK_FRACTION)
+                                 self.setup.gas.gamma, self.U0[0], dx_over_dt, kernels.SLOW_SHOCK_FRACTION,
+                                 self._switch_rows_plain)
 
     def update_cut_cells(self, u0: np.ndarray, a: float, b: float, dt: float, inv_dx: float, gamma: float) -> None:
         """One stage's update of the cut cells (merged groups) with time step dt."""

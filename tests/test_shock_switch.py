@@ -184,3 +184,31 @@ def test_bow_shock_on_a_cylinder_at_mach_3_is_steady_near_the_pitot_pressure():
     # from 8.5 to 12.5 flow times, then the same step to 1.021), so that variant was not kept.
     assert np.ptp(stag) < 0.003  # steady to 0.3 %
     assert stag.mean() == pytest.approx(1.0, abs=0.01)  # within 1 % of [R]
+
+
+def test_rows_of_gas_only_give_the_same_marks_without_reading_kinds():
+    # kernels.switch_rows_plain lets shock_switch skip the kinds in rows whose stencils hold gas only; the marks
+    # must be those of the general path, bit for bit, beside walls and away from them (common practice, no source:
+    # an equivalence of two code paths)
+    dom = Domain(0.0, 1.0, 0.0, 0.5, 80)
+    sim = Simulation(Setup(dom, edges=Edges("wall", "wall", "wall", "wall")),
+                     rasterise(Sketch((Circle((0.7, 0.2), 0.06, "wall"),)), dom))
+    x, y = dom.x_centres_m()[None, :], dom.y_centres_m()[:, None]
+    blast = (x - 0.3) ** 2 + (y - 0.3) ** 2 < 0.1 ** 2
+    sim.set_primitive(np.where(blast, 5.0, 1.2), 0.0, 0.0, np.where(blast, 1.0e6, 1.0e5))
+    plain = sim._switch_rows_plain
+    assert plain[[0, 1, 2, 3, -4, -3, -2, -1]].sum() == 0  # rows beside the box's walls
+    circle_rows = np.nonzero((sim.kind[:, 2:-2] == CellKind.WALL).any(axis=1))[0]
+    assert circle_rows.size and not plain[circle_rows.min() - 2:circle_rows.max() + 3].any()  # and the circle's
+    assert plain.sum() >= 0.4 * plain.size  # the rest take the fast path (22 of 44 rows here)
+    for steps in (5, 25):
+        sim.advance(steps)
+        for marks in (kernels.MARK_HLL, kernels.MARK_HLL | kernels.MARK_MINMOD):
+            out = []
+            for rows in (None, plain):
+                hx, hy = np.zeros_like(sim._hll_x), np.zeros_like(sim._hll_y)
+                kernels.shock_switch(sim.W, sim.kind, hx, hy, kernels.SHOCK_PRESSURE_RATIO, marks, 1.4, sim.U0[0],
+                                     dom.dx_m / sim.last_dt_s, kernels.SLOW_SHOCK_FRACTION, rows)
+                out.append((hx, hy))
+            assert (out[0][0] > 0).sum() > 50  # the blast's shock is marked
+            assert np.array_equal(out[0][0], out[1][0]) and np.array_equal(out[0][1], out[1][1]), (steps, marks)
