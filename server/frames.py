@@ -103,24 +103,12 @@ def colour_range(field: np.ndarray, fixed: tuple[float, float] | None) -> tuple[
 
 def quantise(pixels: np.ndarray, lo: float, hi: float) -> np.ndarray:
     """Levels 0..254 mapping [lo, hi] linearly (values outside are clamped); NaN becomes 255. One compiled pass
-    (frame_kernels.quantise_levels), equal to quantise_numpy level for level (tests/test_frames.py)."""
+    (frame_kernels.quantise_levels), equal level for level to the NumPy steps it replaced
+    (tests/test_frames.py keeps them as its reference)."""
     out = np.empty(pixels.shape, np.uint8)
     frame_kernels.quantise_levels(pixels, np.float32(lo), np.float32(TOP_LEVEL / (hi - lo)), TOP_LEVEL, WALL_LEVEL,
                                   out)
     return out
-
-
-def quantise_numpy(pixels: np.ndarray, lo: float, hi: float) -> np.ndarray:
-    """quantise as NumPy steps in float32: the form the kernel replaced, kept as its test's reference."""
-    scale = TOP_LEVEL / (hi - lo)
-    with np.errstate(invalid="ignore", over="ignore"):
-        work = np.array(pixels, dtype=np.float32)
-        work -= np.float32(lo)
-        work *= np.float32(scale)
-        work += np.float32(0.5)
-        np.clip(work, 0.0, TOP_LEVEL, out=work)  # NaN stays NaN (and +-inf is clamped)
-    np.nan_to_num(work, copy=False, nan=WALL_LEVEL)
-    return work.astype(np.uint8)
 
 
 def encode_frame(field: np.ndarray, view: str, width_px: int, height_px: int,
