@@ -78,17 +78,17 @@ FLAT_RELATIVE = 1e-6
 FLAT_PAD_RELATIVE = 0.01
 
 
-def colour_range(field: np.ndarray, fixed: tuple[float, float] | None) -> tuple[float, float]:
-    """The fixed range, or the finite min and max of the field (widened when flat, so levels are defined)."""
+def colour_range(field: np.ndarray, fixed: tuple[float, float] | None,
+                 finite: tuple[float, float] | None = None) -> tuple[float, float]:
+    """The fixed range, or the finite min and max of the field (widened when flat, so levels are defined).
+    finite: that min and max when already known (view_values finds them in the same pass as the values)."""
     if fixed is not None:
         return float(fixed[0]), float(fixed[1])
-    with np.errstate(invalid="ignore"):
-        lo, hi = float(np.fmin.reduce(field, axis=None)), float(np.fmax.reduce(field, axis=None))  # NaN-skipping
-    if not (math.isfinite(lo) and math.isfinite(hi)):  # all NaN, or infinities: use the finite values only
-        finite = field[np.isfinite(field)]
-        if finite.size == 0:
-            return 0.0, 1.0
-        lo, hi = float(finite.min()), float(finite.max())
+    if finite is None:
+        finite = finite_range(field)
+    if finite is None:
+        return 0.0, 1.0
+    lo, hi = finite
     scale = max(abs(lo), abs(hi))
     if hi - lo <= FLAT_RELATIVE * scale or hi <= lo:
         # a uniform field (or one uniform to round-off): a range of round numbers around it rather than
@@ -101,27 +101,49 @@ def colour_range(field: np.ndarray, fixed: tuple[float, float] | None) -> tuple[
     return lo, hi
 
 
-def quantise(pixels: np.ndarray, lo: float, hi: float) -> np.ndarray:
+def finite_range(field: np.ndarray) -> tuple[float, float] | None:
+    """The smallest and largest finite value of the field; None when it has none."""
+    with np.errstate(invalid="ignore"):
+        lo, hi = float(np.fmin.reduce(field, axis=None)), float(np.fmax.reduce(field, axis=None))  # NaN-skipping
+    if not (math.isfinite(lo) and math.isfinite(hi)):  # all NaN, or infinities: use the finite values only
+        finite = field[np.isfinite(field)]
+        if finite.size == 0:
+            return None
+        lo, hi = float(finite.min()), float(finite.max())
+    return lo, hi
+
+
+def quantise(pixels: np.ndarray, lo: float, hi: float, out: np.ndarray | None = None,
+             flip: bool = False) -> np.ndarray:
     """Levels 0..254 mapping [lo, hi] linearly (values outside are clamped); NaN becomes 255. One compiled pass
     (frame_kernels.quantise_levels), equal level for level to the NumPy steps it replaced
-    (tests/test_frames.py keeps them as its reference)."""
-    out = np.empty(pixels.shape, np.uint8)
+    (tests/test_frames.py keeps them as its reference). out: the uint8 array to fill (a new one when None);
+    flip: out's rows are the pixels' rows in reverse order."""
+    if out is None:
+        out = np.empty(pixels.shape, np.uint8)
     frame_kernels.quantise_levels(pixels, np.float32(lo), np.float32(TOP_LEVEL / (hi - lo)), TOP_LEVEL, WALL_LEVEL,
-                                  out)
+                                  flip, out)
     return out
 
 
 def encode_frame(field: np.ndarray, view: str, width_px: int, height_px: int,
-                 fixed_range: tuple[float, float] | None, time_s: float, step: int) -> bytes:
-    """Header + pixels of one frame of the (ny, nx) field (NaN on walls)."""
+                 fixed_range: tuple[float, float] | None, time_s: float, step: int,
+                 finite: tuple[float, float] | None = None) -> bytes:
+    """Header + pixels of one frame of the (ny, nx) field (NaN on walls). finite: the field's finite min and max
+    when already known (view_values). The levels are written behind the header in one buffer; a frame of the
+    whole grid is quantised from the field itself, its rows reversed in the kernel (no reversed view)."""
     ny, nx = field.shape
     w, h = frame_size(ny, nx, width_px, height_px)
-    pixels = downsample(field, w, h)
-    lo, hi = colour_range(field, fixed_range)
-    levels = quantise(pixels, lo, hi)
-    header = HEADER.pack(MAGIC, HEADER_BYTES, w, h, VIEW_NAMES.index(view), ENCODING_LEVELS, 0,
-                         lo, hi, float(time_s), int(step))
-    return header + levels.tobytes()
+    lo, hi = colour_range(field, fixed_range, finite)
+    data = np.empty(HEADER_BYTES + w * h, np.uint8)
+    HEADER.pack_into(data, 0, MAGIC, HEADER_BYTES, w, h, VIEW_NAMES.index(view), ENCODING_LEVELS, 0,
+                     lo, hi, float(time_s), int(step))
+    levels = data[HEADER_BYTES:].reshape(h, w)
+    if (h, w) == (ny, nx) and field.flags.c_contiguous:
+        quantise(field, lo, hi, levels, flip=True)
+    else:
+        quantise(np.ascontiguousarray(downsample(field, w, h)), lo, hi, levels)
+    return data.tobytes()
 
 
 def decode_frame(data: bytes) -> tuple[FrameHeader, np.ndarray]:
@@ -139,17 +161,26 @@ def decode_frame(data: bytes) -> tuple[FrameHeader, np.ndarray]:
 
 def view_field(view: str, gas: Gas, rho: np.ndarray, u: np.ndarray, v: np.ndarray, p: np.ndarray,
                dx_m: float, mask: np.ndarray) -> np.ndarray:
-    """The named view in SI units with NaN on walls: solver.fields.derived's values (errors kept quiet), the
-    views of one cell each by a compiled kernel (frame_kernels.point_view), the others by derived itself."""
+    """The named view in SI units with NaN on walls: solver.fields.derived's values (errors kept quiet)."""
+    return view_values(view, gas, rho, u, v, p, dx_m, mask)[0]
+
+
+def view_values(view: str, gas: Gas, rho: np.ndarray, u: np.ndarray, v: np.ndarray, p: np.ndarray,
+                dx_m: float, mask: np.ndarray) -> tuple[np.ndarray, tuple[float, float] | None]:
+    """view_field's values and their finite min and max (None when there is none). The views of one cell each
+    come from a compiled kernel (frame_kernels.point_view) that finds the range in the same pass; the others
+    from derived itself."""
     view_id = frame_kernels.POINT_VIEWS.get(view)
     if view_id is None:
         with np.errstate(invalid="ignore", divide="ignore"):
-            return derived(view, gas, rho, u, v, p, dx_m, mask)
+            out = derived(view, gas, rho, u, v, p, dx_m, mask)
+        return out, finite_range(out)
     out = np.empty(rho.shape)
+    row_lo, row_hi = np.empty(rho.shape[0]), np.empty(rho.shape[0])
     frame_kernels.point_view(view_id, rho, u, v, p, mask, int(CellKind.WALL), float(gas.gamma),
-                             float(gas.r_j_kg_k), out)
-    return out
-
+                             float(gas.r_j_kg_k), out, row_lo, row_hi)
+    lo, hi = float(row_lo.min(initial=math.inf)), float(row_hi.max(initial=-math.inf))
+    return out, ((lo, hi) if lo <= hi else None)
 
 
 # ----------------------------------------------------------------------------- overlay
@@ -161,56 +192,22 @@ def sonic_line(mach: np.ndarray, x_centres_m: np.ndarray, y_centres_m: np.ndarra
     Squares with a wall corner (NaN) are skipped. Saddle squares are split by the mean of their
     corners. At most max_segments are returned (every k-th one past that, so the line stays visible).
     """
-    f = mach - 1.0
-    if f.shape[0] < 2 or f.shape[1] < 2:
-        return []
-    # Squares with all corners finite and at least two crossed edges (one compiled pass over the grid).
-    jj, ii = frame_kernels.contour_squares(np.ascontiguousarray(f, dtype=np.float64))
-    if jj.size == 0:
-        return []
-    x0 = x_centres_m[ii]
-    y0 = y_centres_m[jj]
+    return np.round(sonic_segments(mach, x_centres_m, y_centres_m, max_segments), 7).tolist()
+
+
+def sonic_segments(mach: np.ndarray, x_centres_m: np.ndarray, y_centres_m: np.ndarray,
+                   max_segments: int = MAX_SONIC_SEGMENTS) -> np.ndarray:
+    """sonic_line's segments as an (n, 4) array, unrounded: one compiled pass (frame_kernels.level_segments)."""
+    if mach.shape[0] < 2 or mach.shape[1] < 2:
+        return np.empty((0, 4))
     dx = float(x_centres_m[1] - x_centres_m[0]) if x_centres_m.size > 1 else 1.0
     dy = float(y_centres_m[1] - y_centres_m[0]) if y_centres_m.size > 1 else 1.0
-    # Corners: a bottom-left, b bottom-right, c top-right, d top-left of each square.
-    av, bv, cv, dv = f[jj, ii], f[jj, ii + 1], f[jj + 1, ii + 1], f[jj + 1, ii]
-    pa, pb, pc, pd = av > 0, bv > 0, cv > 0, dv > 0
-    # Edges: 0 bottom (a-b), 1 right (b-c), 2 top (d-c), 3 left (a-d).
-    cr = np.stack([pa != pb, pb != pc, pd != pc, pa != pd])
-
-    def frac(p, q):
-        with np.errstate(invalid="ignore", divide="ignore"):
-            t = p / (p - q)
-        return np.clip(np.nan_to_num(t, nan=0.5), 0.0, 1.0)
-
-    # Crossing point on each edge (metres).
-    ex = np.stack([x0 + frac(av, bv) * dx, x0 + dx, x0 + frac(dv, cv) * dx, x0])
-    ey = np.stack([y0, y0 + frac(bv, cv) * dy, y0 + dy, y0 + frac(av, dv) * dy])
-    segments: list[np.ndarray] = []
-    two = cr.sum(axis=0) == 2
-    if two.any():
-        k = np.nonzero(two)[0]
-        first = np.argmax(cr[:, k], axis=0)
-        last = 3 - np.argmax(cr[::-1, k], axis=0)
-        segments.append(np.stack([ex[first, k], ey[first, k], ex[last, k], ey[last, k]], axis=1))
-    four = ~two
-    if four.any():
-        k = np.nonzero(four)[0]
-        centre_high = (av[k] + bv[k] + cv[k] + dv[k]) > 0
-        a_high = pa[k]
-        # When the centre agrees with corner a, a's region joins c's: cut off b and d (edges 0-1, 2-3);
-        # otherwise cut off a and c (edges 3-0, 1-2).
-        join_ac = centre_high == a_high
-        e1 = np.where(join_ac, 0, 3)
-        e2 = np.where(join_ac, 1, 0)
-        e3 = np.where(join_ac, 2, 1)
-        e4 = np.where(join_ac, 3, 2)
-        segments.append(np.stack([ex[e1, k], ey[e1, k], ex[e2, k], ey[e2, k]], axis=1))
-        segments.append(np.stack([ex[e3, k], ey[e3, k], ex[e4, k], ey[e4, k]], axis=1))
-    out = np.concatenate(segments, axis=0)
+    out = frame_kernels.level_segments(np.ascontiguousarray(mach, dtype=np.float64), 1.0,
+                                       np.ascontiguousarray(x_centres_m, dtype=np.float64),
+                                       np.ascontiguousarray(y_centres_m, dtype=np.float64), dx, dy)
     if len(out) > max_segments:
         out = out[:: int(math.ceil(len(out) / max_segments))]
-    return np.round(out, 7).tolist()
+    return out
 
 
 def velocity_arrows(u: np.ndarray, v: np.ndarray, gas_cells: np.ndarray, x_centres_m: np.ndarray,

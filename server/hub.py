@@ -343,27 +343,32 @@ def _overlay_key(snap: FlowSnapshot, overlays: tuple[str, ...]) -> tuple:
 
 
 class _ViewFields:
-    """The views of one snapshot, each computed on first use."""
+    """The views of one snapshot, each computed on first use, with their finite min and max."""
 
     def __init__(self, snap: FlowSnapshot):
         self.snap = snap
-        self._done: dict[str, np.ndarray] = {}
+        self._done: dict[str, tuple[np.ndarray, tuple[float, float] | None]] = {}
 
-    def __getitem__(self, view: str) -> np.ndarray:
+    def values(self, view: str) -> tuple[np.ndarray, tuple[float, float] | None]:
         if view not in self._done:
             s = self.snap
-            self._done[view] = frames.view_field(view, s.gas, s.rho, s.u, s.v, s.p, s.domain.dx_m, s.mask)
+            self._done[view] = frames.view_values(view, s.gas, s.rho, s.u, s.v, s.p, s.domain.dx_m, s.mask)
         return self._done[view]
+
+    def __getitem__(self, view: str) -> np.ndarray:
+        return self.values(view)[0]
 
 
 def build_frame(snap: FlowSnapshot, view: ViewChoice, fields: _ViewFields | None = None) -> bytes:
-    fld = (fields or _ViewFields(snap))[view.view]
-    return frames.encode_frame(fld, view.view, view.width, view.height, view.fixed_range, snap.time_s, snap.steps)
+    fields = fields or _ViewFields(snap)
+    fld, finite = fields.values(view.view)
+    return frames.encode_frame(fld, view.view, view.width, view.height, view.fixed_range, snap.time_s, snap.steps,
+                               finite)
 
 
 def build_comparison_frame(comparison: FlowSnapshot, view: ViewChoice, main: _ViewFields) -> bytes:
     """A frame of the comparison run in the main picture's colour range (equal colours, equal values), channel 2."""
-    rng = view.fixed_range or frames.colour_range(main[view.view], None)
+    rng = view.fixed_range or frames.colour_range(main[view.view], None, main.values(view.view)[1])
     frame = build_frame(comparison, ViewChoice(view.view, view.width, view.height, rng, ()))
     return with_channel(frame, COMPARISON_CHANNEL)
 

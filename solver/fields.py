@@ -22,8 +22,13 @@ def temperature_k(gas: Gas, rho: np.ndarray, p: np.ndarray) -> np.ndarray:
     return p / (rho * gas.r_j_kg_k)
 
 
+def speed_m_s(u: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """sqrt(u^2 + v^2) as written (not np.hypot), so the frame kernels' compiled loops match it bit for bit."""
+    return np.sqrt(u * u + v * v)
+
+
 def mach(gas: Gas, rho: np.ndarray, u: np.ndarray, v: np.ndarray, p: np.ndarray) -> np.ndarray:
-    return np.hypot(u, v) / np.sqrt(gas.gamma * p / rho)
+    return speed_m_s(u, v) / np.sqrt(gas.gamma * p / rho)
 
 
 def vorticity_1_s(u: np.ndarray, v: np.ndarray, dx_m: float) -> np.ndarray:
@@ -62,7 +67,7 @@ def derived(view: str, gas: Gas, rho, u, v, p, dx_m: float, mask: np.ndarray) ->
     elif view == "mach":
         out = mach(gas, rho, u, v, p)
     elif view == "speed":
-        out = np.hypot(u, v)
+        out = speed_m_s(u, v)
     elif view == "vorticity":
         out = vorticity_1_s(np.where(fluid, u, 0.0), np.where(fluid, v, 0.0), dx_m)
     else:

@@ -82,6 +82,44 @@ def test_compiled_levels_equal_the_numpy_steps_level_for_level():
             assert np.array_equal(frames.quantise(pixels, lo, hi), _quantise_numpy(pixels, lo, hi)), (lo, hi)
 
 
+def test_a_whole_grid_frame_is_the_reversed_rows_levels_and_a_smaller_one_the_sampled_ones():
+    # encode_frame quantises a whole-grid frame from the field itself with its rows reversed in the kernel
+    # (flip), a smaller one from the sampled pixels: both against the NumPy steps (_quantise_numpy) on the
+    # picture's rows top first, as frames.downsample gives them
+    rng = np.random.default_rng(5)
+    field = rng.normal(1.0, 0.6, (40, 90))
+    field[rng.random(field.shape) < 0.1] = np.nan
+    lo, hi = frames.colour_range(field, None)
+    for canvas in ((90, 40), (45, 20), (30, 13)):
+        w, h = frames.frame_size(40, 90, *canvas)
+        _, pixels = frames.decode_frame(frames.encode_frame(field, "mach", *canvas, None, 0.0, 0))
+        assert pixels.shape == (h, w)
+        assert np.array_equal(pixels, _quantise_numpy(frames.downsample(field, w, h), lo, hi)), canvas
+
+
+def test_view_values_carry_the_finite_range_of_their_values():
+    # the range the point-view kernel finds in its pass equals frames.finite_range of the values (NumPy's
+    # NaN-skipping min and max), with walls, NaN, infinities and a row with no finite value
+    from shockslate.solver.gas import Gas
+
+    rng = np.random.default_rng(8)
+    ny, nx = 12, 33
+    rho = rng.uniform(0.5, 2.0, (ny, nx))
+    u, v = rng.normal(0.0, 300.0, (ny, nx)), rng.normal(0.0, 100.0, (ny, nx))
+    p = rng.uniform(1e4, 2e5, (ny, nx))
+    mask = (rng.random((ny, nx)) < 0.2).astype(np.uint8)  # 1: wall
+    mask[5] = 1  # a row of walls only
+    p[2, 3] = 0.0  # temperature 0, Mach inf
+    rho[7, 8] = np.nan
+    gas = Gas(gamma=1.4, molar_mass_kg_kmol=28.97)
+    for view in frames.frame_kernels.POINT_VIEWS:
+        values, finite = frames.view_values(view, gas, rho, u, v, p, 1e-3, mask)
+        assert finite == frames.finite_range(values), view
+        assert frames.colour_range(values, None, finite) == frames.colour_range(values, None), view
+    walls = np.ones((ny, nx), np.uint8)
+    assert frames.view_values("mach", gas, rho, u, v, p, 1e-3, walls)[1] is None
+
+
 def test_auto_and_fixed_colour_range():
     field = np.array([[1.0, np.nan], [3.0, 2.0]])
     assert frames.colour_range(field, None) == (1.0, 3.0)
@@ -139,6 +177,54 @@ def test_sonic_line_skips_wall_squares_and_handles_saddles():
     assert len(segs) == 2
     mach[0, 0] = np.nan
     assert frames.sonic_line(mach, np.array([0.0, 1.0]), np.array([0.0, 1.0])) == []
+
+
+def _sonic_line_numpy(mach: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """frames.sonic_line's segments as the NumPy joins that frame_kernels.level_segments replaced, kept here as
+    its reference: crossed squares found, crossing points on all four edges, then the two-crossing squares and the
+    saddles (split by the mean of their corners) joined by index arithmetic."""
+    f = mach - 1.0
+    jj, ii = np.nonzero(np.ones((f.shape[0] - 1, f.shape[1] - 1), bool))
+    av, bv, cv, dv = f[jj, ii], f[jj, ii + 1], f[jj + 1, ii + 1], f[jj + 1, ii]
+    keep = np.isfinite(av) & np.isfinite(bv) & np.isfinite(cv) & np.isfinite(dv)
+    jj, ii, av, bv, cv, dv = jj[keep], ii[keep], av[keep], bv[keep], cv[keep], dv[keep]
+    pa, pb, pc, pd = av > 0, bv > 0, cv > 0, dv > 0
+    cr = np.stack([pa != pb, pb != pc, pd != pc, pa != pd])
+    crossed = cr.sum(axis=0) >= 2
+    jj, ii, av, bv, cv, dv, pa, cr = jj[crossed], ii[crossed], av[crossed], bv[crossed], cv[crossed], \
+        dv[crossed], pa[crossed], cr[:, crossed]
+    x0, y0, dx, dy = x[ii], y[jj], x[1] - x[0], y[1] - y[0]
+
+    def frac(p, q):
+        with np.errstate(invalid="ignore", divide="ignore"):
+            t = p / (p - q)
+        return np.clip(np.nan_to_num(t, nan=0.5), 0.0, 1.0)
+
+    ex = np.stack([x0 + frac(av, bv) * dx, x0 + dx, x0 + frac(dv, cv) * dx, x0])
+    ey = np.stack([y0, y0 + frac(bv, cv) * dy, y0 + dy, y0 + frac(av, dv) * dy])
+    two = cr.sum(axis=0) == 2
+    k = np.nonzero(two)[0]
+    first, last = np.argmax(cr[:, k], axis=0), 3 - np.argmax(cr[::-1, k], axis=0)
+    segments = [np.stack([ex[first, k], ey[first, k], ex[last, k], ey[last, k]], axis=1)]
+    k = np.nonzero(~two)[0]
+    join_ac = ((av[k] + bv[k] + cv[k] + dv[k]) > 0) == pa[k]
+    for e1, e2 in ((np.where(join_ac, 0, 3), np.where(join_ac, 1, 0)), (np.where(join_ac, 2, 1), np.where(join_ac, 3, 2))):
+        segments.append(np.stack([ex[e1, k], ey[e1, k], ex[e2, k], ey[e2, k]], axis=1))
+    return np.concatenate(segments, axis=0)
+
+
+def test_compiled_sonic_line_equals_the_numpy_joins_segment_for_segment():
+    # frame_kernels.level_segments against the NumPy form it replaced (_sonic_line_numpy), on a noisy field
+    # full of saddles, with walls (NaN) and infinities; the same segments, bit for bit, in any order
+    rng = np.random.default_rng(12)
+    mach = 1.0 + rng.normal(0.0, 1.0, (41, 57))
+    mach[rng.random(mach.shape) < 0.08] = np.nan
+    mach[0, :4] = [np.inf, -np.inf, 1.0, 1.0]
+    x, y = np.arange(57) * 2.5e-3 + 1e-3, np.arange(41) * 2.5e-3 - 0.05
+    mine = frames.sonic_segments(mach, x, y)
+    ref = _sonic_line_numpy(mach, x, y)
+    assert len(ref) > 300 and len(mine) == len(ref)
+    assert sorted(map(tuple, mine.tolist())) == sorted(map(tuple, ref.tolist()))
 
 
 def test_velocity_arrows_sample_gas_cells_only():
