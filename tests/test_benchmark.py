@@ -62,3 +62,18 @@ def test_settle_speedup_figures_on_a_small_duct():
     assert fig["mass_flow_kg_s"]["largest_difference_fraction"] < 0.005
     assert fig["thrust_n"]["largest_difference_fraction"] < 0.005
     assert fig["settle_steps"] < fig["time_accurate_steps"]
+
+
+def test_streaming_slowdown_compares_each_phase_with_the_phases_around_it():
+    # bench --serve's slowdown figure: with the machine's speed drifting steadily (here 2 % a phase) and the tab
+    # costing 5 %, each ratio to the mean of the phases just before and after is 0.95 exactly, where the ratio to
+    # the phase before alone would read 0.969 (the drift taken for a gain). Common practice for interleaved
+    # measurements, no source.
+    from shockslate.bench.serve_bench import sandwich_ratios
+
+    speed = [20.0 * (1.0 + 0.02 * k) for k in range(9)]  # phases A0 C0 A1 C1 ... A4
+    alone, streaming = speed[0::2], [0.95 * s for s in speed[1::2]]
+    ratios = sandwich_ratios(alone, streaming)
+    assert len(ratios) == 4
+    assert all(abs(r - 0.95) < 1e-12 for r in ratios)
+    assert streaming[0] / alone[0] > 0.968  # what comparing with the phase before only would say
