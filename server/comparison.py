@@ -185,9 +185,7 @@ class Comparison:
         return steps
 
     def snapshot(self) -> FlowSnapshot:
-        rho, u, v, p = self.sim.primitive()
-        return FlowSnapshot(self.version, self.sim.time_s, self.sim.steps, rho, u, v, p, self.sim.mask.copy(),
-                            self.sim.setup.gas, self.sim.domain)
+        return FlowSnapshot.of_simulation(self.sim, self.version)
 
     def message(self, main: scn.Scenario) -> dict:
         """The `comparison` message: what differs, by how much the comparison is behind, any note."""

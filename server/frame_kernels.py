@@ -24,31 +24,36 @@ POINT_VIEWS = {"density": 0, "pressure": 1, "temperature": 2, "mach": 3, "speed"
 
 
 @njit(**_SERIAL)
-def point_view(view_id, rho, u, v, p, mask, wall, gamma, r_gas, out, row_lo, row_hi):
-    """The point view `view_id` (POINT_VIEWS) of each cell in SI units, NaN where mask == wall (solver.fields), and
+def point_view(view_id, w, kind, g, wall, gamma, r_gas, out, row_lo, row_hi):
+    """The point view `view_id` (POINT_VIEWS) of each cell in SI units, NaN where kind == wall (solver.fields), and
     each row's smallest and largest finite value (inf and -inf for a row with none), so the colour range comes
-    with the values. One loop per view and row, with no branch inside, so that it vectorises."""
+    with the values. w: the primitive state (rho, u, v, p) as one C-ordered (4, ny + 2g, nx + 2g) array and kind
+    its (ny + 2g, nx + 2g) kinds, g cells of padding around the (ny, nx) of `out`: a running simulation's own
+    arrays (g its ghost cells) or a snapshot's copy (g = 0), read in place. One loop per view and row, with no
+    branch inside, so that it vectorises."""
     ny, nx = out.shape
     for j in range(ny):
-        r, uu, vv, pp, m, o = rho[j], u[j], v[j], p[j], mask[j], out[j]
+        r, uu, vv, pp, m, o = w[0, j + g], w[1, j + g], w[2, j + g], w[3, j + g], kind[j + g], out[j]
         if view_id == 0:
             for i in range(nx):
-                o[i] = r[i]
+                o[i] = r[i + g]
         elif view_id == 1:
             for i in range(nx):
-                o[i] = pp[i]
+                o[i] = pp[i + g]
         elif view_id == 2:
             for i in range(nx):
-                o[i] = pp[i] / (r[i] * r_gas)
+                o[i] = pp[i + g] / (r[i + g] * r_gas)
         elif view_id == 3:
             for i in range(nx):
-                o[i] = math.sqrt(uu[i] * uu[i] + vv[i] * vv[i]) / math.sqrt(gamma * pp[i] / r[i])
+                a, b = uu[i + g], vv[i + g]
+                o[i] = math.sqrt(a * a + b * b) / math.sqrt(gamma * pp[i + g] / r[i + g])
         else:
             for i in range(nx):
-                o[i] = math.sqrt(uu[i] * uu[i] + vv[i] * vv[i])
+                a, b = uu[i + g], vv[i + g]
+                o[i] = math.sqrt(a * a + b * b)
         lo, hi = np.inf, -np.inf
         for i in range(nx):
-            x = np.nan if m[i] == wall else o[i]
+            x = np.nan if m[i + g] == wall else o[i]
             o[i] = x
             if x - x == 0.0:  # finite
                 lo = min(lo, x)
@@ -141,9 +146,9 @@ def quantise_levels(pixels, lo, scale, top, wall, flip, out):
 
 def warm() -> None:
     """Compile (or load from the kernel cache) every kernel here on tiny arrays laid out as the frame path's are
-    (C-ordered float64 snapshot arrays, uint8 kinds)."""
+    (C-ordered float64 states, uint8 kinds)."""
     q = np.ones((2, 2))
     rows = np.empty(2)
-    point_view(3, q, q, q, q, np.zeros((2, 2), np.uint8), 1, 1.4, 287.0, np.empty((2, 2)), rows, rows.copy())
+    point_view(3, np.ones((4, 2, 2)), np.zeros((2, 2), np.uint8), 0, 1, 1.4, 287.0, q.copy(), rows, rows.copy())
     level_segments(q, 1.0, np.zeros(2), np.zeros(2), 1.0, 1.0)
     quantise_levels(q, np.float32(0.0), np.float32(1.0), 254, 255, True, np.empty((2, 2), np.uint8))

@@ -166,18 +166,22 @@ def view_field(view: str, gas: Gas, rho: np.ndarray, u: np.ndarray, v: np.ndarra
 
 
 def view_values(view: str, gas: Gas, rho: np.ndarray, u: np.ndarray, v: np.ndarray, p: np.ndarray,
-                dx_m: float, mask: np.ndarray) -> tuple[np.ndarray, tuple[float, float] | None]:
+                dx_m: float, mask: np.ndarray, padded: tuple[np.ndarray, np.ndarray, int] | None = None
+                ) -> tuple[np.ndarray, tuple[float, float] | None]:
     """view_field's values and their finite min and max (None when there is none). The views of one cell each
     come from a compiled kernel (frame_kernels.point_view) that finds the range in the same pass; the others
-    from derived itself."""
+    from derived itself. padded: (state, kinds, ghost), the C-ordered (4, ny + 2 ghost, nx + 2 ghost) block that
+    rho, u, v and p are interior views of and its kinds (a FlowSnapshot's), read in place by the kernel; without
+    it the four fields are stacked into one first."""
     view_id = frame_kernels.POINT_VIEWS.get(view)
     if view_id is None:
         with np.errstate(invalid="ignore", divide="ignore"):
             out = derived(view, gas, rho, u, v, p, dx_m, mask)
         return out, finite_range(out)
+    state, kinds, ghost = padded if padded is not None else (np.stack([rho, u, v, p]), np.ascontiguousarray(mask), 0)
     out = np.empty(rho.shape)
     row_lo, row_hi = np.empty(rho.shape[0]), np.empty(rho.shape[0])
-    frame_kernels.point_view(view_id, rho, u, v, p, mask, int(CellKind.WALL), float(gas.gamma),
+    frame_kernels.point_view(view_id, state, kinds, ghost, int(CellKind.WALL), float(gas.gamma),
                              float(gas.r_j_kg_k), out, row_lo, row_hi)
     lo, hi = float(row_lo.min(initial=math.inf)), float(row_hi.max(initial=-math.inf))
     return out, ((lo, hi) if lo <= hi else None)

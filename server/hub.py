@@ -241,10 +241,12 @@ class Hub:
         return await asyncio.shield(fut)
 
     async def frame(self, snap: FlowSnapshot, view: ViewChoice, live: bool = False) -> bytes | None:
-        return await self._get(_frame_key(snap, view), lambda: build_frame(snap, view), live)
+        # a snapshot that is no copy (the running flow's own arrays) is never read after its burst: prepared only
+        return await self._get(_frame_key(snap, view), lambda: build_frame(snap, view), live or not snap.detached)
 
     async def overlay_text(self, snap: FlowSnapshot, overlays: tuple[str, ...], live: bool = False) -> str | None:
-        return await self._get(_overlay_key(snap, overlays), lambda: build_overlay_text(snap, overlays), live)
+        return await self._get(_overlay_key(snap, overlays), lambda: build_overlay_text(snap, overlays),
+                               live or not snap.detached)
 
     # ------------------------------------------------------------ the sender
     async def sender(self, client: Client) -> None:
@@ -352,7 +354,8 @@ class _ViewFields:
     def values(self, view: str) -> tuple[np.ndarray, tuple[float, float] | None]:
         if view not in self._done:
             s = self.snap
-            self._done[view] = frames.view_values(view, s.gas, s.rho, s.u, s.v, s.p, s.domain.dx_m, s.mask)
+            padded = (s.state, s.kinds, s.ghost) if s.state is not None else None
+            self._done[view] = frames.view_values(view, s.gas, s.rho, s.u, s.v, s.p, s.domain.dx_m, s.mask, padded)
         return self._done[view]
 
     def __getitem__(self, view: str) -> np.ndarray:

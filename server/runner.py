@@ -194,10 +194,13 @@ class Runner:
             # one, made on the solver's thread while the rebuild wants the CPU); the tabs get held frames (hub.py)
             unchanged = self.session.holding and self.session.flow_version == self._snapshot_version
             if self.hub.wants_frames and (now >= self._next_snapshot_t or divergence is not None) and not unchanged:
-                snap = self.session.snapshot()
+                # a running flow's frames are made here and now from its own arrays (no copy); a flow that stopped
+                # (a divergence) gets a copy, which tabs may still ask other views of
+                live = self.session.running and divergence is None
+                snap = self.session.snapshot(detached=not live)
                 self._snapshot_version = snap.version
                 self.hub.prepare(snap, comparison=self._comparison_snapshot())
-                self._hand_to_loop(self.hub.publish_snapshot, snap, self.session.running)
+                self._hand_to_loop(self.hub.publish_snapshot, snap, live)
                 late = now - self._next_snapshot_t
                 # Keep the schedule (so overruns average out) unless a whole interval behind.
                 self._next_snapshot_t = (self._next_snapshot_t if late < self.snapshot_interval_s else now) \

@@ -34,7 +34,7 @@ from shockslate.solver.gas import PRESETS, Gas
 from shockslate.solver.geometry import SampledWalls, resample_walls, sample_walls
 from shockslate.solver.shapes import Sketch, shape_from_dict
 from shockslate.solver.settle import DEFAULT_LEVELS, GridSequence, LocalStepper, interior_end_m
-from shockslate.solver.simulation import Simulation
+from shockslate.solver.simulation import GHOST, Simulation
 from shockslate.solver.validation import Refused
 
 from . import readings
@@ -115,7 +115,9 @@ class Advanced:
 
 @dataclass(frozen=True)
 class FlowSnapshot:
-    """A copy of the flow for drawing, taken between steps; safe to read in any thread."""
+    """The flow for drawing, taken between steps. A detached snapshot is a copy, safe to read in any thread at any
+    time. One that is not (Session.snapshot(detached=False)) reads the running simulation's own arrays: only for
+    the solver's thread, before its next step (the frames of a running flow, made right there, runner.py)."""
 
     version: int
     time_s: float
@@ -127,6 +129,30 @@ class FlowSnapshot:
     mask: np.ndarray
     gas: Gas
     domain: Domain
+    #: rho, u, v, p as one C-ordered (4, ny + 2 ghost, nx + 2 ghost) array and its kinds, which the fields above
+    #: are interior views of (the frame kernels read these in place)
+    state: np.ndarray | None = None
+    kinds: np.ndarray | None = None
+    ghost: int = 0
+    detached: bool = True
+
+    @classmethod
+    def of_state(cls, version: int, time_s: float, steps: int, state: np.ndarray, kinds: np.ndarray, ghost: int,
+                 gas: Gas, domain: Domain, detached: bool) -> "FlowSnapshot":
+        """A snapshot over a padded primitive state and its kinds (ghost cells around the domain's)."""
+        inner = (slice(ghost, kinds.shape[0] - ghost), slice(ghost, kinds.shape[1] - ghost))
+        return cls(version, time_s, steps, *(state[c][inner] for c in range(4)), kinds[inner], gas, domain,
+                   state, kinds, ghost, detached)
+
+    @classmethod
+    def of_simulation(cls, sim: Simulation, version: int, detached: bool = True) -> "FlowSnapshot":
+        """A snapshot of the simulation: a copy of its interior (detached), or its own arrays in place."""
+        if not detached:
+            return cls.of_state(version, sim.time_s, sim.steps, sim.W, sim.kind, GHOST, sim.setup.gas, sim.domain,
+                                detached=False)
+        state = sim.W[:, GHOST:-GHOST, GHOST:-GHOST].copy()  # one C-ordered block of the four fields
+        return cls.of_state(version, sim.time_s, sim.steps, state, sim.mask.copy(), 0, sim.setup.gas, sim.domain,
+                            detached=True)
 
     @property
     def x_centres_m(self) -> np.ndarray:
@@ -939,11 +965,11 @@ class Session:
         raise RequestError("station", station, "one of the stations: " + (", ".join(names) or "(there are none)"),
                            f"There is no station called {station}.", "one_of")
 
-    def snapshot(self) -> FlowSnapshot:
-        sim = self.shown_sim  # a coarse grid while settle mode's grid sequence runs
-        rho, u, v, p = sim.primitive()
-        return FlowSnapshot(self.flow_version, sim.time_s, sim.steps, rho, u, v, p,
-                            sim.mask.copy(), sim.setup.gas, sim.domain)
+    def snapshot(self, detached: bool = True) -> FlowSnapshot:
+        """The flow the picture shows (a coarse grid while settle mode's grid sequence runs). detached: a copy;
+        otherwise the simulation's own arrays, read in place by the frames the solver's thread makes before its
+        next step (no copy of the four fields 30 times a second)."""
+        return FlowSnapshot.of_simulation(self.shown_sim, self.flow_version, detached)
 
 
 def _detached_copy(sim: Simulation) -> Simulation:

@@ -336,6 +336,53 @@ def test_frames_prepared_with_the_snapshot_serve_every_tab_of_that_view():
     assert other is None  # not prepared while the flow runs: the next snapshot will carry it
 
 
+def test_a_running_flows_frames_from_its_own_arrays_equal_those_of_a_copy_and_are_never_built_later():
+    # Session.snapshot(detached=False) reads the simulation's arrays in place (the frames of a running flow, made in
+    # the solver's thread before its next step): its frames and overlay equal, byte for byte, those of a copy;
+    # and the hub never builds another view from it afterwards, even when not told the flow is live (its arrays
+    # go on changing), while it does from a copy. Reference: the copy (an internal yardstick).
+    import asyncio
+
+    from shockslate.server.hub import Hub, ViewChoice, build_frame, build_overlay_text, _ViewFields
+    from shockslate.server.session import Session
+    from shockslate.solver import scenario as scn
+
+    session = Session(scn.load_builtin(scn.DEFAULT_SCENARIO))
+    for _ in range(30):
+        session.sim.step()
+    assert (session.sim.mask == 1).any()  # walls in the picture
+    in_place, copy = session.snapshot(detached=False), session.snapshot()
+    assert not in_place.detached and copy.detached
+    assert np.shares_memory(in_place.rho, session.sim.W) and not np.shares_memory(copy.rho, session.sim.W)
+    for view in ("mach", "pressure", "temperature", "speed", "density", "schlieren"):
+        for canvas in ((4096, 4096), (100, 60)):
+            choice = ViewChoice(view, *canvas, None, ())
+            assert build_frame(in_place, choice) == build_frame(copy, choice), (view, canvas)
+    assert build_overlay_text(in_place, ("sonic_line", "arrows")) == build_overlay_text(copy, ("sonic_line", "arrows"))
+    assert '"sonic_line":[[' in build_overlay_text(copy, ("sonic_line",), _ViewFields(copy))
+
+    # the hub's prepare, with its view buffers kept from one snapshot to the next, makes those same frames
+    hub = Hub()
+    tab = hub.new_client(_Socket())
+    tab.view = ViewChoice("mach", 4096, 4096, None, ("sonic_line",))
+    for _ in range(2):
+        session.sim.step()
+        now, reference = session.snapshot(detached=False), session.snapshot()
+        hub.prepare(now, with_overlays=True)
+        assert asyncio.run(hub.frame(now, tab.view, live=True)) == build_frame(reference, tab.view)
+        assert asyncio.run(hub.overlay_text(now, ("sonic_line",), live=True)) == \
+            build_overlay_text(reference, ("sonic_line",))
+
+    async def later(snap):
+        hub = Hub()
+        return (await hub.frame(snap, ViewChoice("mach", 64, 64, None, ()), live=False),
+                await hub.overlay_text(snap, ("sonic_line",), live=False))
+
+    assert asyncio.run(later(in_place)) == (None, None)
+    built, overlay = asyncio.run(later(copy))
+    assert frames.decode_frame(built)[0].step == copy.steps and '"type":"overlay"' in overlay
+
+
 def test_frame_kernels_give_the_numpy_forms_values_bit_for_bit():
     """The point views of server/frame_kernels.py against what they replace on the frame path:
     solver.fields.derived (NaN on walls). Equality, not a tolerance: a frame
