@@ -6,9 +6,9 @@ while the solver's second OpenMP thread waits; whatever a frame costs there come
 kernel is one pass with no temporaries of the grid's size, written so that its inner loop vectorises (one loop per
 view, no branch inside, C-ordered rows). They are serial on purpose: a parallel region needs the solver's second
 thread, and on a loaded machine waking it took longer than the work (one run at load 4.4, 512 x 256: 14.9 ms
-parallel against 0.75 ms serial, medians of 150). The snapshot's copy of the flow stays NumPy's (row copies: 0.27
-ms, against 0.56-0.63 ms for a compiled loop). The kernels compute exactly what the NumPy forms do
-(tests/test_frames.py checks them equal).
+parallel against 0.75 ms serial, medians of 150). A running flow's point views read its own padded arrays in place
+(session.FlowSnapshot, detached=False): the copy of its four fields, 0.3 ms a frame there, is left out. The kernels
+compute exactly what the NumPy forms do (tests/test_frames.py checks them equal).
 """
 from __future__ import annotations
 
