@@ -7,6 +7,7 @@ while it runs (conditions, gas, numerics, sketch, resolution) has a method that 
 from __future__ import annotations
 
 import math
+import statistics
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -439,7 +440,9 @@ class Simulation:
         return [m[1] for m in self._ring_meta]
 
     def _reference_rate(self) -> float:
-        return float(np.median([m[4] for m in self._ring_meta])) if self._ring_meta else self._rate
+        """The median wave rate of the kept snapshots. statistics.median on these few numbers gives np.median's
+        value (the middle one, or the mean of the two middle ones) in about 2 us instead of 70, once a step."""
+        return float(statistics.median([m[4] for m in self._ring_meta])) if self._ring_meta else self._rate
 
     def _restore_before_trouble(self) -> tuple[int, float]:
         """Go back to the newest snapshot from before the trouble began; returns its (step, time)."""
