@@ -1,4 +1,5 @@
-"""`shockslate bench`: solver speed, start-up time and memory, beside a plain NumPy baseline.
+"""`shockslate bench`: solver speed, start-up time and memory, beside a plain NumPy baseline, and what streaming to
+one tab costs the live server's solver (`serve_slowdown_fraction`, measure_serving).
 
 Settle mode (solver/settle.py) is timed against time-accurate stepping to the same steady criterion on
 nozzle_sea_level at its own resolution (`settle_speedup`, measure_settle).
@@ -33,6 +34,7 @@ GOALS = {
     "bytes_per_cell_2048x1024": 300.0,
     "product_over_bare_2_threads_512x256": 0.85,
     "settle_speedup": 5.0,
+    "serve_slowdown_fraction_below": 0.10,
 }
 #: Settle mode against time-accurate stepping: the scenario, and the steady criterion both runs are held to
 #: (settle.SettleCheck: residual figure inside the nozzle, up to its exit station, below the tolerance for 50
@@ -313,6 +315,21 @@ def measure_settle(scenario=SETTLE_SCENARIO, nx: int | None = None, tolerance: f
     }
 
 
+#: The streaming slowdown of the whole benchmark: with-client phases and their length (bench --serve
+#: --serve-slowdown-only measures it alone, 8 phases of 5 s by default); --quick takes fewer.
+SERVE_ROUNDS, SERVE_PHASE_S = 8, 4.0
+SERVE_ROUNDS_QUICK = 4
+
+
+def measure_serving(quick: bool = False) -> dict:
+    """serve_slowdown_fraction beside the solver's figures: the live server (a subprocess) on the default nozzle at
+    512 x 256, its solver's cell updates per second without a tab and with one streaming 30 frames a second
+    (serve_bench.slowdown_only, each phase with the tab against the mean of the phases around it)."""
+    from .serve_bench import slowdown_only
+
+    return slowdown_only(phase_s=SERVE_PHASE_S, rounds=SERVE_ROUNDS_QUICK if quick else SERVE_ROUNDS)
+
+
 def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None, solver_only: bool = False) -> dict:
     """Every figure; solver_only: the solver speed figures at 512x256 (product, bare, NumPy, with walls, the wall
     path's face share) and memory, without the other grids, settle mode and the warm start."""
@@ -337,6 +354,7 @@ def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None, s
     array_bytes, rss_bytes = measure_memory(2048, 1024)
     key = next((g for g in results if (g["nx"], g["ny"], g["threads"]) == (512, 256, all_threads)), results[-1])
     settled = None if solver_only else measure_settle(nx=settle_nx)
+    serving = None if solver_only else measure_serving(quick=settle_nx is not None)
     return {
         "scheme": scheme_label(),
         "bare_cell_updates_per_s": key["bare_cell_updates_per_s"],
@@ -352,6 +370,8 @@ def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None, s
                   "plain_wall_path_face_share": shares["plain"]},
         "settle_speedup": None if settled is None else settled["settle_speedup"],
         "settle": settled,
+        "serve_slowdown_fraction": None if serving is None else serving["serve_slowdown_fraction"],
+        "serve": serving,
         "warm_start_s": None if solver_only else measure_warm_start(),
         "bytes_per_cell_2048x1024": array_bytes,
         "rss_growth_bytes_per_cell_2048x1024": rss_bytes,
@@ -382,6 +402,11 @@ def _print_table(report: dict) -> None:
           f"{' (at least: the time-accurate run was stopped unsettled)' if st['capped'] else ''}; mass flow and "
           f"thrust differ by at most {100 * st['mass_flow_kg_s']['largest_difference_fraction']:.2f} % and "
           f"{100 * st['thrust_n']['largest_difference_fraction']:.2f} %")
+    sv = report["serve"]
+    print(f"streaming one tab at {sv['frame_size'][0]}x{sv['frame_size'][1]}, {sv['frames_per_s']:.1f} frames/s: "
+          f"solver {sv['cell_updates_per_s_with_client'] / 1e6:.1f} against "
+          f"{sv['cell_updates_per_s_without_client'] / 1e6:.1f} Mcell-updates/s without, slowdown "
+          f"{100 * sv['serve_slowdown_fraction']:.1f} % (goal < 10 %)")
     print(f"warm start to first step: {report['warm_start_s']:.2f} s")
     print(f"memory at 2048x1024: {report['bytes_per_cell_2048x1024']:.0f} bytes/cell in arrays, "
           f"{report['rss_growth_bytes_per_cell_2048x1024']:.0f} bytes/cell resident growth")
