@@ -330,9 +330,11 @@ def measure_serving(quick: bool = False) -> dict:
     return slowdown_only(phase_s=SERVE_PHASE_S, rounds=SERVE_ROUNDS_QUICK if quick else SERVE_ROUNDS)
 
 
-def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None, solver_only: bool = False) -> dict:
+def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None, solver_only: bool = False,
+                  quick: bool = False) -> dict:
     """Every figure; solver_only: the solver speed figures at 512x256 (product, bare, NumPy, with walls, the wall
-    path's face share) and memory, without the other grids, settle mode and the warm start."""
+    path's face share) and memory, without the other grids, settle mode, the streaming slowdown and the warm
+    start; quick: the streaming slowdown from fewer phases (SERVE_ROUNDS_QUICK)."""
     import numba
 
     all_threads = numba.config.NUMBA_NUM_THREADS
@@ -354,7 +356,7 @@ def run_benchmark(repeats: int = 5, grids=GRIDS, settle_nx: int | None = None, s
     array_bytes, rss_bytes = measure_memory(2048, 1024)
     key = next((g for g in results if (g["nx"], g["ny"], g["threads"]) == (512, 256, all_threads)), results[-1])
     settled = None if solver_only else measure_settle(nx=settle_nx)
-    serving = None if solver_only else measure_serving(quick=settle_nx is not None)
+    serving = None if solver_only else measure_serving(quick=quick)
     return {
         "scheme": scheme_label(),
         "bare_cell_updates_per_s": key["bare_cell_updates_per_s"],
@@ -430,7 +432,8 @@ def main(args: argparse.Namespace) -> int:
         from shockslate.solver.scenario import load_builtin
 
         settle_nx = load_builtin(SETTLE_SCENARIO).domain.nx // 2
-    report = run_benchmark(repeats=args.repeats, grids=grids, settle_nx=settle_nx, solver_only=args.solver_only)
+    report = run_benchmark(repeats=args.repeats, grids=grids, settle_nx=settle_nx, solver_only=args.solver_only,
+                           quick=args.quick)
     if args.json:
         print(json.dumps(report, indent=2))
     else:
